@@ -1,0 +1,7 @@
+"""``python -m surveytools`` runs the command line."""
+
+import sys
+
+from surveytools.cli import main
+
+sys.exit(main())

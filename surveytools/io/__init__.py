@@ -1,0 +1,1 @@
+"""Reading survey workbooks safely and writing result files."""

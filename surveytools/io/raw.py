@@ -1,0 +1,170 @@
+"""What the reader hands to validation: cell values with their spreadsheet locations.
+
+The reader (``surveytools.io.read``) never interprets acoustics; it returns tables of typed
+column values plus the cells that did not fit the column's type, each traceable to a sheet,
+row and column letter. Validation (``surveytools.validation``) turns these into a
+:class:`~surveytools.survey.Survey`.
+
+Row arithmetic: position ``i`` in a :class:`RawColumn` is spreadsheet row
+``table.first_data_row + i`` (1-based, as a person sees it).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+import pandas as pd
+
+from surveytools.validation.findings import Finding
+
+ColumnKind = Literal["number", "datetime", "text", "bool", "empty"]
+
+
+@dataclass(frozen=True)
+class SourceInfo:
+    """Identity of one input file.
+
+    Parameters
+    ----------
+    path : str
+        Path as given (absolute), for re-runs and ``verify``.
+    file : str
+        File name shown to people (``east_gate.xlsx``).
+    sha256 : str
+        Hex digest of the file's bytes.
+    size_bytes : int
+        File size. [bytes]
+    """
+
+    path: str
+    file: str
+    sha256: str
+    size_bytes: int
+
+
+@dataclass
+class RawColumn:
+    """One column of a table sheet.
+
+    Parameters
+    ----------
+    header : str
+        Header text exactly as in the sheet (stripped of surrounding spaces).
+    letter : str
+        Column letter (``"C"``).
+    kind : ColumnKind
+        Dominant type of the column's cells.
+    values : pandas.Series
+        Typed values, RangeIndex ``0..n-1``: ``float64`` (NaN = empty) for numbers,
+        ``datetime64[ms]`` (NaT = empty) for date-times (naive, as written in the sheet),
+        ``object`` (``str`` or ``None``) for text, ``boolean`` for yes/no cells.
+    text_cells : dict of int to str
+        Cells whose content did not fit ``kind`` (e.g. ``"OVL"`` or ``"55,2"`` in a number
+        column, ISO text in a date-time column), by position; their ``values`` entry is empty.
+    error_cells : dict of int to str
+        Cells holding a spreadsheet error value (``"#DIV/0!"``), by position.
+    formula_without_value : set of int
+        Positions of formula cells that carry no cached value (the value is treated as empty).
+    """
+
+    header: str
+    letter: str
+    kind: ColumnKind
+    values: pd.Series
+    text_cells: dict[int, str] = field(default_factory=dict)
+    error_cells: dict[int, str] = field(default_factory=dict)
+    formula_without_value: set[int] = field(default_factory=set)
+
+
+@dataclass
+class RawTable:
+    """A table sheet (Readings, Weather, Exclusions): one header row, then data rows.
+
+    Parameters
+    ----------
+    sheet : str
+        Sheet name as it appears in the workbook.
+    header_row : int
+        Spreadsheet row number of the header row (title rows above it are skipped).
+    columns : list of RawColumn
+        In sheet order; unknown columns are kept too.
+    n_rows : int
+        Number of data rows below the header, trailing empty rows excluded.
+    """
+
+    sheet: str
+    header_row: int
+    columns: list[RawColumn]
+    n_rows: int
+
+    @property
+    def first_data_row(self) -> int:
+        """Spreadsheet row number of data position 0."""
+        return self.header_row + 1
+
+    def spreadsheet_rows(self) -> pd.Series:
+        """Return the spreadsheet row number of every data position (int64)."""
+        return pd.Series(range(self.first_data_row, self.first_data_row + self.n_rows), dtype="int64")
+
+
+@dataclass(frozen=True)
+class KeyValue:
+    """One ``key | value`` line of a key/value sheet (Survey).
+
+    Parameters
+    ----------
+    key : str
+        Key text as written.
+    value : Any
+        Cell value as read (``str``, ``float``, ``int``, ``bool``, ``datetime``, or ``None``).
+    row : int
+        Spreadsheet row number.
+    key_column : str
+        Letter of the key cell.
+    value_column : str
+        Letter of the value cell.
+    """
+
+    key: str
+    value: Any
+    row: int
+    key_column: str
+    value_column: str
+
+
+@dataclass
+class KeyValueSheet:
+    """A key/value sheet: keys in one column, values in the next."""
+
+    sheet: str
+    entries: list[KeyValue]
+
+
+@dataclass
+class RawWorkbook:
+    """Everything read from one input file, before validation.
+
+    Parameters
+    ----------
+    source : SourceInfo
+        File identity.
+    readings : RawTable or None
+        The readings table; None when no sheet could be identified as one (a finding says why).
+    survey : KeyValueSheet or None
+        The Survey key/value sheet, if present.
+    weather, exclusions : RawTable or None
+        Optional sheets.
+    findings : list of Finding
+        Reader-level findings (hidden sheet used, merged cells, formulas without values, ...).
+    date_system : int
+        1900 or 1904 (the workbook's date epoch; already applied to date-time values).
+    """
+
+    source: SourceInfo
+    readings: RawTable | None
+    survey: KeyValueSheet | None = None
+    weather: RawTable | None = None
+    exclusions: RawTable | None = None
+    findings: list[Finding] = field(default_factory=list)
+    date_system: int = 1900

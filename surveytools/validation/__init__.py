@@ -1,0 +1,1 @@
+"""Validation: schemas, vectorised row checks and the findings they produce."""
