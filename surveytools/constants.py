@@ -67,9 +67,9 @@ LAEQ16_START_H = 7.0
 #: End of the LAeq,16h window / start of LAeq,8h [h]. Same source.
 LAEQ16_END_H = 23.0
 
-#: Hours in a day [h].
+#: Hours in a day [h]. Definition (ISO 80000-3: 1 d = 24 h).
 HOURS_PER_DAY = 24.0
-#: Seconds in an hour [s].
+#: Seconds in an hour [s]. Definition (ISO 80000-3: 1 h = 3600 s).
 SECONDS_PER_HOUR = 3600.0
 
 # --------------------------------------------------------------------------------------
@@ -180,3 +180,95 @@ LEX8H_UPPER_ACTION_DB = 85.0
 LEX8H_LIMIT_DB = 87.0
 #: Reference duration of the working day for LEX,8h [s]. ISO 9612:2009 (T0 = 8 h).
 LEX_REFERENCE_DURATION_S = 8.0 * 3600.0
+
+# --------------------------------------------------------------------------------------
+# Indicator core (surveytools.indicators): period lengths, percent, whole-dB reporting
+# --------------------------------------------------------------------------------------
+
+#: Nominal day length in Lden [h]. Directive 2002/49/EC Annex I §1 ("the day is 12 hours,
+#: the evening four hours and the night eight hours").
+LDEN_DAY_HOURS_H = 12.0
+#: Nominal evening length in Lden [h]. Directive 2002/49/EC Annex I §1 (Member States may
+#: shorten it by one or two hours).
+LDEN_EVENING_HOURS_H = 4.0
+#: Nominal night length in Lden [h]. Directive 2002/49/EC Annex I §1.
+LDEN_NIGHT_HOURS_H = 8.0
+#: Ldn day length [h]: 07:00-22:00. Derived from LDN_DAY_START_H / LDN_NIGHT_START_H
+#: (National Academies glossary, ANSI terminology); Engineering ToolBox Ldn formula (15 h).
+LDN_DAY_HOURS_H = 15.0
+#: Ldn night length [h]: 22:00-07:00. Same source (Engineering ToolBox formula: 9 h).
+LDN_NIGHT_HOURS_H = 9.0
+#: CNEL day length [h]: 07:00-19:00. Derived from the CNEL_*_START_H (ASA/ANSI terminology).
+CNEL_DAY_HOURS_H = 12.0
+#: CNEL evening length [h]: 19:00-22:00. Same source.
+CNEL_EVENING_HOURS_H = 3.0
+#: CNEL night length [h]: 22:00-07:00. Same source.
+CNEL_NIGHT_HOURS_H = 9.0
+
+#: Percent of a whole (N in LN is a percentage of the time interval) [%]. Definition.
+PERCENT_OF_WHOLE = 100.0
+
+#: Resolution to which logged background levels are rounded for the modal value [dB].
+#: BS 4142:2014 3.4 (background LA90 "quoted to the nearest whole number of decibels",
+#: secondary source).
+WHOLE_DB_STEP_DB = 1.0
+#: Half a whole-dB step: values ending in .5 round up (round half up) [dB]. Common practice
+#: (arithmetic rounding as taught in school; BS 4142 does not state a tie rule).
+WHOLE_DB_HALF_STEP_DB = 0.5
+
+# --------------------------------------------------------------------------------------
+# Frequency weightings (IEC 61672-1:2013 Annex E) and one-third-octave bands
+# --------------------------------------------------------------------------------------
+
+#: Factor between a level and the log of an amplitude (pressure) ratio, L = 20 lg(p/p0).
+#: ISO 80000-8 (level of a root-power quantity).
+DB_PER_DECADE_AMPLITUDE = 20.0
+#: Reference frequency fr of the weightings [Hz]. IEC 61672-1:2013 Annex E (E.2); 2002
+#: edition 5.4.6 / eq. (9)-(14).
+WEIGHTING_FR_HZ = 1000.0
+#: Low-frequency pole fL = 10^1.5 Hz. IEC 61672-1:2013 Annex E.
+WEIGHTING_FL_HZ = 10.0**1.5
+#: High-frequency pole fH = 10^3.9 Hz. IEC 61672-1:2013 Annex E.
+WEIGHTING_FH_HZ = 10.0**3.9
+#: A-weighting high-pass pole fA = 10^2.45 Hz. IEC 61672-1:2013 Annex E.
+WEIGHTING_FA_HZ = 10.0**2.45
+#: D, with D^2 = 1/2. IEC 61672-1:2013 Annex E.
+WEIGHTING_D = math.sqrt(0.5)
+#: Base-ten band ratio: exact mid-band frequency fm = fr * 10^(n / this). IEC 61260-1:2014
+#: (base-ten system, one-third-octave: G = 10^(3/10), b = 3); IEC 61672-1:2013 Table 3.
+THIRD_OCTAVE_BANDS_PER_DECADE = 10.0
+#: Nominal one-third-octave mid-band frequencies 10 Hz - 20 kHz [Hz]. IEC 61672-1:2013
+#: Table 3 (labels of the 34 bands n = -20 ... 13).
+NOMINAL_THIRD_OCTAVE_HZ = (
+    10.0, 12.5, 16.0, 20.0, 25.0, 31.5, 40.0, 50.0, 63.0, 80.0,
+    100.0, 125.0, 160.0, 200.0, 250.0, 315.0, 400.0, 500.0, 630.0, 800.0,
+    1000.0, 1250.0, 1600.0, 2000.0, 2500.0, 3150.0, 4000.0, 5000.0, 6300.0, 8000.0,
+    10000.0, 12500.0, 16000.0, 20000.0,
+)
+#: Largest distance, in band numbers, between 10 lg(f_nominal / fr) and the nearest whole
+#: band number for a frequency to count as a one-third-octave band. Own choice (no
+#: standard): nominal labels lie within 0.04 band of their exact frequency (IEC 61672-1
+#: Table 3), so 0.15 rejects non-band headers and accepts every nominal label.
+NOMINAL_BAND_MATCH_TOLERANCE = 0.15
+
+# --------------------------------------------------------------------------------------
+# Propagation (geometric divergence)
+# --------------------------------------------------------------------------------------
+
+#: Point source: level falls by 20 lg(r2/r1) dB. ISO 9613-2:1996 7.1 (Adiv = 20 lg(d/d0) + 11),
+#: 6 dB per doubling of distance (Hong Kong EPD noise education).
+POINT_SOURCE_DB_PER_DECADE_DISTANCE = 20.0
+#: Incoherent line source: level falls by 10 lg(r2/r1) dB, 3 dB per doubling of distance.
+#: Hong Kong EPD noise education ("line source -3 dB per doubling").
+LINE_SOURCE_DB_PER_DECADE_DISTANCE = 10.0
+
+# --------------------------------------------------------------------------------------
+# Spreadsheet format limits (used by surveytools.io)
+# --------------------------------------------------------------------------------------
+
+#: Rows in one worksheet. Microsoft "Excel specifications and limits": 1,048,576 rows.
+SHEET_MAX_ROWS = 1_048_576
+#: Columns in one worksheet. Same source: 16,384 columns (XFD).
+SHEET_MAX_COLUMNS = 16_384
+#: Characters one cell can hold. Same source: 32,767 characters.
+CELL_MAX_CHARS = 32_767

@@ -1,0 +1,336 @@
+r"""Exceedance (percentile) levels LN and the combination of logged LAFN values.
+
+Convention (design.md §5): LN is the lowest level :math:`L` such that the time during
+which the level is *strictly above* :math:`L` is at most N % of the valid time,
+
+.. math:: L_N = \min\{L : \sum_{i: L_i > L} t_i \le \tfrac{N}{100} \sum_i t_i\},
+
+with each sample holding its level for its duration. For equal durations this is the
+"strictly exceeded" column of the 20-sample table in standards.md §10 (the (k+1)-th
+highest sample, k = ⌈N n / 100⌉, when N n / 100 is a whole number; L10 = 58, L50 = 47,
+L90 = 44 there), not the "equalled or exceeded" column and not linear interpolation.
+It equals numpy's weighted ``inverted_cdf`` quantile at ``1 - N/100``.
+
+LN computed from interval LAeq samples is not the meter's LAFN (from 125 ms F-weighted
+samples); callers label which basis they used.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from surveytools.constants import (
+    PERCENT_OF_WHOLE,
+    WHOLE_DB_HALF_STEP_DB,
+    WHOLE_DB_STEP_DB,
+)
+from surveytools.indicators._arrays import FloatArray, as_float_array, as_group_array
+
+__all__ = [
+    "COMBINE_METHODS",
+    "combine_logged_levels",
+    "exceedance_level",
+    "exceedance_levels",
+    "grouped_exceedance_levels",
+    "whole_db_distribution",
+]
+
+#: Named ways to combine per-interval logged LAFN values over a longer period.
+COMBINE_METHODS = ("median", "mode", "mean")
+
+
+def _cdf_targets(percents: ArrayLike) -> FloatArray:
+    """Return ``1 - N/100`` per percent; NaN for percents outside [0, 100] or NaN."""
+    values = np.atleast_1d(as_float_array(percents)).astype(np.float64).ravel()
+    ok = np.isfinite(values) & (values >= 0) & (values <= PERCENT_OF_WHOLE)
+    return np.where(ok, 1.0 - values / PERCENT_OF_WHOLE, np.nan)
+
+
+def _sorted_valid(
+    levels_db: ArrayLike, durations_s: ArrayLike | None
+) -> tuple[FloatArray, FloatArray]:
+    """Finite levels with positive finite durations, sorted by level, and their weights."""
+    levels = as_float_array(levels_db).ravel()
+    if durations_s is None:
+        weights = np.ones(levels.shape)
+    else:
+        weights = as_float_array(durations_s)
+        try:
+            weights = np.broadcast_to(weights, as_float_array(levels_db).shape).ravel()
+        except ValueError as exc:
+            raise ValueError(
+                f"levels_db has {levels.size} values but durations_s has shape "
+                f"{weights.shape}; pass one duration per level (or one for all)"
+            ) from exc
+    keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0)
+    levels, weights = levels[keep], weights[keep]
+    order = np.argsort(levels, kind="stable")
+    return levels[order], weights[order]
+
+
+def exceedance_levels(
+    levels_db: ArrayLike, percents: ArrayLike, durations_s: ArrayLike | None = None
+) -> FloatArray:
+    r"""Exceedance levels LN for several N at once.
+
+    Parameters
+    ----------
+    levels_db : array-like
+        Sample levels (e.g. 1 s or 1 min LAeq). [dB]
+    percents : array-like
+        The N values. [%]
+    durations_s : array-like, optional
+        Time each sample represents (weights); equal if omitted. [s]
+
+    Returns
+    -------
+    numpy.ndarray
+        One LN per percent, always a sample level; NaN for N outside [0, 100] or when no
+        finite sample with positive duration exists. [dB]
+
+    Notes
+    -----
+    With weights :math:`t_{(j)}` of the levels sorted upwards, :math:`L_N` is the first
+    :math:`L_{(j)}` whose normalised cumulative weight
+    :math:`\sum_{i \le j} t_{(i)} / T` reaches :math:`1 - N/100`. Ties at an exact
+    cumulative boundary are resolved exactly when the durations are exact binary
+    fractions (whole seconds, multiples of 1/8 s) or when integer milliseconds are passed
+    as weights (only ratios matter).
+
+    References
+    ----------
+    .. [1] ISO 1996-1:2016, N percent exceedance level (level exceeded for N % of the time
+       interval considered).
+    .. [2] design.md §5 (the convention pinned here).
+    """
+    targets = _cdf_targets(percents)
+    levels, weights = _sorted_valid(levels_db, durations_s)
+    out = np.full(targets.shape, np.nan)
+    if levels.size == 0:
+        return out
+    cdf = np.cumsum(weights)
+    cdf /= cdf[-1]
+    ok = np.isfinite(targets)
+    index = np.searchsorted(cdf, targets[ok], side="left")
+    out[ok] = levels[np.minimum(index, levels.size - 1)]
+    return out
+
+
+def exceedance_level(
+    levels_db: ArrayLike, percent: float, durations_s: ArrayLike | None = None
+) -> float:
+    r"""Exceedance level LN: the lowest level exceeded for at most N % of the time.
+
+    .. math:: L_N = \min\{L : \sum_{i: L_i > L} t_i \le \tfrac{N}{100} T\}
+
+    Our convention matches the "strictly exceeded" column of standards.md §10 (for the
+    20 equal samples there: L10 = 58, L50 = 47, L90 = 44).
+
+    Parameters
+    ----------
+    levels_db : array-like
+        Sample levels. [dB]
+    percent : float
+        N. [%]
+    durations_s : array-like, optional
+        Time each sample represents (weights); equal if omitted. [s]
+
+    Returns
+    -------
+    float
+        LN (one of the sample levels); NaN if N is outside [0, 100] or nothing is finite.
+        [dB]
+
+    References
+    ----------
+    .. [1] ISO 1996-1:2016, N percent exceedance level.
+    .. [2] design.md §5.
+    """
+    return float(exceedance_levels(levels_db, [percent], durations_s)[0])
+
+
+def grouped_exceedance_levels(
+    levels_db: ArrayLike,
+    durations_s: ArrayLike | None,
+    groups: ArrayLike,
+    n_groups: int,
+    percents: ArrayLike,
+) -> FloatArray:
+    """Exceedance levels LN per group, vectorised over all groups at once.
+
+    Samples are sorted by (group, level) with ``np.lexsort``; cumulative weights restart
+    in each group and are normalised by the group total; for each percent the first
+    sample per group whose normalised cumulative weight reaches ``1 - N/100`` is found by
+    counting, per group, the samples below the target (the same comparison as
+    :func:`exceedance_level`, so results are identical group by group).
+
+    Parameters
+    ----------
+    levels_db : array-like
+        Sample levels. [dB]
+    durations_s : array-like or None
+        Time each sample represents; equal if None. [s]
+    groups : array-like of int
+        Group index per sample, ``0 .. n_groups-1``; -1 means no group.
+    n_groups : int
+        Number of groups.
+    percents : array-like
+        The N values. [%]
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape ``(n_groups, len(percents))``; NaN for empty groups and invalid N. [dB]
+
+    Raises
+    ------
+    ValueError
+        If the inputs differ in length or ``n_groups`` is negative (programming errors).
+
+    References
+    ----------
+    .. [1] ISO 1996-1:2016, N percent exceedance level.
+    .. [2] design.md §5.
+    """
+    targets = _cdf_targets(percents)
+    levels = as_float_array(levels_db).ravel()
+    weights = (
+        np.ones(levels.shape) if durations_s is None else as_float_array(durations_s).ravel()
+    )
+    group_index = as_group_array(groups, n_groups).ravel()
+    if not (levels.shape == weights.shape == group_index.shape):
+        raise ValueError(
+            f"levels_db, durations_s and groups must have the same length; got "
+            f"{levels.size}, {weights.size} and {group_index.size}"
+        )
+    out = np.full((n_groups, targets.size), np.nan)
+    keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0) & (group_index >= 0)
+    levels, weights, group_index = levels[keep], weights[keep], group_index[keep]
+    if levels.size == 0:
+        return out
+    order = np.lexsort((levels, group_index))
+    levels, weights, group_index = levels[order], weights[order], group_index[order]
+
+    counts = np.bincount(group_index, minlength=n_groups)
+    starts = np.concatenate(([0], np.cumsum(counts)[:-1]))
+    # Cumulative weights restart in each group. A cumsum over the whole array minus the
+    # group's offset would round differently from the per-group cumsum of
+    # exceedance_level, so the restart is done exactly (see _segmented_cumsum).
+    cdf = _segmented_cumsum(weights, starts, counts)
+    totals = cdf[np.maximum(starts + counts - 1, 0)]
+    cdf = cdf / totals[group_index]
+
+    has_samples = counts > 0
+    last = starts + counts - 1
+    for column, target in enumerate(targets):
+        if not np.isfinite(target):
+            continue
+        below = np.bincount(group_index, weights=(cdf < target), minlength=n_groups)
+        index = np.minimum(starts + below.astype(np.int64), last)
+        out[has_samples, column] = levels[index[has_samples]]
+    return out
+
+
+def _segmented_cumsum(
+    weights: FloatArray, starts: NDArray[np.int64], counts: NDArray[np.int64]
+) -> FloatArray:
+    """Cumulative sum restarting at each segment, bit-identical to a per-segment cumsum.
+
+    The segments are laid out as rows of a zero-padded 2-D array (rows = segments,
+    columns = position in segment) and summed along the rows with one ``np.cumsum``;
+    adding zeros after a segment's end changes nothing, and each row is summed in the
+    same order as a stand-alone ``np.cumsum`` of that segment.
+    """
+    n_segments = counts.size
+    width = int(counts.max()) if n_segments else 0
+    position = np.arange(weights.size) - np.repeat(starts, counts)
+    row = np.repeat(np.arange(n_segments), counts)
+    if n_segments * width <= 4 * weights.size + 1024:
+        padded = np.zeros((n_segments, width))
+        padded[row, position] = weights
+        return np.cumsum(padded, axis=1)[row, position]
+    # Very uneven segments: padding would be wasteful; fall back to one cumsum per
+    # non-empty segment (a loop over groups, not over readings).
+    out = np.empty_like(weights)
+    for start, count in zip(starts[counts > 0], counts[counts > 0], strict=True):
+        out[start : start + count] = np.cumsum(weights[start : start + count])
+    return out
+
+
+def whole_db_distribution(values_db: ArrayLike) -> tuple[FloatArray, NDArray[np.int64]]:
+    """Histogram of values rounded to whole decibels (round half up).
+
+    Parameters
+    ----------
+    values_db : array-like
+        Values, e.g. logged LAF90 per 15 min interval. [dB]
+
+    Returns
+    -------
+    levels_db : numpy.ndarray
+        The distinct whole-dB values, ascending. [dB]
+    counts : numpy.ndarray
+        How many values rounded to each.
+
+    References
+    ----------
+    .. [1] BS 4142:2014 3.4 (background level quoted to the nearest whole dB) and
+       Figure 4 (statistical analysis of background levels), secondary source.
+    """
+    values = as_float_array(values_db).ravel()
+    values = values[np.isfinite(values)]
+    whole = np.floor(values / WHOLE_DB_STEP_DB + WHOLE_DB_HALF_STEP_DB / WHOLE_DB_STEP_DB)
+    levels, counts = np.unique(whole * WHOLE_DB_STEP_DB, return_counts=True)
+    return levels.astype(np.float64), counts.astype(np.int64)
+
+
+def combine_logged_levels(values_db: ArrayLike, method: str) -> float:
+    """Combine per-interval logged LAFN values (e.g. LAF90) over a longer period.
+
+    Logged LAFN values cannot be combined exactly; each method is a labelled convention.
+
+    - ``"median"``: median of the values.
+    - ``"mode"``: the most frequent whole-dB value (values rounded half up to whole dB).
+      When several values are equally frequent, the lowest is returned: a lower
+      background is the cautious choice for an assessment (it makes the rating's excess
+      over background larger), and it makes the result independent of input order.
+    - ``"mean"``: arithmetic mean of the values (not an energy average).
+
+    Parameters
+    ----------
+    values_db : array-like
+        Logged values, one per interval. [dB]
+    method : str
+        One of :data:`COMBINE_METHODS`.
+
+    Returns
+    -------
+    float
+        The combined value; NaN if no value is finite. [dB]
+
+    Raises
+    ------
+    ValueError
+        If ``method`` is not one of :data:`COMBINE_METHODS`.
+
+    References
+    ----------
+    .. [1] BS 4142:2014 8 and Figure 4 (representative background level from a
+       statistical analysis, modal value), secondary source.
+    .. [2] design.md §5 (named combination methods).
+    """
+    if method not in COMBINE_METHODS:
+        raise ValueError(
+            f"unknown method {method!r}; choose one of {', '.join(COMBINE_METHODS)}"
+        )
+    values = as_float_array(values_db).ravel()
+    values = values[np.isfinite(values)]
+    if values.size == 0:
+        return float("nan")
+    if method == "median":
+        return float(np.median(values))
+    if method == "mean":
+        return float(np.mean(values))
+    levels, counts = whole_db_distribution(values)
+    return float(levels[int(np.argmax(counts))])  # argmax: first (lowest) of the ties

@@ -1,0 +1,197 @@
+"""Exceedance levels LN against standards.md §10 and numpy's weighted quantile."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from surveytools.indicators.percentiles import (
+    COMBINE_METHODS,
+    combine_logged_levels,
+    exceedance_level,
+    exceedance_levels,
+    grouped_exceedance_levels,
+    whole_db_distribution,
+)
+
+# standards.md §10: twenty equal-duration samples with their LN check values.
+TWENTY_SAMPLES = [45, 47, 52, 48, 46, 60, 58, 49, 47, 46, 45, 44, 50, 55, 62, 48, 47, 46, 45, 44]
+
+# Whole-dB levels (ties are frequent) and whole-second durations (exact cumulative sums,
+# so numpy and we see the same cumulative boundaries bit for bit).
+level_st = st.integers(min_value=20, max_value=90).map(float)
+dur_st = st.integers(min_value=1, max_value=3600).map(float)
+percent_st = st.sampled_from([0.0, 1.0, 5.0, 10.0, 25.0, 50.0, 75.0, 90.0, 95.0, 99.0, 100.0])
+
+
+def numpy_ln(levels, percent, durations):
+    """Independent reference: numpy >= 2 weighted inverted-CDF quantile (design.md §5)."""
+    return float(
+        np.quantile(
+            np.asarray(levels, float), 1 - percent / 100,
+            weights=np.asarray(durations, float), method="inverted_cdf",
+        )
+    )
+
+
+@pytest.mark.parametrize(
+    ("percent", "expected"),
+    [
+        # standards.md §10, "strictly exceeded" column ((k+1)-th highest): our convention.
+        pytest.param(10.0, 58.0, id="L10"),
+        pytest.param(50.0, 47.0, id="L50"),
+        pytest.param(90.0, 44.0, id="L90"),
+    ],
+)
+def test_twenty_sample_table_strictly_exceeded(percent, expected):
+    assert exceedance_level(TWENTY_SAMPLES, percent) == expected
+    # numpy's weighted inverted_cdf reproduces the same column (design.md §5 identity).
+    assert numpy_ln(TWENTY_SAMPLES, percent, np.ones(20)) == expected
+
+
+def test_twenty_sample_table_other_columns_differ():
+    # standards.md §10: "equalled or exceeded" gives L10 = 60, L90 = 45 and numpy's
+    # linear interpolation gives 58.2 / 44.9 — our convention is neither.
+    ours = exceedance_levels(TWENTY_SAMPLES, [10, 90])
+    assert list(ours) != [60.0, 45.0]
+    np.testing.assert_allclose(np.percentile(TWENTY_SAMPLES, [90, 10]), [58.2, 44.9], atol=1e-9)
+    assert ours[0] != pytest.approx(58.2, abs=0.01)
+
+
+def test_definition_time_above_at_most_n_percent():
+    # design.md §5 definition checked directly: time(level > LN) <= N % of T, and any
+    # lower sample level breaks it. Durations unequal (hand-chosen).
+    levels = np.array([40.0, 50.0, 60.0, 70.0])
+    durations = np.array([10.0, 60.0, 20.0, 10.0])  # T = 100 s
+    # hand-evaluated: L10: time above 60 is 10 s = 10 % -> L10 = 60; above 50 is 30 s.
+    assert exceedance_level(levels, 10, durations) == 60.0
+    # hand-evaluated: L50: time above 50 = 30 s <= 50 s; above 40 = 90 s > 50 s -> 50.
+    assert exceedance_level(levels, 50, durations) == 50.0
+    # hand-evaluated: L95: above 40 = 90 s <= 95 s -> 40.
+    assert exceedance_level(levels, 95, durations) == 40.0
+
+
+@pytest.mark.parametrize(
+    ("percent", "levels"),
+    [
+        pytest.param(-1.0, [50, 60], id="negative-percent"),
+        pytest.param(101.0, [50, 60], id="percent-over-100"),
+        pytest.param(float("nan"), [50, 60], id="nan-percent"),
+        pytest.param(50.0, [], id="empty"),
+        pytest.param(50.0, [np.nan, "x"], id="nothing-finite"),
+    ],
+)
+def test_bad_input_is_nan(percent, levels):
+    assert math.isnan(exceedance_level(levels, percent))
+
+
+def test_nan_levels_ignored_with_their_durations():
+    # hand-evaluated: the NaN sample's 1000 s must not count: L50 of {40 for 10 s,
+    # 60 for 10 s} is 40 (time above 40 = 10 s = 50 %).
+    assert exceedance_level([40, np.nan, 60], 50, [10, 1000, 10]) == 40.0
+
+
+@given(
+    st.lists(st.tuples(level_st, dur_st), min_size=1, max_size=50),
+    percent_st,
+)
+def test_weighted_matches_numpy_inverted_cdf(samples, percent):
+    levels, durations = zip(*samples, strict=True)
+    assert exceedance_level(levels, percent, durations) == numpy_ln(levels, percent, durations)
+
+
+@given(
+    st.lists(
+        st.tuples(st.floats(min_value=0, max_value=140), st.floats(min_value=0.5, max_value=10)),
+        min_size=1,
+        max_size=50,
+    ),
+    st.floats(min_value=0.5, max_value=99.5),
+)
+def test_definition_holds_for_any_data(samples, percent):
+    # design.md §5: LN = min{L : time(level > L) <= N/100 T}. Check both halves: the
+    # returned level satisfies it, and the next lower sample level does not.
+    levels = np.array([s[0] for s in samples])
+    durations = np.array([s[1] for s in samples])
+    total = durations.sum()
+    ln = exceedance_level(levels, percent, durations)
+    assert durations[levels > ln].sum() <= percent / 100 * total * (1 + 1e-12)
+    lower = levels[levels < ln]
+    if lower.size:
+        assert durations[levels > lower.max()].sum() > percent / 100 * total * (1 - 1e-12)
+
+
+@given(st.lists(st.tuples(st.floats(min_value=0, max_value=140), dur_st), min_size=1, max_size=50))
+def test_l10_ge_l50_ge_l90(samples):
+    levels, durations = zip(*samples, strict=True)
+    l10, l50, l90 = exceedance_levels(levels, [10, 50, 90], durations)
+    assert l10 >= l50 >= l90
+
+
+@given(
+    st.lists(
+        st.tuples(level_st, dur_st, st.integers(min_value=-1, max_value=5)),
+        min_size=1,
+        max_size=80,
+    )
+)
+def test_grouped_equals_per_group(samples):
+    levels, durations, groups = (np.array(x) for x in zip(*samples, strict=True))
+    percents = [0, 10, 50, 90, 95, 100]
+    out = grouped_exceedance_levels(levels, durations, groups, 6, percents)
+    assert out.shape == (6, len(percents))
+    for g in range(6):
+        sel = groups == g
+        expected = exceedance_levels(levels[sel], percents, durations[sel])
+        np.testing.assert_array_equal(out[g], expected)
+
+
+def test_grouped_uneven_groups_fallback_path():
+    # One huge group and many one-sample groups forces the per-group cumsum fallback;
+    # the result must still equal the per-group function (and numpy for the big group).
+    rng = np.random.default_rng(3)
+    big = rng.integers(30, 80, size=3000).astype(float)
+    levels = np.concatenate([big, np.arange(2000, dtype=float)])
+    groups = np.concatenate([np.zeros(3000, dtype=int), np.arange(1, 2001)])
+    durations = rng.integers(1, 60, size=levels.size).astype(float)
+    out = grouped_exceedance_levels(levels, durations, groups, 2001, [10, 90])
+    assert out[0, 0] == numpy_ln(big, 10, durations[:3000])
+    assert out[0, 1] == numpy_ln(big, 90, durations[:3000])
+    np.testing.assert_array_equal(out[1:, 0], np.arange(2000, dtype=float))
+
+
+def test_grouped_length_mismatch():
+    with pytest.raises(ValueError, match="same length"):
+        grouped_exceedance_levels([50, 60], [1, 1], [0], 1, [90])
+
+
+# --- logged LAF90 combination ---------------------------------------------------------
+
+def test_combine_methods_hand_evaluated():
+    values = [40.2, 41.0, 44.6, 40.6, 45.5, np.nan]
+    # hand-evaluated: median of 40.2, 40.6, 41.0, 44.6, 45.5 = 41.0
+    assert combine_logged_levels(values, "median") == 41.0
+    # hand-evaluated: mean = (40.2+41.0+44.6+40.6+45.5)/5 = 211.9/5 = 42.38
+    assert combine_logged_levels(values, "mean") == pytest.approx(42.38, abs=1e-9)
+    # hand-evaluated: whole dB (half up) 40, 41, 45, 41, 46 -> mode 41
+    assert combine_logged_levels(values, "mode") == 41.0
+
+
+def test_mode_round_half_up_and_tie_takes_lower():
+    # hand-evaluated: 44.5 -> 45 (half up, BS 4142 3.4 whole dB), 43.5 -> 44; counts
+    # 44: 2, 45: 2 -> tie -> the lower value 44 (documented cautious choice).
+    assert combine_logged_levels([44.5, 45.2, 43.5, 44.1], "mode") == 44.0
+    levels, counts = whole_db_distribution([44.5, 45.2, 43.5, 44.1, np.nan])
+    np.testing.assert_array_equal(levels, [44.0, 45.0])
+    np.testing.assert_array_equal(counts, [2, 2])
+
+
+def test_combine_nothing_finite_and_unknown_method():
+    for method in COMBINE_METHODS:
+        assert math.isnan(combine_logged_levels([np.nan], method))
+    with pytest.raises(ValueError, match="median, mode, mean"):
+        combine_logged_levels([40.0], "average")
