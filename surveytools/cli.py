@@ -1,21 +1,280 @@
-"""Command line: parse arguments, build options, execute, return an exit code."""
+"""Command line: parse arguments into options, execute, return an exit code.
+
+Exit codes (contract): 0 every input processed without error findings; 1 some inputs had
+errors, were unreadable or were deferred (the rest were still processed); 2 the command
+itself could not run (bad arguments or settings).
+"""
 
 from __future__ import annotations
 
 import argparse
+import json
+import os
 import sys
+import time
+from pathlib import Path
+from typing import Any, TextIO
 
 from surveytools import __version__
+
+EXIT_OK = 0
+EXIT_DATA = 1
+EXIT_USAGE = 2
+
+DEFAULT_OUT = "surveytools_results"
+
+
+class _Parser(argparse.ArgumentParser):
+    """ArgumentParser whose usage errors exit with our code 2 (argparse's default too)."""
+
+    def error(self, message: str) -> Any:  # noqa: D102 - argparse hook
+        self.print_usage(sys.stderr)
+        self.exit(EXIT_USAGE, f"surveytools: error: {message}\n")
 
 
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser for ``surveytools``."""
-    parser = argparse.ArgumentParser(prog="surveytools", description=__doc__)
+    parser = _Parser(
+        prog="surveytools",
+        description="Batch processing of environmental sound survey workbooks.",
+        epilog="Exit codes: 0 all inputs fine; 1 some inputs had errors or could not be read; "
+               "2 the command could not run.")
     parser.add_argument("--version", action="version", version=f"surveytools {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    def common(p: argparse.ArgumentParser) -> None:
+        p.add_argument("paths", nargs="+", type=Path, metavar="PATH",
+                       help="survey workbooks (.xlsx, .xlsm, .csv) or folders holding them")
+        p.add_argument("--settings", type=Path, metavar="FILE", help="settings file (TOML)")
+        p.add_argument("--jobs", type=int, default=os.cpu_count() or 1, metavar="N",
+                       help="inputs processed at once (default: number of cores)")
+        p.add_argument("--format", choices=("text", "json"), default="text",
+                       help="report format on standard output (default: text)")
+        p.add_argument("--quiet", action="store_true", help="no progress display")
+        p.add_argument("--settle", type=float, default=1.0, metavar="SECONDS",
+                       help="wait this long to see whether a file is still being copied "
+                            "(default: 1)")
+        p.add_argument("--timeout", type=float, default=900.0, metavar="SECONDS",
+                       help="time limit per input (default: 900)")
+        p.add_argument("--memory-limit", type=float, default=6.0, metavar="GIB",
+                       help="memory limit per input in GiB (default: 6; 0 = none)")
+
+    run = sub.add_parser("run", help="process survey workbooks into result workbooks and JSON")
+    common(run)
+    run.add_argument("-o", "--output", type=Path, default=Path(DEFAULT_OUT), metavar="OUT",
+                     help=f"folder for results (default: ./{DEFAULT_OUT})")
+    run.add_argument("--readings", action="store_true",
+                     help="always include the annotated readings sheet, however long the log")
+    run.add_argument("--force", action="store_true",
+                     help="reprocess inputs even when unchanged since the last run")
+    run.add_argument("--watch", action="store_true",
+                     help="keep watching the folders and process each new, completed file")
+    run.add_argument("--interval", type=float, default=10.0, metavar="SECONDS",
+                     help="polling interval for --watch (default: 10)")
+    run.add_argument("--max-cycles", type=int, default=0, help=argparse.SUPPRESS)
+
+    check = sub.add_parser("check", help="validate survey workbooks without computing results")
+    common(check)
+
+    verify = sub.add_parser("verify", help="recompute a results file and report any difference")
+    verify.add_argument("results", type=Path, metavar="RESULTS.json")
+    verify.add_argument("--input", type=Path, metavar="FILE",
+                        help="input workbook (default: the path recorded in the results)")
+    verify.add_argument("--format", choices=("text", "json"), default="text")
+
+    demo = sub.add_parser("demo", help="write the demo workbooks and settings file")
+    demo.add_argument("directory", nargs="?", type=Path, default=Path("surveytools_demo"),
+                      metavar="DIR")
+
+    template = sub.add_parser("template", help="write a blank input workbook with guidance")
+    template.add_argument("file", type=Path, metavar="FILE")
     return parser
+
+
+class Progress:
+    """A one-line progress display on a terminal (silent elsewhere or with --quiet)."""
+
+    def __init__(self, stream: TextIO, enabled: bool) -> None:
+        self.stream = stream
+        self.enabled = enabled and stream.isatty()
+        self.start = time.monotonic()
+
+    def __call__(self, done: int, total: int, current: str) -> None:
+        if not self.enabled:
+            return
+        elapsed = time.monotonic() - self.start
+        width = 24
+        filled = int(width * done / total) if total else width
+        bar = "#" * filled + "-" * (width - filled)
+        line = f"\r[{bar}] {done}/{total}  {elapsed:5.0f} s  {current[:40]:<40}"
+        self.stream.write(line)
+        self.stream.flush()
+
+    def finish(self) -> None:
+        if self.enabled:
+            self.stream.write("\r" + " " * 100 + "\r")
+            self.stream.flush()
+
+
+def _load_settings(path: Path | None) -> tuple[Any, str]:
+    from surveytools.settings import load_settings, settings_sha256
+
+    settings = load_settings(path)
+    return settings, settings_sha256(settings)
+
+
+STATUS_WORDS = {"ok": "ok", "warnings": "ok with warnings", "errors": "has errors",
+                "unreadable": "could not be read", "skipped": "skipped", "deferred": "deferred"}
+
+
+def _render_findings(out: TextIO, outcome: dict[str, Any], limit: int | None) -> None:
+    from surveytools.validation.findings import Finding, Severity
+
+    shown = 0
+    for f in outcome.get("findings") or []:
+        if limit is not None and f["severity"] == "info":
+            continue
+        finding = Finding(f["code"], Severity(f["severity"]), f["message"], f["sheet"], f["row"],
+                          f["column"])
+        out.write(f"  {f['severity']}: {finding.render(outcome['file'])}\n")
+        shown += 1
+        if limit is not None and shown >= limit:
+            rest = sum(outcome.get("finding_totals", {}).get(s, 0) for s in ("error", "warning"))
+            if rest > shown:
+                out.write(f"  ... {rest - shown} more in the results workbook (Findings sheet)\n")
+            break
+
+
+def _summary_line(counts: dict[str, int], verb: str) -> str:
+    total = sum(counts.values()) - counts.get("skipped", 0)
+    parts = [f"{counts.get('ok', 0)} ok", f"{counts.get('warnings', 0)} with warnings",
+             f"{counts.get('errors', 0)} with errors", f"{counts.get('unreadable', 0)} unreadable"]
+    if counts.get("deferred"):
+        parts.append(f"{counts['deferred']} deferred")
+    if counts.get("skipped"):
+        parts.append(f"{counts['skipped']} skipped")
+    return f"{verb} {total} file{'s' if total != 1 else ''}: " + ", ".join(parts)
+
+
+def _batch_options(args: argparse.Namespace, mode: str) -> Any:
+    from surveytools.batch import BatchOptions
+
+    memory = int(args.memory_limit * 1024**3) if args.memory_limit > 0 else None
+    return BatchOptions(paths=list(args.paths), out_dir=getattr(args, "output", None),
+                        settings_path=args.settings, jobs=max(1, args.jobs), mode=mode,
+                        include_readings=getattr(args, "readings", False), settle_s=args.settle,
+                        memory_bytes=memory, timeout_s=args.timeout,
+                        force=getattr(args, "force", False))
+
+
+def execute_run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Run the batch (optionally watching the folders)."""
+    from surveytools.batch import overview_document, run_batch
+
+    _settings, key = _load_settings(args.settings)
+    options = _batch_options(args, "run")
+    cycles = 0
+    seen: set[str] = set()
+    while True:
+        progress = Progress(err, not args.quiet and args.format == "text")
+        result = run_batch(options, key, progress)
+        progress.finish()
+        cycles += 1
+        if args.format == "json":
+            out.write(json.dumps(overview_document(result, key), sort_keys=True, indent=1) + "\n")
+        else:
+            for o in result.outcomes:
+                if args.watch and (o["path"] in seen):
+                    continue
+                reused = " (unchanged since the last run; results kept)" if o.get("reused") else ""
+                out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}{reused}\n")
+                if not o.get("reused"):
+                    _render_findings(out, o, limit=5)
+            for s in result.skipped:
+                if args.watch and s.path in seen:
+                    continue
+                out.write(f"{Path(s.path).name}: {s.status} - {s.reason} [{s.code}]\n")
+            out.write(_summary_line(result.counts(), "Processed")
+                      + f". Results in {options.out_dir}/ (overview.xlsx).\n")
+        out.flush()
+        seen.update(o["path"] for o in result.outcomes)
+        seen.update(s.path for s in result.skipped if s.status == "skipped")
+        if not args.watch or (args.max_cycles and cycles >= args.max_cycles):
+            return result.exit_code()
+        time.sleep(max(args.interval, 0.1))
+
+
+def execute_check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Validate inputs only."""
+    from surveytools.batch import BatchResult, run_batch
+
+    _settings, key = _load_settings(args.settings)
+    options = _batch_options(args, "check")
+    progress = Progress(err, not args.quiet and args.format == "text")
+    result: BatchResult = run_batch(options, key, progress)
+    progress.finish()
+    if args.format == "json":
+        payload = {"tool": {"name": "surveytools", "version": __version__},
+                   "inputs": [{k: o.get(k) for k in ("file", "path", "status", "sha256",
+                                                    "findings")} for o in result.outcomes],
+                   "skipped": [s.to_json() for s in result.skipped],
+                   "counts": result.counts()}
+        out.write(json.dumps(payload, sort_keys=True, indent=1) + "\n")
+    else:
+        for o in result.outcomes:
+            out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}\n")
+            _render_findings(out, o, limit=None)
+        for s in result.skipped:
+            out.write(f"{Path(s.path).name}: {s.status} - {s.reason} [{s.code}]\n")
+        out.write(_summary_line(result.counts(), "Checked") + "\n")
+    return result.exit_code()
+
+
+def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sys.stderr) -> int:
+    """Execute parsed arguments; return the exit code. Errors of our own inputs -> 2."""
+    from surveytools.errors import SurveyToolsError
+
+    try:
+        if args.command == "run":
+            return execute_run(args, out, err)
+        if args.command == "check":
+            return execute_check(args, out, err)
+        if args.command == "verify":
+            from surveytools.verify import execute_verify
+
+            return execute_verify(args.results, args.input, args.format, out)
+        if args.command == "demo":
+            from surveytools.demo import write_demo
+
+            written = write_demo(args.directory)
+            out.write(f"Wrote {len(written)} demo files to {args.directory}/:\n")
+            for p in written:
+                out.write(f"  {p.name}\n")
+            out.write("Run them with:\n  surveytools run "
+                      f"{args.directory} --settings {args.directory / 'settings.toml'} "
+                      "-o demo_results\nthen open demo_results/overview.xlsx.\n")
+            return EXIT_OK
+        if args.command == "template":
+            from surveytools.template import write_template
+
+            write_template(args.file)
+            out.write(f"Wrote a blank survey workbook to {args.file}; fill in the Survey and "
+                      "Readings sheets (the Guidance sheet explains each column).\n")
+            return EXIT_OK
+    except SurveyToolsError as exc:
+        err.write(f"surveytools: {exc}\n")
+        return EXIT_USAGE
+    except KeyboardInterrupt:
+        err.write("surveytools: interrupted\n")
+        return EXIT_DATA
+    return EXIT_USAGE
 
 
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; return the process exit code."""
-    build_parser().parse_args(sys.argv[1:] if argv is None else argv)
-    return 0
+    parser = build_parser()
+    args = parser.parse_args(sys.argv[1:] if argv is None else argv)
+    if args.command is None:
+        parser.print_help(sys.stderr)
+        return EXIT_USAGE
+    return execute(args)

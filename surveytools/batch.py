@@ -1,0 +1,451 @@
+"""The batch: find inputs, run one worker process per input, collect outcomes, write the overview.
+
+Rules: only regular files are read (links, pipes and devices are skipped with a note);
+lock and temporary files of spreadsheet programs are skipped; a file whose size or
+modification time changes while we look is deferred, not failed; one input's failure
+(even a crash of its worker) never stops the others; inputs are never modified.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import stat
+import subprocess
+import sys
+import threading
+import time
+from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from surveytools import __version__
+from surveytools.pipeline import CSV_SUFFIXES, WORKBOOK_SUFFIXES
+
+#: Name prefixes of lock / temporary / metadata files left by spreadsheet programs and
+#: file systems (Office owner files, LibreOffice locks, macOS AppleDouble files).
+SKIPPED_PREFIXES = ("~$", ".~lock.", "._", ".")
+#: Name suffixes of temporary files.
+SKIPPED_SUFFIXES = (".tmp", ".part", "#")
+#: Our own outputs, never taken as inputs when the output folder is inside an input folder.
+OUTPUT_MARKERS = (".results.xlsx", ".results.json", "overview.xlsx", "overview.json")
+
+MANIFEST_NAME = ".surveytools-manifest.json"
+
+#: Default memory limit per worker [bytes] (a week of 1-s readings peaks near 0.5 GiB).
+DEFAULT_MEMORY_BYTES = 6 * 1024**3
+#: Default wall-clock limit per input [s].
+DEFAULT_TIMEOUT_S = 900.0
+
+
+@dataclass
+class Candidate:
+    """An input found on disk."""
+
+    path: Path
+    size: int
+    mtime_ns: int
+
+
+@dataclass
+class Skipped:
+    """A path that was not processed, with the reason (shown to the user and in overview)."""
+
+    path: str
+    code: str
+    reason: str
+    status: str = "skipped"  # or "deferred"
+
+    def to_json(self) -> dict[str, str]:
+        """Return a JSON-ready dict."""
+        return dict(self.__dict__)
+
+
+@dataclass
+class BatchOptions:
+    """Options of one batch run (built by the CLI)."""
+
+    paths: list[Path]
+    out_dir: Path | None = None
+    settings_path: Path | None = None
+    jobs: int = 1
+    mode: str = "run"
+    include_readings: bool = False
+    settle_s: float = 1.0
+    memory_bytes: int | None = DEFAULT_MEMORY_BYTES
+    timeout_s: float = DEFAULT_TIMEOUT_S
+    force: bool = False
+
+
+@dataclass
+class BatchResult:
+    """All outcomes of one batch run."""
+
+    outcomes: list[dict[str, Any]] = field(default_factory=list)
+    skipped: list[Skipped] = field(default_factory=list)
+    reused: list[str] = field(default_factory=list)
+
+    def counts(self) -> dict[str, int]:
+        """Return the number of inputs per final status."""
+        out = {"ok": 0, "warnings": 0, "errors": 0, "unreadable": 0, "skipped": 0,
+               "deferred": 0}
+        for o in self.outcomes:
+            out[o["status"]] = out.get(o["status"], 0) + 1
+        for s in self.skipped:
+            out[s.status] += 1
+        return out
+
+    def exit_code(self) -> int:
+        """Return 0 when every input was processed without errors, else 1."""
+        c = self.counts()
+        missing = any(s.code == "path-missing" for s in self.skipped)
+        return 1 if (c["errors"] or c["unreadable"] or c["deferred"] or missing) else 0
+
+
+def _skip_reason(name: str) -> str | None:
+    low = name.lower()
+    if any(name.startswith(p) for p in SKIPPED_PREFIXES):
+        return "a lock, temporary or hidden file of a spreadsheet program or file system"
+    if any(low.endswith(s) for s in SKIPPED_SUFFIXES):
+        return "a temporary file"
+    if any(low.endswith(m) for m in OUTPUT_MARKERS):
+        return "an output of surveytools"
+    return None
+
+
+def discover(paths: list[Path]) -> tuple[list[Candidate], list[Skipped]]:
+    """Expand files and folders into input candidates; everything else is reported skipped."""
+    found: list[Candidate] = []
+    skipped: list[Skipped] = []
+    suffixes = WORKBOOK_SUFFIXES + CSV_SUFFIXES
+
+    def consider(p: Path, explicit: bool) -> None:
+        try:
+            st = os.lstat(p)
+        except OSError as exc:
+            skipped.append(Skipped(str(p), "path-missing", f"cannot be read: {exc.strerror}"))
+            return
+        if stat.S_ISLNK(st.st_mode):
+            skipped.append(Skipped(str(p), "not-regular-file",
+                                   "a symbolic link; copy the workbook itself into the folder"))
+            return
+        if not stat.S_ISREG(st.st_mode):
+            skipped.append(Skipped(str(p), "not-regular-file",
+                                   "not a regular file (pipe, device or socket)"))
+            return
+        reason = _skip_reason(p.name)
+        if reason:
+            if explicit or p.suffix.lower() in suffixes:
+                skipped.append(Skipped(str(p), "lock-or-temp-file", reason))
+            return
+        if p.suffix.lower() not in suffixes:
+            if explicit:
+                skipped.append(Skipped(str(p), "not-a-survey-file",
+                                       "not an .xlsx, .xlsm or .csv file"))
+            return
+        found.append(Candidate(p, st.st_size, st.st_mtime_ns))
+
+    for root in paths:
+        try:
+            is_dir = stat.S_ISDIR(os.lstat(root).st_mode)
+        except OSError as exc:
+            skipped.append(Skipped(str(root), "path-missing", f"cannot be read: {exc.strerror}"))
+            continue
+        if is_dir:
+            with os.scandir(root) as it:
+                entries = sorted(it, key=lambda e: e.name)
+            for entry in entries:
+                if entry.is_dir(follow_symlinks=False):
+                    continue
+                consider(Path(entry.path), explicit=False)
+        else:
+            consider(root, explicit=True)
+    # The same file given twice is processed once.
+    unique: dict[str, Candidate] = {}
+    for c in found:
+        unique.setdefault(str(c.path.resolve()), c)
+    return list(unique.values()), skipped
+
+
+def _zip_complete(path: Path) -> bool:
+    """Return True when the file ends with a zip end-of-central-directory record."""
+    try:
+        with open(path, "rb", buffering=0) as fh:
+            size = os.fstat(fh.fileno()).st_size
+            fh.seek(max(0, size - 66_000))
+            tail = fh.read()
+    except OSError:
+        return False
+    return b"PK\x05\x06" in tail
+
+
+def settle(candidates: list[Candidate], settle_s: float) -> tuple[list[Candidate], list[Skipped]]:
+    """Defer files whose size or modification time changes across ``settle_s`` seconds."""
+    if settle_s > 0 and candidates:
+        time.sleep(settle_s)
+    ready: list[Candidate] = []
+    deferred: list[Skipped] = []
+    for c in candidates:
+        try:
+            st = os.lstat(c.path)
+        except OSError:
+            deferred.append(Skipped(str(c.path), "file-changing", "disappeared while being read",
+                                    status="deferred"))
+            continue
+        changing = st.st_size != c.size or st.st_mtime_ns != c.mtime_ns
+        incomplete = (c.path.suffix.lower() in WORKBOOK_SUFFIXES and st.st_size > 0
+                      and not _zip_complete(c.path) and changing)
+        if changing or incomplete:
+            deferred.append(Skipped(str(c.path), "file-changing",
+                                    "still being written or copied (its size or time changed); "
+                                    "it will be processed on the next run", status="deferred"))
+        else:
+            ready.append(c)
+    return ready, deferred
+
+
+def output_stems(candidates: list[Candidate]) -> dict[str, str]:
+    """Choose a unique, safe output stem per input path."""
+    from surveytools.io.atomic import safe_stem
+
+    stems: dict[str, str] = {}
+    taken: set[str] = set()
+    for c in sorted(candidates, key=lambda c: str(c.path)):
+        stem = safe_stem(c.path.stem)
+        if stem.lower() in taken:
+            import hashlib
+
+            tag = hashlib.sha256(str(c.path.resolve()).encode()).hexdigest()[:8]
+            stem = f"{stem}__{tag}"
+        taken.add(stem.lower())
+        stems[str(c.path)] = stem
+    return stems
+
+
+def _worker_failure(path: Path, code: str, message: str) -> dict[str, Any]:
+    finding = {"severity": "error", "code": code, "message": message,
+               "sheet": None, "row": None, "column": None}
+    return {"path": str(path), "file": path.name, "status": "unreadable", "results_json": None,
+            "results_xlsx": None, "sha256": None, "findings": [finding],
+            "finding_totals": {"error": 1, "warning": 0, "info": 0}, "overview": {}}
+
+
+def run_worker(job: dict[str, Any], timeout_s: float) -> dict[str, Any]:
+    """Run one job in its own Python process; map any crash to a located failure."""
+    path = Path(job["path"])
+    cmd = [sys.executable, "-m", "surveytools.worker"]
+    try:
+        proc = subprocess.run(cmd, input=json.dumps(job), capture_output=True, text=True,
+                              timeout=timeout_s, start_new_session=True, check=False)
+    except subprocess.TimeoutExpired:
+        return _worker_failure(path, "worker-timeout",
+                               f"processing took longer than {timeout_s:.0f} s and was stopped; "
+                               "check the file is a genuine survey export, or raise --timeout")
+    if proc.returncode == 0:
+        try:
+            return dict(json.loads(proc.stdout.strip().splitlines()[-1]))
+        except (ValueError, IndexError):
+            pass
+    err = (proc.stderr or "").strip()
+    tail = err.splitlines()[-1][:300] if err else ""
+    rc = proc.returncode
+    if rc in (-6, 134) or "memory allocation" in err or "MemoryError" in err:
+        code, msg = ("worker-out-of-memory",
+                     "reading this file needed more memory than allowed and was stopped; the file "
+                     "may be damaged or hostile (a huge sparse sheet)")
+    elif rc in (-24, -9, 137):
+        code, msg = ("worker-killed", "processing was stopped by a CPU-time or kill limit")
+    else:
+        code, msg = ("internal-error",
+                     "surveytools failed on this file (a fault in the tool, not in your data); "
+                     "please report it with the file")
+    if tail:
+        msg = f"{msg} [{tail}]"
+    return _worker_failure(path, code, msg)
+
+
+def load_manifest(out_dir: Path) -> dict[str, Any]:
+    """Return the manifest of earlier runs in ``out_dir`` (empty when absent or unreadable)."""
+    try:
+        data = json.loads((out_dir / MANIFEST_NAME).read_text(encoding="utf-8"))
+        return dict(data) if isinstance(data, dict) else {}
+    except (OSError, ValueError):
+        return {}
+
+
+def save_manifest(out_dir: Path, manifest: dict[str, Any]) -> None:
+    """Write the manifest atomically."""
+    from surveytools.io.atomic import atomic_write_text
+
+    atomic_write_text(out_dir / MANIFEST_NAME, json.dumps(manifest, sort_keys=True, indent=1))
+
+
+def _file_sha256(path: Path) -> str | None:
+    from surveytools.errors import WorkbookError
+    from surveytools.pipeline import source_info
+
+    try:
+        return source_info(path).sha256
+    except WorkbookError:
+        return None
+
+
+def run_batch(options: BatchOptions, settings_key: str,
+              progress: Callable[[int, int, str], None] | None = None) -> BatchResult:
+    """Process every input of ``options``; never raises for a bad input."""
+    result = BatchResult()
+    candidates, skipped = discover(options.paths)
+    result.skipped.extend(skipped)
+    ready, deferred = settle(candidates, options.settle_s)
+    result.skipped.extend(deferred)
+    stems = output_stems(ready)
+    out_dir = options.out_dir
+    manifest: dict[str, Any] = {}
+    if options.mode == "run":
+        assert out_dir is not None
+        out_dir.mkdir(parents=True, exist_ok=True)
+        from surveytools.io.atomic import remove_stale_parts
+
+        remove_stale_parts(out_dir)
+        manifest = load_manifest(out_dir)
+
+    jobs: list[dict[str, Any]] = []
+    for c in ready:
+        job = {"mode": options.mode, "path": str(c.path.resolve()),
+               "settings_path": str(options.settings_path) if options.settings_path else None,
+               "include_readings": options.include_readings,
+               "memory_bytes": options.memory_bytes}
+        if options.mode == "run":
+            assert out_dir is not None
+            job["out_dir"] = str(out_dir.resolve())
+            job["stem"] = stems[str(c.path)]
+            sha = _file_sha256(c.path)
+            key = f"{sha}:{settings_key}:{__version__}:{options.include_readings}"
+            entry = manifest.get(str(c.path.resolve()))
+            if (not options.force and sha and entry and entry.get("key") == key
+                    and (out_dir / entry["results_json"]).exists()
+                    and (out_dir / entry["results_xlsx"]).exists()):
+                reused = _reuse(out_dir, entry, c.path)
+                if reused is not None:
+                    result.outcomes.append(reused)
+                    result.reused.append(str(c.path))
+                    continue
+            job["manifest_key"] = key
+        jobs.append(job)
+
+    total = len(jobs)
+    done = 0
+    lock = threading.Lock()
+
+    def one(job: dict[str, Any]) -> dict[str, Any]:
+        nonlocal done
+        if progress:
+            with lock:
+                progress(done, total, Path(job["path"]).name)
+        outcome = run_worker(job, options.timeout_s)
+        with lock:
+            done += 1
+            if progress:
+                progress(done, total, Path(job["path"]).name)
+        return outcome
+
+    if jobs:
+        with ThreadPoolExecutor(max_workers=max(1, options.jobs)) as pool:
+            outcomes = list(pool.map(one, jobs))
+    else:
+        outcomes = []
+
+    for job, outcome in zip(jobs, outcomes, strict=True):
+        if options.mode == "run" and outcome.get("results_json") is None:
+            outcome = _record_unreadable(options, job, outcome)
+        result.outcomes.append(outcome)
+        if options.mode == "run" and outcome.get("results_json") and job.get("manifest_key"):
+            manifest[job["path"]] = {"key": job["manifest_key"],
+                                     "results_json": outcome["results_json"],
+                                     "results_xlsx": outcome["results_xlsx"]}
+    result.outcomes.sort(key=lambda o: o["path"])
+    if options.mode == "run":
+        assert out_dir is not None
+        save_manifest(out_dir, manifest)
+        write_overview(out_dir, result, settings_key)
+    return result
+
+
+def _reuse(out_dir: Path, entry: dict[str, Any], path: Path) -> dict[str, Any] | None:
+    from surveytools.pipeline import _totals, overview_row
+
+    try:
+        doc = json.loads((out_dir / entry["results_json"]).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    findings = doc.get("findings") or []
+    return {"path": str(path), "file": path.name, "status": doc.get("status"),
+            "results_json": entry["results_json"], "results_xlsx": entry["results_xlsx"],
+            "sha256": doc.get("input", {}).get("sha256"), "findings": findings,
+            "finding_totals": _totals(findings), "reused": True,
+            "overview": overview_row(doc, entry["results_json"], entry["results_xlsx"])}
+
+
+def _record_unreadable(options: BatchOptions, job: dict[str, Any],
+                       outcome: dict[str, Any]) -> dict[str, Any]:
+    """Write an ``unreadable`` results JSON for an input whose worker died."""
+    from surveytools.errors import WorkbookError
+    from surveytools.io.atomic import atomic_write_text
+    from surveytools.io.results_json import dumps_results, unreadable_document
+    from surveytools.pipeline import overview_row, source_info
+    from surveytools.settings import load_settings
+    from surveytools.validation.findings import Finding, Severity
+
+    path = Path(job["path"])
+    assert options.out_dir is not None
+    try:
+        source = source_info(path)
+    except WorkbookError:
+        from surveytools.io.raw import SourceInfo
+
+        source = SourceInfo(str(path), path.name, "", 0)
+    f = outcome["findings"][0]
+    fatal = Finding(f["code"], Severity.ERROR, f["message"])
+    doc = unreadable_document(source, [fatal], load_settings(options.settings_path))
+    js = options.out_dir / f"{job['stem']}.results.json"
+    atomic_write_text(js, dumps_results(doc))
+    outcome = dict(outcome)
+    outcome["results_json"] = js.name
+    outcome["sha256"] = source.sha256 or None
+    outcome["overview"] = overview_row(doc, js.name, None)
+    return outcome
+
+
+def overview_document(result: BatchResult, settings_key: str) -> dict[str, Any]:
+    """Build overview.json content from a batch result."""
+    from surveytools.pipeline import SCHEMA_VERSION
+
+    rows = []
+    for o in result.outcomes:
+        row = dict(o.get("overview") or {})
+        if not row:
+            row = {"file": o["file"], "path": o["path"], "status": o["status"],
+                   "results_json": o.get("results_json"), "results_xlsx": o.get("results_xlsx"),
+                   "findings": o.get("finding_totals"),
+                   "reason": (o.get("findings") or [{}])[0].get("message")}
+        rows.append(row)
+    return {"schema_version": SCHEMA_VERSION,
+            "tool": {"name": "surveytools", "version": __version__},
+            "settings_sha256": settings_key,
+            "inputs": rows,
+            "counts": result.counts(),
+            "skipped": [s.to_json() for s in result.skipped]}
+
+
+def write_overview(out_dir: Path, result: BatchResult, settings_key: str) -> None:
+    """Write overview.xlsx and overview.json (JSON last) atomically."""
+    from surveytools.io.atomic import atomic_path, atomic_write_text
+    from surveytools.io.overview import write_overview_workbook
+    from surveytools.io.results_json import dumps_results
+
+    doc = overview_document(result, settings_key)
+    with atomic_path(out_dir / "overview.xlsx") as tmp:
+        write_overview_workbook(tmp, doc)
+    atomic_write_text(out_dir / "overview.json", dumps_results(doc))

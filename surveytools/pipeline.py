@@ -1,0 +1,238 @@
+"""One workbook end to end: read -> validate -> assess -> write results.
+
+This module runs inside a worker process (see :mod:`surveytools.worker`); the batch in
+:mod:`surveytools.batch` starts one worker per input so that a crash or runaway in a native
+reader ends only that input. Nothing here prints; outcomes are returned as plain data.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from surveytools import __version__
+from surveytools.errors import WorkbookError
+from surveytools.io.raw import SourceInfo
+from surveytools.settings import Settings
+from surveytools.validation.findings import Finding, Severity
+
+#: Version of the results document layout (schemas/results.schema.json).
+SCHEMA_VERSION = "1.0"
+
+#: Input suffixes the batch accepts.
+WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
+CSV_SUFFIXES = (".csv",)
+
+
+@dataclass
+class FileOutcome:
+    """What processing one input produced (returned to the batch as JSON)."""
+
+    path: str
+    file: str
+    status: str
+    results_json: str | None = None
+    results_xlsx: str | None = None
+    sha256: str | None = None
+    findings: list[dict[str, Any]] = field(default_factory=list)
+    finding_totals: dict[str, int] = field(default_factory=dict)
+    overview: dict[str, Any] = field(default_factory=dict)
+
+    def to_json(self) -> dict[str, Any]:
+        """Return a JSON-ready dict."""
+        return dict(self.__dict__)
+
+
+def source_info(path: Path) -> SourceInfo:
+    """Hash and size one input without modifying it (read-only, no symlink following).
+
+    Raises
+    ------
+    WorkbookError
+        ``file-not-regular`` when the path is not a regular file, ``file-unreadable`` when
+        it cannot be opened.
+    """
+    flags = os.O_RDONLY | getattr(os, "O_NOFOLLOW", 0) | getattr(os, "O_NONBLOCK", 0)
+    try:
+        fd = os.open(path, flags)
+    except OSError as exc:
+        raise WorkbookError("file-unreadable", f"cannot open the file: {exc.strerror}; check "
+                            "that it exists and that you may read it") from exc
+    try:
+        import stat
+
+        st = os.fstat(fd)
+        if not stat.S_ISREG(st.st_mode):
+            raise WorkbookError("file-not-regular", "this is not a regular file (a pipe, device "
+                                "or link); copy the workbook itself into the folder")
+        digest = hashlib.sha256()
+        with os.fdopen(fd, "rb", closefd=False) as fh:
+            for chunk in iter(lambda: fh.read(1 << 20), b""):
+                digest.update(chunk)
+        return SourceInfo(path=str(path.resolve()), file=path.name, sha256=digest.hexdigest(),
+                          size_bytes=st.st_size)
+    finally:
+        os.close(fd)
+
+
+def _read_raw(path: Path, settings: Settings) -> Any:
+    if path.suffix.lower() in CSV_SUFFIXES:
+        from surveytools.io.csv_input import read_csv_table
+
+        return read_csv_table(path, settings)
+    from surveytools.io.read import read_workbook
+
+    return read_workbook(path, settings)
+
+
+def library_versions() -> dict[str, str]:
+    """Return versions of the libraries that shape the results (for provenance)."""
+    import platform
+    from importlib import metadata
+
+    out = {"python": platform.python_version()}
+    for name in ("numpy", "pandas", "openpyxl", "fastexcel", "python-calamine", "pyarrow",
+                 "xlsxwriter", "jsonschema", "defusedxml"):
+        try:
+            out[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            out[name] = "not installed"
+    return out
+
+
+def _findings_json(findings: list[Finding]) -> list[dict[str, Any]]:
+    return [f.to_json() for f in sorted(findings, key=Finding.sort_key)]
+
+
+def _totals(findings: list[dict[str, Any]]) -> dict[str, int]:
+    totals = {"error": 0, "warning": 0, "info": 0}
+    for f in findings:
+        totals[f["severity"]] = totals.get(f["severity"], 0) + 1
+    return totals
+
+
+def build_document(path: Path, settings: Settings, source: SourceInfo | None = None
+                   ) -> tuple[dict[str, Any], Any]:
+    """Read, validate and assess one input; return (results document, annotations or None).
+
+    Never raises for a bad input: an unreadable file gives a document with status
+    ``"unreadable"`` and the fatal finding.
+    """
+    from surveytools.io.results_json import status_from_findings, unreadable_document
+    from surveytools.settings import settings_to_mapping
+
+    if source is None:
+        source = source_info(path)
+    try:
+        raw = _read_raw(path, settings)
+    except WorkbookError as exc:
+        fatal = Finding(exc.code, Severity.ERROR, exc.message, exc.sheet)
+        doc = unreadable_document(source, [fatal], settings)
+        doc["provenance"] = library_versions()
+        return doc, None
+
+    from surveytools.assessment import assess, reading_annotations
+    from surveytools.validation import build_survey
+
+    survey = build_survey(raw, settings)
+    sections = assess(survey, settings)
+    findings = _findings_json(survey.findings)
+    doc: dict[str, Any] = {
+        "schema_version": SCHEMA_VERSION,
+        "tool": {"name": "surveytools", "version": __version__},
+        "input": {"file": source.file, "path": source.path, "sha256": source.sha256,
+                  "size_bytes": source.size_bytes},
+        "settings": settings_to_mapping(settings),
+        "status": status_from_findings(survey.findings),
+        "findings": findings,
+        "finding_counts": dict(sorted(survey.finding_counts.items())),
+        "provenance": library_versions(),
+    }
+    doc.update(sections)
+    annotations = None
+    if settings.output.include_readings or len(survey.readings) <= settings.output.readings_row_limit:
+        annotations = reading_annotations(survey)
+    return doc, annotations
+
+
+def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: str | None
+                 ) -> dict[str, Any]:
+    """Summarise one results document as a row of the batch overview."""
+    survey = doc.get("survey") or {}
+    coverage = doc.get("coverage") or {}
+    measured = coverage.get("measured_s") or 0.0
+    valid = coverage.get("valid_s") or 0.0
+    excesses = [a.get("excess_over_background") for a in doc.get("assessments") or []
+                if a.get("excess_over_background") is not None]
+    background = doc.get("background") or {}
+    reason = None
+    if doc.get("status") == "unreadable" and doc.get("findings"):
+        reason = doc["findings"][0]["message"]
+    return {
+        "file": doc.get("input", {}).get("file"),
+        "path": doc.get("input", {}).get("path"),
+        "results_json": results_json,
+        "results_xlsx": results_xlsx,
+        "status": doc.get("status"),
+        "position": survey.get("position"),
+        "site": survey.get("site"),
+        "coverage": {"first": coverage.get("first"), "last": coverage.get("last"),
+                     "valid_fraction": round(valid / measured, 4) if measured else None},
+        "survey_average": doc.get("survey_average"),
+        "background": {"day": (background.get("day") or {}).get("LA90"),
+                       "night": (background.get("night") or {}).get("LA90")},
+        "worst_excess_over_background": max(excesses) if excesses else None,
+        "criteria_failed": sum(int(c.get("failed") or 0) for c in doc.get("criteria") or []),
+        "findings": _totals(doc.get("findings") or []),
+        "reason": reason,
+    }
+
+
+def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
+             source: SourceInfo | None = None) -> FileOutcome:
+    """Process one input and write ``<stem>.results.xlsx`` then ``<stem>.results.json``.
+
+    Outputs are written to temporary names and renamed into place; the JSON goes last, as
+    the record that the run for this input completed.
+    """
+    from surveytools.io.atomic import atomic_path, atomic_write_text
+    from surveytools.io.results_json import dumps_results
+    from surveytools.io.write import write_results_workbook
+
+    doc, annotations = build_document(path, settings, source)
+    xlsx = out_dir / f"{stem}.results.xlsx"
+    js = out_dir / f"{stem}.results.json"
+    with atomic_path(xlsx) as tmp:
+        write_results_workbook(tmp, doc, annotations)
+    atomic_write_text(js, dumps_results(doc))
+    findings = doc.get("findings") or []
+    return FileOutcome(path=str(path), file=path.name, status=doc["status"],
+                       results_json=js.name, results_xlsx=xlsx.name,
+                       sha256=doc["input"]["sha256"], findings=findings,
+                       finding_totals=_totals(findings),
+                       overview=overview_row(doc, js.name, xlsx.name))
+
+
+def check_file(path: Path, settings: Settings) -> FileOutcome:
+    """Validate one input without computing or writing anything."""
+    from surveytools.io.results_json import status_from_findings
+
+    source = source_info(path)
+    try:
+        raw = _read_raw(path, settings)
+    except WorkbookError as exc:
+        fatal = Finding(exc.code, Severity.ERROR, exc.message, exc.sheet)
+        findings = _findings_json([fatal])
+        return FileOutcome(path=str(path), file=path.name, status="unreadable",
+                           sha256=source.sha256, findings=findings,
+                           finding_totals=_totals(findings))
+    from surveytools.validation import build_survey
+
+    survey = build_survey(raw, settings)
+    findings = _findings_json(survey.findings)
+    return FileOutcome(path=str(path), file=path.name,
+                       status=status_from_findings(survey.findings), sha256=source.sha256,
+                       findings=findings, finding_totals=_totals(findings))

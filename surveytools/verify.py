@@ -1,0 +1,105 @@
+"""``surveytools verify``: recompute a results file from its recorded input and settings.
+
+QA re-runs a validation by pointing ``verify`` at a ``*.results.json``. The input is hashed
+and compared with the recorded SHA-256, the settings are rebuilt from the recorded
+effective settings, the whole document is recomputed, and every figure and finding is
+compared exactly. Library versions (provenance) are compared too, but a difference there is
+only reported as a note: the figures decide.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Any, TextIO
+
+from surveytools.errors import SurveyToolsError
+
+#: Keys that may legitimately differ between the recorded and the recomputed document.
+NOT_COMPARED = {("input", "path"), ("provenance",)}
+
+
+def differences(recorded: Any, recomputed: Any, path: tuple[str, ...] = ()) -> list[str]:
+    """Return human-readable differences between two JSON values (exact comparison)."""
+    if path in NOT_COMPARED:
+        return []
+    where = ".".join(path) or "(document)"
+    if isinstance(recorded, dict) and isinstance(recomputed, dict):
+        out: list[str] = []
+        for key in sorted(set(recorded) | set(recomputed)):
+            if key not in recomputed:
+                out.append(f"{where}.{key}: recorded but not produced any more")
+            elif key not in recorded:
+                out.append(f"{where}.{key}: produced now but not recorded")
+            else:
+                out.extend(differences(recorded[key], recomputed[key], (*path, str(key))))
+        return out
+    if isinstance(recorded, list) and isinstance(recomputed, list):
+        if len(recorded) != len(recomputed):
+            return [f"{where}: {len(recorded)} entries recorded, {len(recomputed)} recomputed"]
+        out = []
+        for i, (a, b) in enumerate(zip(recorded, recomputed, strict=True)):
+            out.extend(differences(a, b, (*path, str(i))))
+        return out
+    if recorded != recomputed or type(recorded) is not type(recomputed):
+        return [f"{where}: recorded {recorded!r}, recomputed {recomputed!r}"]
+    return []
+
+
+def verify_results(results_path: Path, input_path: Path | None = None
+                   ) -> tuple[list[str], list[str]]:
+    """Recompute ``results_path``; return (differences, notes).
+
+    Raises
+    ------
+    SurveyToolsError
+        When the results file cannot be read or the input cannot be found (exit 2).
+    """
+    from surveytools.pipeline import build_document, source_info
+    from surveytools.settings import settings_from_mapping
+
+    try:
+        recorded = json.loads(results_path.read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        raise SurveyToolsError(f"{results_path}: not a readable results file ({exc})") from exc
+    if not isinstance(recorded, dict) or "input" not in recorded or "settings" not in recorded:
+        raise SurveyToolsError(f"{results_path}: not a surveytools results file (no input or "
+                               "settings recorded)")
+    source_path = input_path or Path(recorded["input"].get("path") or "")
+    if not source_path.is_file():
+        raise SurveyToolsError(f"{results_path}: the recorded input {source_path} is not there; "
+                               "give it with --input FILE")
+    settings = settings_from_mapping(recorded["settings"], f"{results_path.name}: settings")
+    source = source_info(source_path)
+    diffs: list[str] = []
+    notes: list[str] = []
+    if source.sha256 != recorded["input"].get("sha256"):
+        diffs.append(f"input.sha256: recorded {recorded['input'].get('sha256')}, the file now has "
+                     f"{source.sha256} (the input was changed or is a different file)")
+    recomputed, _ = build_document(source_path, settings, source)
+    diffs.extend(d for d in differences(recorded, recomputed) if not d.startswith("input.sha256"))
+    if recorded.get("provenance") != recomputed.get("provenance"):
+        notes.append("library versions differ from the recorded run (see provenance); the "
+                     "figures were compared exactly all the same")
+    return diffs, notes
+
+
+def execute_verify(results_path: Path, input_path: Path | None, fmt: str, out: TextIO) -> int:
+    """Run ``verify`` and report; return 0 when identical, 1 when anything differs."""
+    diffs, notes = verify_results(results_path, input_path)
+    if fmt == "json":
+        out.write(json.dumps({"results": str(results_path), "identical": not diffs,
+                              "differences": diffs, "notes": notes}, indent=1) + "\n")
+    else:
+        for n in notes:
+            out.write(f"note: {n}\n")
+        if diffs:
+            out.write(f"{results_path.name}: {len(diffs)} difference(s) found:\n")
+            for d in diffs[:200]:
+                out.write(f"  {d}\n")
+            if len(diffs) > 200:
+                out.write(f"  ... and {len(diffs) - 200} more\n")
+        else:
+            out.write(f"{results_path.name}: verified - recomputing from the input and the "
+                      "recorded settings gives identical results\n")
+    return 1 if diffs else 0
