@@ -1,0 +1,257 @@
+"""The demo: an invented monitoring scenario written as survey workbooks and a settings file.
+
+Everything here is fiction made for the demo (no real site, firm or person): a depot on
+"Kestrel Lane" with three monitoring positions over a week of late October, so that the
+week crosses the end of summer time. The data are generated from a fixed seed, so
+``surveytools demo`` always writes the same workbooks as those kept in ``workbooks_demo/``.
+
+- ``kl1_north_boundary.xlsx``: 15-minute logging with the meter's own LAF10/LAF90, a
+  Weather sheet with a wet spell and a windy afternoon, calibration drift 0.2 dB.
+- ``kl2_garden.xlsx``: 1-minute logging; a chiller plant runs at night (22:00-06:00) except
+  on two nights (residual periods), an ``Operating`` column records it; the technician marked
+  lawn mowing beside the meter, and a barking dog (background only).
+- ``kl3_lane_end.xlsx``: 1-second logging over one day, two overloads (one written by the
+  meter as ``OVL``), calibration drift 0.6 dB (above the 0.5 dB limit: a warning for QA).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import datetime, timedelta
+from pathlib import Path
+from zoneinfo import ZoneInfo
+
+import numpy as np
+
+TIME_ZONE = "Europe/Berlin"
+SITE = "Kestrel Lane depot (invented for the surveytools demo)"
+SEED = 20261021
+
+SETTINGS_TOML = """\
+# Settings for the surveytools demo (an invented scenario).
+reporting_interval = "15min"
+percentiles = [10, 50, 90]
+coverage_threshold = 0.75
+
+[survey]
+time_zone = "Europe/Berlin"
+
+[background]
+method = "mode"
+
+[exclusions]
+wind_max_m_s = 5.0
+rain_settle = "1h"
+
+[[assessments]]
+name = "Chiller plant at night"
+position = "KL-2"
+source_on = [["2026-10-22 23:00", "2026-10-23 01:00"]]
+residual  = [["2026-10-24 23:00", "2026-10-25 01:00"]]
+corrections_db = { tonal = 2.0, impulsive = 0.0, intermittency = 0.0, other = 0.0 }
+
+[[assessments]]
+name = "Chiller plant, all operating periods"
+position = "KL-2"
+use_operating_column = true
+corrections_db = { tonal = 2.0 }
+
+[[criteria]]
+name = "Night level outside bedrooms"
+indicator = "Lnight"
+limit_db = 45.0
+
+[[criteria]]
+name = "Day-evening-night level"
+indicator = "Lden"
+limit_db = 55.0
+
+[[criteria]]
+name = "Plant rating over background"
+indicator = "excess_over_background"
+limit_db = 5.0
+"""
+
+
+@dataclass(frozen=True)
+class DemoPosition:
+    """One invented monitoring position."""
+
+    file: str
+    position: str
+    description: str
+    start_local: datetime
+    step_s: float
+    n: int
+    calibration_before_db: float
+    calibration_after_db: float
+    base_db: float
+
+
+POSITIONS = (
+    DemoPosition("kl1_north_boundary.xlsx", "KL-1", "North boundary fence, 1.5 m",
+                 datetime(2026, 10, 21, 12, 0), 900.0, 7 * 96, 94.0, 94.2, 44.0),
+    DemoPosition("kl2_garden.xlsx", "KL-2", "Rear garden of the nearest house, 1.5 m",
+                 datetime(2026, 10, 21, 12, 0), 60.0, 7 * 1440, 94.0, 93.9, 38.0),
+    DemoPosition("kl3_lane_end.xlsx", "KL-3", "Lane end by the depot gate, 4 m",
+                 datetime(2026, 10, 22, 7, 0), 1.0, 86_400, 94.0, 93.4, 46.0),
+)
+
+
+def _local_hours(starts: list[datetime]) -> np.ndarray:
+    return np.array([t.hour + t.minute / 60 + t.second / 3600 for t in starts])
+
+
+def _wall_clock_series(pos: DemoPosition) -> list[datetime]:
+    """Naive local timestamps as a meter on local time writes them (with the DST repeat)."""
+    tz = ZoneInfo(TIME_ZONE)
+    start = pos.start_local.replace(tzinfo=tz)
+    utc0 = start.astimezone(ZoneInfo("UTC"))
+    step = timedelta(seconds=pos.step_s)
+    return [(utc0 + i * step).astimezone(tz).replace(tzinfo=None) for i in range(pos.n)]
+
+
+def _levels(pos: DemoPosition, hours: np.ndarray, rng: np.random.Generator,
+            plant_on: np.ndarray) -> dict[str, np.ndarray]:
+    diurnal = pos.base_db + 8.0 * np.clip(np.sin((hours - 5.0) / 24 * 2 * np.pi), -0.6, 1.0)
+    ar = np.zeros(hours.size)
+    noise = rng.normal(0.0, 1.0, hours.size)
+    phi = 0.9 if pos.step_s < 100 else 0.5
+    for i in range(1, hours.size):  # AR(1) fluctuation for the invented data only
+        ar[i] = phi * ar[i - 1] + noise[i] * 1.2
+    la90 = diurnal + 0.5 * ar - 3.0
+    events = rng.random(hours.size) < (0.04 if pos.step_s < 100 else 0.3)
+    event_db = np.where(events, rng.uniform(50, 72, hours.size), 0.0)
+    laeq = 10 * np.log10(10 ** (la90 / 10) * 2.0 + np.where(events, 10 ** (event_db / 10), 0.0))
+    plant = np.where(plant_on, 10 ** (46.0 / 10), 0.0)
+    laeq = 10 * np.log10(10 ** (laeq / 10) + plant)
+    la90 = 10 * np.log10(10 ** (la90 / 10) + np.where(plant_on, 10 ** (45.0 / 10), 0.0))
+    lafmax = laeq + np.abs(rng.normal(6.0, 2.5, hours.size)) + np.where(events, 6.0, 0.0)
+    la10 = laeq + np.abs(rng.normal(1.5, 0.6, hours.size))
+    la90 = np.minimum(la90, laeq - 0.5)
+    lafmin = la90 - np.abs(rng.normal(2.0, 0.8, hours.size))
+    return {k: np.round(v, 1) for k, v in
+            {"LAeq": laeq, "LAFmax": lafmax, "LAF10": la10, "LAF90": la90,
+             "LAFmin": lafmin}.items()}
+
+
+def _write_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> None:
+    import xlsxwriter
+
+    stamps = _wall_clock_series(pos)
+    hours = _local_hours(stamps)
+    nights_off = {datetime(2026, 10, 24).date(), datetime(2026, 10, 26).date()}
+    night = (hours >= 22) | (hours < 6)
+    owner = np.array([(t - timedelta(hours=6)).date() for t in stamps])
+    plant_on = night & np.array([d not in nights_off for d in owner]) if pos.position == "KL-2" \
+        else np.zeros(len(stamps), dtype=bool)
+    lv = _levels(pos, hours, rng, plant_on)
+
+    wb = xlsxwriter.Workbook(str(path), {"strings_to_formulas": False, "constant_memory": False})
+    wb.set_properties({"title": f"Survey log {pos.position}", "author": "surveytools demo",
+                       "created": datetime(2026, 10, 28, 9, 0)})
+    dt_fmt = wb.add_format({"num_format": "yyyy-mm-dd hh:mm:ss"})
+    bold = wb.add_format({"bold": True})
+
+    survey = wb.add_worksheet("Survey")
+    rows = [("Position", pos.position), ("Site", SITE), ("Description", pos.description),
+            ("Time zone", TIME_ZONE), ("Clock", "local"), ("Meter class", 1),
+            ("Calibration before (dB)", pos.calibration_before_db),
+            ("Calibration after (dB)", pos.calibration_after_db),
+            ("Calibrator level (dB)", 94.0), ("Microphone", "free-field"),
+            ("Height (m)", 4.0 if pos.position == "KL-3" else 1.5),
+            ("Notes", "Invented data for the surveytools demo.")]
+    survey.write_row(0, 0, ("Field", "Value"), bold)
+    for i, (k, v) in enumerate(rows, start=1):
+        survey.write_string(i, 0, k)
+        if isinstance(v, str):
+            survey.write_string(i, 1, v)
+        else:
+            survey.write_number(i, 1, v)
+    survey.set_column(0, 0, 26)
+    survey.set_column(1, 1, 52)
+
+    ws = wb.add_worksheet("Readings")
+    ws.write_string(0, 0, f"Logged levels, position {pos.position} (demo export)")
+    ws.write_string(1, 0, f"Logging interval {pos.step_s:g} s; times are local clock")
+    header = ["Start", "Duration (s)", "LAeq (dB)", "LAFmax (dB)", "LAFmin (dB)"]
+    if pos.step_s >= 60:
+        header += ["LAF10 (dB)", "LAF90 (dB)"]
+    if pos.position == "KL-2":
+        header += ["Operating"]
+    if pos.position == "KL-3":
+        header += ["Overload"]
+    header += ["Note"]
+    ws.write_row(3, 0, header, bold)
+    overload_rows = {30_000, 52_345} if pos.position == "KL-3" else set()
+    for i, t in enumerate(stamps):
+        r = 4 + i
+        ws.write_datetime(r, 0, t, dt_fmt)
+        ws.write_number(r, 1, pos.step_s)
+        c = 2
+        for key in ("LAeq", "LAFmax", "LAFmin"):
+            if key == "LAFmax" and i == 52_345 and pos.position == "KL-3":
+                ws.write_string(r, c, "OVL")
+            else:
+                ws.write_number(r, c, float(lv[key][i]))
+            c += 1
+        if pos.step_s >= 60:
+            ws.write_number(r, c, float(lv["LAF10"][i]))
+            ws.write_number(r, c + 1, float(lv["LAF90"][i]))
+            c += 2
+        if pos.position == "KL-2":
+            ws.write_string(r, c, "yes" if plant_on[i] else "no")
+            c += 1
+        if pos.position == "KL-3":
+            ws.write_string(r, c, "yes" if i in overload_rows else "no")
+            c += 1
+    ws.freeze_panes(4, 0)
+    ws.set_column(0, 0, 20)
+
+    if pos.position in ("KL-1", "KL-2"):
+        weather = wb.add_worksheet("Weather")
+        weather.write_row(0, 0, ("Start", "Wind speed (m/s)", "Rain (mm)"), bold)
+        w_start = _wall_clock_series(DemoPosition("", "", "", pos.start_local, 3600.0, 7 * 24,
+                                                  0, 0, 0))
+        wind = np.round(np.clip(rng.normal(2.5, 1.0, len(w_start)), 0.2, None), 1)
+        rain = np.zeros(len(w_start))
+        wind[30:34] = [5.8, 6.4, 6.1, 5.2]          # a windy afternoon
+        rain[70:73] = [0.4, 1.2, 0.2]               # a wet spell
+        for i, t in enumerate(w_start):
+            weather.write_datetime(i + 1, 0, t, dt_fmt)
+            weather.write_number(i + 1, 1, float(wind[i]))
+            weather.write_number(i + 1, 2, float(rain[i]))
+        weather.set_column(0, 0, 20)
+
+    if pos.position == "KL-2":
+        ex = wb.add_worksheet("Exclusions")
+        ex.write_row(0, 0, ("From", "To", "Reason", "Applies to"), bold)
+        ex.write_datetime(1, 0, datetime(2026, 10, 23, 10, 20), dt_fmt)
+        ex.write_datetime(1, 1, datetime(2026, 10, 23, 11, 0), dt_fmt)
+        ex.write_string(1, 2, "Lawn mowing beside the meter")
+        ex.write_string(1, 3, "all")
+        ex.write_datetime(2, 0, datetime(2026, 10, 25, 14, 0), dt_fmt)
+        ex.write_datetime(2, 1, datetime(2026, 10, 25, 14, 30), dt_fmt)
+        ex.write_string(2, 2, "Dog barking in the next garden")
+        ex.write_string(2, 3, "background")
+        ex.set_column(0, 1, 20)
+        ex.set_column(2, 2, 34)
+    wb.close()
+
+
+def write_demo(directory: Path) -> list[Path]:
+    """Write the demo workbooks and ``settings.toml`` into ``directory``; return the paths."""
+    from surveytools.io.atomic import atomic_path, atomic_write_text
+
+    directory.mkdir(parents=True, exist_ok=True)
+    written: list[Path] = []
+    for k, pos in enumerate(POSITIONS):
+        rng = np.random.default_rng(SEED + k)
+        target = directory / pos.file
+        with atomic_path(target) as tmp:
+            _write_position(tmp, pos, rng)
+        written.append(target)
+    settings = directory / "settings.toml"
+    atomic_write_text(settings, SETTINGS_TOML)
+    written.append(settings)
+    return written
