@@ -35,7 +35,7 @@ OUTPUT_MARKERS = (".results.xlsx", ".results.json", "overview.xlsx", "overview.j
 MANIFEST_NAME = ".surveytools-manifest.json"
 
 #: Default memory limit per worker [bytes] (a week of 1-s readings peaks near 0.5 GiB).
-DEFAULT_MEMORY_BYTES = 6 * 1024**3
+DEFAULT_MEMORY_BYTES = 4 * 1024**3
 #: Default wall-clock limit per input [s].
 DEFAULT_TIMEOUT_S = 900.0
 

@@ -56,8 +56,8 @@ def build_parser() -> argparse.ArgumentParser:
                             "(default: 1)")
         p.add_argument("--timeout", type=float, default=900.0, metavar="SECONDS",
                        help="time limit per input (default: 900)")
-        p.add_argument("--memory-limit", type=float, default=6.0, metavar="GIB",
-                       help="memory limit per input in GiB (default: 6; 0 = none)")
+        p.add_argument("--memory-limit", type=float, default=4.0, metavar="GIB",
+                       help="memory limit per input in GiB (default: 4; 0 = none)")
 
     run = sub.add_parser("run", help="process survey workbooks into result workbooks and JSON")
     common(run)
