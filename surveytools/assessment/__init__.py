@@ -1,0 +1,87 @@
+"""The assessment engine: Survey + Settings -> the computed sections of the results.
+
+Input: a :class:`~surveytools.survey.Survey` and :class:`~surveytools.settings.Settings`.
+
+Time runs on UTC epoch milliseconds; the position's clock (Survey metadata ``clock`` /
+``time_zone``) turns local wall-clock period boundaries into instants per calendar day
+(:mod:`surveytools.assessment.timegrid`). Every figure averages valid time only
+(``Survey.valid_mask``); readings straddling a boundary are split in proportion.
+Sections: :mod:`~.intervals` (overall, intervals), :mod:`~.daily` (days, survey
+average), :mod:`~.background`, :mod:`~.sources` (assessments), :mod:`~.criteria`,
+:mod:`~.spans` (coverage, exclusion spans, survey metadata, reading annotations).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from surveytools.assessment.background import background_section
+from surveytools.assessment.context import build_context
+from surveytools.assessment.criteria import criteria_section
+from surveytools.assessment.daily import days_section, survey_average_section
+from surveytools.assessment.intervals import intervals_section, overall_section
+from surveytools.assessment.sources import assessments_section
+from surveytools.assessment.spans import (
+    coverage_section,
+    exclusion_spans_section,
+    reading_annotations,
+    survey_section,
+    unplaced_section,
+)
+from surveytools.assessment.timegrid import format_local, position_tz
+from surveytools.settings import Settings
+from surveytools.survey import Survey
+
+__all__ = ["assess", "format_local", "position_tz", "reading_annotations"]
+
+
+def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
+    """Compute the results sections of one survey.
+
+    Parameters
+    ----------
+    survey : Survey
+        Validated readings of one position.
+    settings : Settings
+        Effective settings.
+
+    Returns
+    -------
+    dict
+        JSON-ready sections ``survey``, ``coverage``, ``overall``, ``intervals``,
+        ``intervals_basis``, ``days``, ``survey_average``, ``background``,
+        ``assessments``, ``criteria``, ``exclusion_spans``, ``unplaced`` (see
+        results_spec.md); no NaN: what cannot be computed is None.
+
+    Raises
+    ------
+    SettingsError
+        If a setting cannot be applied (unknown criterion indicator, unreadable window).
+
+    References
+    ----------
+    .. [1] design.md §5 (computation rules).
+    """
+    ctx = build_context(survey, settings)
+    intervals, intervals_basis = intervals_section(ctx)
+    days = days_section(ctx)
+    background = background_section(ctx)
+    assessments = assessments_section(ctx, background)
+    criteria = criteria_section(
+        settings.criteria, survey.metadata.get("position"), days, intervals, assessments,
+        settings.percentiles,
+    )
+    return {
+        "survey": survey_section(survey),
+        "coverage": coverage_section(ctx),
+        "overall": overall_section(ctx) if ctx.n else None,
+        "intervals": intervals,
+        "intervals_basis": intervals_basis,
+        "days": days,
+        "survey_average": survey_average_section(ctx),
+        "background": background,
+        "assessments": assessments,
+        "criteria": criteria,
+        "exclusion_spans": exclusion_spans_section(ctx),
+        "unplaced": unplaced_section(survey),
+    }

@@ -1,0 +1,257 @@
+"""Assessment days: Lday / Levening / Lnight, Lden, Ldn, CNEL, LAeq,16h / 8h, night events.
+
+The assessment day D runs from D ``periods.lden.day_start`` to D+1 ``day_start`` and owns
+the night that starts on D. Each scheme (Lden, Ldn, CNEL, the 16 h / 8 h pair) is laid out
+as local wall-clock boundaries converted per calendar day to UTC instants, so on DST days
+the periods keep their wall-clock bounds and last their real length (a 7 h or 9 h night).
+Readings are split at the boundaries; levels average the real valid time; coverage is
+valid time over the real period length. The penalised indicators use the *nominal* hours
+of the configured scheme (``scheme_hours``), as the Directive's formula does.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from surveytools.assessment._common import (
+    MS_PER_S,
+    FloatArray,
+    IntArray,
+    db,
+    db_list,
+    fraction,
+    seconds,
+    segment_groups,
+    split,
+)
+from surveytools.assessment.context import Context
+from surveytools.assessment.timegrid import day_offset_boundaries, hhmm_hours
+from surveytools.indicators.levels import grouped_energy_average, grouped_valid_duration
+from surveytools.indicators.periods import penalised_day_evening_night, scheme_hours
+from surveytools.settings import PeriodScheme
+
+#: Periods of a scheme, in order.
+PERIOD_NAMES = ("day", "evening", "night")
+#: Periods in a day-evening-night scheme.
+N_PERIODS = len(PERIOD_NAMES)
+
+
+@dataclass(frozen=True)
+class SchemeResult:
+    """Per candidate day and period: level, valid time and real length."""
+
+    level_db: FloatArray  # (n_days, 3) [dB]
+    valid_s: FloatArray  # (n_days, 3) [s]
+    length_s: FloatArray  # (n_days, 3) [s]
+    bounds_ms: IntArray  # (3 * n_days + 1,) [ms]
+    touched: np.ndarray  # (n_days,) bool: any reading piece in the day
+
+    @property
+    def coverage(self) -> FloatArray:
+        """Valid fraction of each period's real length (NaN for empty periods)."""
+        return np.divide(
+            self.valid_s, self.length_s, out=np.full(self.valid_s.shape, np.nan),
+            where=self.length_s > 0,
+        )
+
+
+def scheme_times(scheme: PeriodScheme) -> list[str]:
+    """Local start times of day, evening and night of a scheme."""
+    return [scheme.day_start, scheme.evening_start, scheme.night_start]
+
+
+def assess_scheme(ctx: Context, times: list[str]) -> SchemeResult:
+    """Energy average and valid time per candidate day and period of one scheme."""
+    days = ctx.candidate_days
+    n_days = len(days)
+    n_groups = n_days * N_PERIODS
+    bounds = day_offset_boundaries(days, times, ctx.tz)
+    pieces = split(ctx.start_ms, ctx.duration_ms, bounds)
+    group = segment_groups(pieces.segment, n_groups)
+    laeq = ctx.level("LAeq")
+    assert laeq is not None
+    levels = laeq[pieces.index]
+    valid_group = np.where(ctx.valid[pieces.index], group, -1)
+    level = grouped_energy_average(levels, pieces.duration_s, valid_group, n_groups)
+    valid_s = grouped_valid_duration(levels, pieces.duration_s, valid_group, n_groups)
+    touched_groups = np.bincount(group[group >= 0], minlength=n_groups) > 0
+    return SchemeResult(
+        level_db=level.reshape(n_days, N_PERIODS),
+        valid_s=valid_s.reshape(n_days, N_PERIODS),
+        length_s=(np.diff(bounds) / MS_PER_S).reshape(n_days, N_PERIODS),
+        bounds_ms=bounds,
+        touched=np.asarray(touched_groups.reshape(n_days, N_PERIODS).any(axis=1)),
+    )
+
+
+def scheme_average(ctx: Context, times: list[str]) -> tuple[FloatArray, FloatArray]:
+    """Energy average and valid time of each period type over all days."""
+    days = ctx.candidate_days
+    n_groups = len(days) * N_PERIODS
+    bounds = day_offset_boundaries(days, times, ctx.tz)
+    pieces = split(ctx.start_ms, ctx.duration_ms, bounds)
+    group = segment_groups(pieces.segment, n_groups)
+    laeq = ctx.level("LAeq")
+    assert laeq is not None
+    period = np.where(ctx.valid[pieces.index] & (group >= 0), group % N_PERIODS, -1)
+    levels = laeq[pieces.index]
+    return (
+        grouped_energy_average(levels, pieces.duration_s, period, N_PERIODS),
+        grouped_valid_duration(levels, pieces.duration_s, period, N_PERIODS),
+    )
+
+
+def penalised(levels: FloatArray, scheme: PeriodScheme) -> FloatArray:
+    """Return the scheme's day-evening-night indicator with nominal hours and its penalties.
+
+    ``levels`` has the three periods in its last axis.
+    """
+    hours = scheme_hours(
+        hhmm_hours(scheme.day_start), hhmm_hours(scheme.evening_start),
+        hhmm_hours(scheme.night_start),
+    )
+    penalties = (0.0, scheme.evening_penalty_db, scheme.night_penalty_db)
+    result = penalised_day_evening_night(
+        [levels[..., k] for k in range(N_PERIODS)], hours, penalties
+    )
+    return np.asarray(result, dtype=np.float64)
+
+
+def _pair_times(ctx: Context) -> list[str]:
+    """Return the 16 h / 8 h pair as a scheme with an empty evening."""
+    p = ctx.settings.periods
+    return [p.laeq16_start, p.laeq16_end, p.laeq16_end]
+
+
+def period_of_instants(ctx: Context, instants_ms: IntArray) -> list[str]:
+    """Lden period (``day``/``evening``/``night``) holding each instant."""
+    if not ctx.candidate_days:
+        return []
+    bounds = day_offset_boundaries(ctx.candidate_days, scheme_times(ctx.settings.periods.lden),
+                                   ctx.tz)
+    segment = np.searchsorted(bounds, instants_ms, side="right")
+    names = np.array(PERIOD_NAMES, dtype=object)
+    return list(names[(segment - 1) % N_PERIODS])
+
+
+def night_events(ctx: Context, bounds_ms: IntArray, n_days: int) -> tuple[IntArray, FloatArray]:
+    """Count night LAFmax events and find the Nth highest night LAFmax, per candidate day.
+
+    Readings in the Lden night with LAFmax above the threshold are counted; the Nth
+    highest is NaN with fewer than N night readings. A reading belongs to the period
+    holding its start.
+    """
+    events = ctx.settings.events
+    lafmax = ctx.level("LAFmax")
+    counts = np.zeros(n_days, dtype=np.int64)
+    nth = np.full(n_days, np.nan)
+    if lafmax is None or ctx.n == 0:
+        return counts, nth
+    group = segment_groups(np.searchsorted(bounds_ms, ctx.start_ms, side="right"),
+                           n_days * N_PERIODS)
+    in_night = ctx.valid & np.isfinite(lafmax) & (group >= 0) & (group % N_PERIODS == 2)
+    day = (group // N_PERIODS)[in_night]
+    values = lafmax[in_night]
+    counts = np.bincount(day[values > events.night_lafmax_threshold_db], minlength=n_days)
+    order = np.lexsort((-values, day))
+    day_sorted = day[order]
+    per_day = np.bincount(day_sorted, minlength=n_days)
+    first = np.cumsum(per_day) - per_day
+    rank = np.arange(day_sorted.size) - first[day_sorted]
+    pick = rank == events.nth_highest - 1
+    nth[day_sorted[pick]] = values[order][pick]
+    return counts.astype(np.int64), nth
+
+
+def days_section(ctx: Context) -> list[dict[str, Any]]:
+    """One entry per assessment day touched by readings."""
+    if ctx.n == 0:
+        return []
+    periods = ctx.settings.periods
+    threshold = ctx.settings.coverage_threshold
+    lden = assess_scheme(ctx, scheme_times(periods.lden))
+    ldn = assess_scheme(ctx, scheme_times(periods.ldn))
+    cnel = assess_scheme(ctx, scheme_times(periods.cnel))
+    pair = assess_scheme(ctx, _pair_times(ctx))
+    values = {
+        "Lday": lden.level_db[:, 0],
+        "Levening": lden.level_db[:, 1],
+        "Lnight": lden.level_db[:, 2],
+        "Lden": penalised(lden.level_db, periods.lden),
+        "Ldn": penalised(ldn.level_db, periods.ldn),
+        "CNEL": penalised(cnel.level_db, periods.cnel),
+        "LAeq_16h": pair.level_db[:, 0],
+        "LAeq_8h": pair.level_db[:, 2],
+    }
+    lists = {key: db_list(v) for key, v in values.items()}
+    cover = {
+        "day": lden.coverage[:, 0], "evening": lden.coverage[:, 1], "night": lden.coverage[:, 2],
+        "ldn_day": ldn.coverage[:, 0], "ldn_night": ldn.coverage[:, 2],
+        "cnel_day": cnel.coverage[:, 0], "cnel_evening": cnel.coverage[:, 1],
+        "cnel_night": cnel.coverage[:, 2],
+        "laeq_16h": pair.coverage[:, 0], "laeq_8h": pair.coverage[:, 2],
+    }
+
+    def enough(coverage: FloatArray, lengths: FloatArray) -> np.ndarray:
+        """All periods with a real length have coverage >= threshold."""
+        ok = np.where(lengths > 0, np.nan_to_num(coverage, nan=0.0) >= threshold, True)
+        return np.all(ok, axis=1)
+
+    sufficient = {
+        "Lden": enough(lden.coverage, lden.length_s),
+        "Ldn": enough(ldn.coverage, ldn.length_s),
+        "CNEL": enough(cnel.coverage, cnel.length_s),
+        "Lday": enough(lden.coverage[:, :1], lden.length_s[:, :1]),
+        "Levening": enough(lden.coverage[:, 1:2], lden.length_s[:, 1:2]),
+        "Lnight": enough(lden.coverage[:, 2:], lden.length_s[:, 2:]),
+        "LAeq_16h": enough(pair.coverage[:, :1], pair.length_s[:, :1]),
+        "LAeq_8h": enough(pair.coverage[:, 2:], pair.length_s[:, 2:]),
+    }
+    n_days = len(ctx.candidate_days)
+    counts, nth = night_events(ctx, lden.bounds_ms, n_days)
+    has_lafmax = ctx.level("LAFmax") is not None
+    events = ctx.settings.events
+    out: list[dict[str, Any]] = []
+    for d in np.flatnonzero(lden.touched):
+        entry: dict[str, Any] = {"date": ctx.candidate_days[d].isoformat()}
+        for key, value_list in lists.items():
+            entry[key] = value_list[d]
+        entry["coverage"] = {key: fraction(c[d]) for key, c in cover.items()}
+        entry["period_hours"] = {
+            name: round(float(lden.length_s[d, k]) / 3600.0, 4)
+            for k, name in enumerate(PERIOD_NAMES)
+        }
+        entry["sufficient"] = {key: bool(flags[d]) for key, flags in sufficient.items()}
+        entry["night_events"] = {
+            "threshold_db": float(events.night_lafmax_threshold_db),
+            "count": int(counts[d]) if has_lafmax else None,
+            "nth_highest_LAFmax": db(nth[d]),
+            "n": int(events.nth_highest),
+        }
+        out.append(entry)
+    return out
+
+
+def survey_average_section(ctx: Context) -> dict[str, Any] | None:
+    """Energy average of all valid time of each period type over the survey, then formulas."""
+    if ctx.n == 0:
+        return None
+    periods = ctx.settings.periods
+    lden, lden_valid = scheme_average(ctx, scheme_times(periods.lden))
+    ldn, _ = scheme_average(ctx, scheme_times(periods.ldn))
+    cnel, _ = scheme_average(ctx, scheme_times(periods.cnel))
+    pair, _ = scheme_average(ctx, _pair_times(ctx))
+    return {
+        "Lday": db(lden[0]),
+        "Levening": db(lden[1]),
+        "Lnight": db(lden[2]),
+        "Lden": db(penalised(lden, periods.lden)),
+        "Ldn": db(penalised(ldn, periods.ldn)),
+        "CNEL": db(penalised(cnel, periods.cnel)),
+        "LAeq_16h": db(pair[0]),
+        "LAeq_8h": db(pair[2]),
+        "valid_s": {name: seconds(lden_valid[k]) for k, name in enumerate(PERIOD_NAMES)},
+    }
