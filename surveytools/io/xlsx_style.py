@@ -1,0 +1,439 @@
+"""Shared formats and safe cell writers for the result and overview workbooks (XlsxWriter).
+
+Every text that may have come from an input (site, notes, labels, finding messages, file
+names) goes through :meth:`SheetWriter.text`: XML-illegal characters are replaced, the text
+is cut to the cell limit, it is written with ``write_string`` (never ``write``) and, when it
+starts with a character a spreadsheet treats as a formula trigger, the cell gets a
+quote-prefix format so it stays text even after someone edits it. Numbers that cannot be
+computed (``None``, NaN, infinity) are written as empty cells, never as NaN.
+
+References
+----------
+.. [1] OWASP, "CSV Injection" (formula triggers ``= + - @``, tab, CR, LF).
+.. [2] W3C, Extensible Markup Language (XML) 1.0, §2.2 Characters (the legal ``Char`` set).
+.. [3] Microsoft, "Excel specifications and limits" (32,767 characters per cell,
+       1,048,576 rows per sheet).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
+from datetime import date, datetime
+from typing import Any
+
+from surveytools import constants
+
+#: Options every surveytools workbook is opened with: no string is ever guessed to be a
+#: formula or a link, and NaN/inf can never become an error cell (we write blanks instead).
+WORKBOOK_OPTIONS: dict[str, Any] = {
+    "strings_to_formulas": False,
+    "strings_to_urls": False,
+    "nan_inf_to_errors": False,
+    "strings_to_numbers": False,
+}
+
+#: Fixed creation time written into every workbook's properties, so a rerun gives the same
+#: file (nothing time-dependent goes into the output).
+FIXED_CREATED = datetime(2000, 1, 1, 0, 0, 0)
+
+#: Leading characters that make a spreadsheet or CSV consumer treat text as a formula.
+#: OWASP "CSV Injection"; line feed added in OWASP/www-community PR #1116.
+FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r", "\n")
+
+#: Most characters a cell holds. Microsoft, "Excel specifications and limits".
+CELL_MAX_CHARS = 32_767
+
+#: Rows in one worksheet. Microsoft, "Excel specifications and limits".
+SHEET_MAX_ROWS = 1_048_576
+
+#: Characters outside the XML 1.0 ``Char`` production (W3C XML 1.0 §2.2): C0 controls other
+#: than tab, LF and CR; lone surrogates; U+FFFE and U+FFFF.
+_XML_ILLEGAL_RE = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
+
+#: What an illegal character is replaced with (Unicode REPLACEMENT CHARACTER).
+REPLACEMENT_CHAR = "\ufffd"
+
+#: Number formats.
+FMT_LEVEL = "0.0"
+FMT_WHOLE_DB = "0"
+FMT_PERCENT = "0.0%"
+FMT_DATETIME = "yyyy-mm-dd hh:mm:ss"
+FMT_DATE = "yyyy-mm-dd"
+FMT_HOURS = "0.00"
+FMT_INT = "0"
+
+# Colours of our own (plain, print-friendly).
+COLOUR_HEADER_FILL = "#DCE6F0"
+COLOUR_TITLE = "#1F3A5F"
+COLOUR_FAIL_FILL = "#F8D0C8"
+COLOUR_FAIL_TEXT = "#8B1A10"
+COLOUR_PASS_FILL = "#D6EDD5"
+COLOUR_WARN_FILL = "#FCEBC2"
+COLOUR_INFO_FILL = "#E4E8EE"
+COLOUR_GREY_TEXT = "#7F7F7F"
+COLOUR_CAUTION_FILL = "#FFF4D6"
+COLOUR_UNREADABLE_FILL = "#D9D2E9"
+
+#: Fill per severity / status word.
+SEVERITY_FILLS: dict[str, str] = {
+    "error": COLOUR_FAIL_FILL,
+    "warning": COLOUR_WARN_FILL,
+    "info": COLOUR_INFO_FILL,
+    "errors": COLOUR_FAIL_FILL,
+    "warnings": COLOUR_WARN_FILL,
+    "ok": COLOUR_PASS_FILL,
+    "unreadable": COLOUR_UNREADABLE_FILL,
+}
+
+#: Base format properties by style name.
+_STYLE_PROPS: dict[str, dict[str, Any]] = {
+    "text": {"valign": "top"},
+    "wrap": {"valign": "top", "text_wrap": True},
+    "bold": {"bold": True, "valign": "top"},
+    "title": {"bold": True, "font_size": 14, "font_color": COLOUR_TITLE},
+    "subtitle": {"bold": True, "font_size": 11, "font_color": COLOUR_TITLE},
+    "header": {"bold": True, "bg_color": COLOUR_HEADER_FILL, "text_wrap": True,
+               "valign": "top", "border": 1},
+    "note": {"italic": True, "font_color": COLOUR_GREY_TEXT, "valign": "top"},
+    "level": {"num_format": FMT_LEVEL},
+    "level_bold": {"num_format": FMT_LEVEL, "bold": True, "valign": "top"},
+    "level_headline": {"num_format": FMT_LEVEL, "bold": True, "font_size": 13, "valign": "top"},
+    "level_grey": {"num_format": FMT_LEVEL, "italic": True, "font_color": COLOUR_GREY_TEXT},
+    "whole_db": {"num_format": FMT_WHOLE_DB},
+    "whole_db_bold": {"num_format": FMT_WHOLE_DB, "bold": True, "valign": "top"},
+    "percent": {"num_format": FMT_PERCENT},
+    "hours": {"num_format": FMT_HOURS, "valign": "top"},
+    "int": {"num_format": FMT_INT},
+    "seconds": {"num_format": "0.0"},
+    "datetime": {"num_format": FMT_DATETIME},
+    "datetime_short": {"num_format": "yyyy-mm-dd hh:mm"},
+    "note_wrap": {"italic": True, "font_color": COLOUR_GREY_TEXT, "text_wrap": True,
+                  "valign": "top", "font_size": 9},
+    "date": {"num_format": FMT_DATE},
+    "fail": {"bg_color": COLOUR_FAIL_FILL, "font_color": COLOUR_FAIL_TEXT, "bold": True},
+    "pass": {"bg_color": COLOUR_PASS_FILL},
+    "caution": {"bg_color": COLOUR_CAUTION_FILL, "text_wrap": True, "valign": "top"},
+    "caution_bold": {"bg_color": COLOUR_CAUTION_FILL, "bold": True, "valign": "top"},
+    "warning_line": {"bg_color": COLOUR_FAIL_FILL, "font_color": COLOUR_FAIL_TEXT,
+                     "bold": True, "text_wrap": True, "valign": "top"},
+    "link": {"font_color": "#1F4E9A", "underline": 1},
+    "sev_error": {"bg_color": COLOUR_FAIL_FILL},
+    "sev_warning": {"bg_color": COLOUR_WARN_FILL},
+    "sev_info": {"bg_color": COLOUR_INFO_FILL},
+    "st_ok": {"bg_color": COLOUR_PASS_FILL},
+    "st_warnings": {"bg_color": COLOUR_WARN_FILL},
+    "st_errors": {"bg_color": COLOUR_FAIL_FILL},
+    "st_unreadable": {"bg_color": COLOUR_UNREADABLE_FILL},
+}
+
+
+def _fallback_clean_text(text: str) -> tuple[str, bool]:
+    cleaned = _XML_ILLEGAL_RE.sub(REPLACEMENT_CHAR, text)
+    return cleaned, cleaned != text
+
+
+def safe_cell_text(value: object) -> str:
+    """Return text that can be stored in one cell exactly as a person should see it.
+
+    Characters XML cannot carry are replaced with U+FFFD and the text is cut to
+    :data:`CELL_MAX_CHARS` (the JSON keeps the full text).
+
+    Parameters
+    ----------
+    value : object
+        Any value; ``None`` becomes the empty string, others are converted with ``str``.
+
+    Returns
+    -------
+    str
+        Cleaned, length-limited text.
+    """
+    if value is None:
+        return ""
+    text = value if isinstance(value, str) else str(value)
+    text, _ = _fallback_clean_text(text)
+    return text[:CELL_MAX_CHARS]
+
+
+def is_trigger_led(text: str) -> bool:
+    """Return True when ``text`` starts with a formula trigger (see :data:`FORMULA_TRIGGERS`)."""
+    return text[:1] in FORMULA_TRIGGERS and text != ""
+
+
+def finite_number(value: object) -> float | None:
+    """Return ``value`` as a finite float, or None (None, NaN, inf, bools and text give None)."""
+    if value is None or isinstance(value, bool):
+        return None
+    if isinstance(value, int | float):
+        v = float(value)
+        return v if math.isfinite(v) else None
+    try:
+        v = float(value)  # type: ignore[arg-type]  # numpy scalars
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def parse_local_timestamp(text: object) -> tuple[datetime | None, str]:
+    """Split an ISO 8601 timestamp into a naive local date-time and its UTC offset text.
+
+    Parameters
+    ----------
+    text : object
+        ``"2026-06-10T12:00:00+02:00"`` (offset or ``Z`` optional) or a ``"YYYY-MM-DD HH:MM"``
+        local-clock text.
+
+    Returns
+    -------
+    tuple of (datetime or None, str)
+        The wall-clock date-time without zone (None when the text is not a timestamp) and
+        the offset as ``"+02:00"`` (empty when the text carries none).
+    """
+    if not isinstance(text, str) or not text:
+        return None, ""
+    try:
+        stamp = datetime.fromisoformat(text)
+    except ValueError:
+        return None, ""
+    offset = ""
+    if stamp.utcoffset() is not None:
+        delta = stamp.utcoffset()
+        assert delta is not None
+        minutes = int(delta.total_seconds() // 60)
+        sign = "+" if minutes >= 0 else "-"
+        minutes = abs(minutes)
+        offset = f"{sign}{minutes // 60:02d}:{minutes % 60:02d}"
+    return stamp.replace(tzinfo=None), offset
+
+
+def parse_date(text: object) -> date | None:
+    """Return a ``date`` from ``"YYYY-MM-DD"`` text, or None."""
+    if not isinstance(text, str):
+        return None
+    try:
+        return date.fromisoformat(text)
+    except ValueError:
+        return None
+
+
+class Styles:
+    """Lazily created, cached XlsxWriter formats, each also available with a quote prefix.
+
+    Parameters
+    ----------
+    workbook : xlsxwriter.Workbook
+        The workbook the formats belong to.
+    """
+
+    def __init__(self, workbook: Any) -> None:
+        self._workbook = workbook
+        self._cache: dict[tuple[str | None, bool], Any] = {}
+
+    def get(self, name: str | None, quote: bool = False) -> Any:
+        """Return the format ``name`` (None: default), optionally with ``quote_prefix``."""
+        key = (name, quote)
+        if key not in self._cache:
+            props = dict(_STYLE_PROPS[name]) if name is not None else {}
+            if quote:
+                props["quote_prefix"] = True
+            self._cache[key] = self._workbook.add_format(props) if props else None
+        return self._cache[key]
+
+
+@dataclass
+class SheetWriter:
+    """One worksheet plus the widths its columns need.
+
+    Parameters
+    ----------
+    ws : xlsxwriter.worksheet.Worksheet
+        The worksheet.
+    styles : Styles
+        Shared formats.
+    """
+
+    ws: Any
+    styles: Styles
+    widths: dict[int, float] = field(default_factory=dict)
+    #: Columns whose width is not measured (long wrapped notes).
+    fixed_widths: dict[int, float] = field(default_factory=dict)
+
+    def _measure(self, col: int, chars: int) -> None:
+        if chars > self.widths.get(col, 0):
+            self.widths[col] = chars
+
+    def text(self, row: int, col: int, value: object, style: str | None = "text",
+             measure: bool = True) -> None:
+        """Write ``value`` as text (never a formula); trigger-led text gets a quote prefix."""
+        text = safe_cell_text(value)
+        if text == "":
+            self.blank(row, col, style)
+            return
+        fmt = self.styles.get(style, quote=is_trigger_led(text))
+        self.ws.write_string(row, col, text, fmt)
+        if measure:
+            longest = max((len(part) for part in text.splitlines()), default=0)
+            self._measure(col, longest)
+
+    def blank(self, row: int, col: int, style: str | None = None) -> None:
+        """Write an empty cell (kept only when it has a format)."""
+        fmt = self.styles.get(style)
+        if fmt is not None:
+            self.ws.write_blank(row, col, None, fmt)
+
+    def number(self, row: int, col: int, value: object, style: str | None = None) -> bool:
+        """Write a finite number; None/NaN/inf leave the cell empty. Return True if written."""
+        v = finite_number(value)
+        if v is None:
+            self.blank(row, col, style)
+            return False
+        self.ws.write_number(row, col, v, self.styles.get(style))
+        self._measure(col, len(f"{v:.1f}") if abs(v) < 1e6 else 12)
+        return True
+
+    def boolean(self, row: int, col: int, value: object, style: str | None = "text") -> None:
+        """Write ``yes``/``no`` text for a bool; empty for anything else."""
+        if isinstance(value, bool):
+            self.text(row, col, "yes" if value else "no", style)
+        else:
+            self.blank(row, col, style)
+
+    def stamp(self, row: int, col: int, value: object, style: str = "datetime") -> str:
+        """Write an ISO timestamp as a real date-time cell; return its UTC offset text.
+
+        Text that is not a timestamp is written as text, so nothing is lost.
+        """
+        stamp, offset = parse_local_timestamp(value)
+        if stamp is None:
+            self.text(row, col, value)
+            return ""
+        self.ws.write_datetime(row, col, stamp, self.styles.get(style))
+        self._measure(col, len(FMT_DATETIME))
+        return offset
+
+    def day(self, row: int, col: int, value: object) -> None:
+        """Write ``"YYYY-MM-DD"`` as a real date cell (text if it is not a date)."""
+        d = parse_date(value)
+        if d is None:
+            self.text(row, col, value)
+            return
+        self.ws.write_datetime(row, col, datetime(d.year, d.month, d.day), self.styles.get("date"))
+        self._measure(col, len(FMT_DATE))
+
+    def header(self, row: int, col: int, names: Sequence[str], style: str = "header") -> None:
+        """Write a header row of our own column names."""
+        for i, name in enumerate(names):
+            self.ws.write_string(row, col + i, name, self.styles.get(style))
+            self._measure(col + i, min(max(len(w) for w in name.split()), 40) + 2)
+
+    def key_values(self, row: int, col: int, pairs: Iterable[tuple[str, object]],
+                   value_style: str | None = "text") -> int:
+        """Write ``label | value`` rows; return the next free row."""
+        for label, value in pairs:
+            self.ws.write_string(row, col, label, self.styles.get("bold"))
+            self._measure(col, len(label))
+            if isinstance(value, bool):
+                self.boolean(row, col + 1, value, value_style)
+            elif isinstance(value, int | float):
+                self.number(row, col + 1, value, value_style if value_style != "text" else None)
+            else:
+                self.text(row, col + 1, value, value_style)
+            row += 1
+        return row
+
+    def fit_columns(self, minimum: float = 6.0, maximum: float = 60.0,
+                    first_col: int = 0) -> None:
+        """Set every measured column's width (characters), within ``[minimum, maximum]``."""
+        for col in sorted(set(self.widths) | set(self.fixed_widths)):
+            if col < first_col:
+                continue
+            width = self.fixed_widths.get(col)
+            if width is None:
+                width = min(max(self.widths[col] + 1.5, minimum), maximum)
+            self.ws.set_column(col, col, width)
+
+
+def cautions_lines() -> list[str]:
+    """Return the cautions every surveytools workbook carries (our own wording)."""
+    action = f"{constants.LEX8H_LOWER_ACTION_DB:.0f}"
+    return [
+        "These results are indicative. They come from an automated calculation over the "
+        "logged data and have not been checked by a person.",
+        "The applicable local standard and regulations govern the measurement method and "
+        "the assessment; where they differ from the methods used here, they prevail.",
+        "A competent person (licensed, where the jurisdiction requires it) must review and "
+        "sign off these figures before they are used for planning or enforcement decisions.",
+        f"Levels at or above occupational action values (lower exposure action value "
+        f"LEX,8h = {action} dB(A), Directive 2003/10/EC) call for hearing protection and an "
+        "occupational noise assessment; these environmental figures are not an exposure "
+        "assessment. Defer to local codes.",
+    ]
+
+
+def occupational_warning(levels_db: Iterable[object]) -> str | None:
+    """Return the warning line when any level reaches the lower action value, else None.
+
+    Parameters
+    ----------
+    levels_db : iterable
+        LAeq / LAFmax values found anywhere in the results. [dB]
+
+    Returns
+    -------
+    str or None
+        Warning text naming the highest level, or None when all are below
+        :data:`surveytools.constants.LEX8H_LOWER_ACTION_DB`.
+    """
+    finite = [v for v in (finite_number(x) for x in levels_db) if v is not None]
+    if not finite:
+        return None
+    top = max(finite)
+    if top < constants.LEX8H_LOWER_ACTION_DB:
+        return None
+    return (
+        f"WARNING: a level of {top:.1f} dB(A) in these results reaches or exceeds "
+        f"{constants.LEX8H_LOWER_ACTION_DB:.0f} dB(A), the lower exposure action value of "
+        "Directive 2003/10/EC. People working at this position may need hearing protection and an "
+        "occupational noise assessment. Follow local codes."
+    )
+
+
+def severity_counts(findings: Sequence[Mapping[str, Any]],
+                    finding_counts: Mapping[str, Any] | None) -> dict[str, int]:
+    """Count findings by severity, including those beyond the per-code cap.
+
+    The stored list gives each code's severity; ``finding_counts`` gives its full count.
+    Codes only in the list (``findings-truncated``) are counted from the list.
+    """
+    counts = {"error": 0, "warning": 0, "info": 0}
+    code_severity: dict[str, str] = {}
+    listed: dict[str, int] = {}
+    for f in findings:
+        code = str(f.get("code"))
+        sev = str(f.get("severity"))
+        # a code has one severity; keep the most serious one seen
+        if code not in code_severity or _rank(sev) < _rank(code_severity[code]):
+            code_severity[code] = sev
+        listed[code] = listed.get(code, 0) + 1
+    full = dict(finding_counts or {})
+    for code, sev in code_severity.items():
+        n = full.get(code)
+        n_int = int(n) if isinstance(n, int) and n >= listed[code] else listed[code]
+        if sev in counts:
+            counts[sev] += n_int
+    return counts
+
+
+def _rank(severity: str) -> int:
+    return {"error": 0, "warning": 1, "info": 2}.get(severity, 3)
+
+
+def fmt_db(value: object, whole: bool = False) -> str:
+    """Return a level as display text (``"55.3 dB"``), or ``"n/a"`` when missing."""
+    v = finite_number(value)
+    if v is None:
+        return "n/a"
+    return f"{v:.0f} dB" if whole else f"{v:.1f} dB"
