@@ -639,7 +639,9 @@ def settings_from_mapping(data: Mapping[str, Any], source: str = "settings") -> 
     ----------
     data : mapping
         Parsed TOML (or an equivalent dict); omitted keys keep their defaults. TOML local
-        times (``07:00:00``) and local date-times are accepted as well as text.
+        times (``07:00:00``) and local date-times are accepted as well as text. The output
+        of :meth:`Settings.to_dict` (a results file's ``settings``) is accepted too: its
+        ``column_map`` stands for ``columns`` and ``None`` values for omitted keys.
     source : str
         Name used at the start of every error message (the settings file name).
 
@@ -655,7 +657,10 @@ def settings_from_mapping(data: Mapping[str, Any], source: str = "settings") -> 
     """
     if not isinstance(data, Mapping):
         raise SettingsError(f"{source}: expected a table of settings, found {_show(data)}")
-    plain = _plain_toml(dict(data))
+    mapping = dict(data)
+    if "column_map" in mapping and "columns" not in mapping:  # Settings.to_dict() spelling
+        mapping["columns"] = mapping.pop("column_map")
+    plain = _plain_toml(_drop_none(mapping))
     problems = _schema_problems(plain)
     if problems:
         _raise(source, problems)
@@ -732,12 +737,7 @@ def settings_from_dict(data: Mapping[str, Any], source: str = "results settings"
     SettingsError
         When the recorded settings are not valid (a damaged or foreign results file).
     """
-    if not isinstance(data, Mapping):
-        raise SettingsError(f"{source}: expected a table of settings, found {_show(data)}")
-    mapping = dict(data)
-    if "column_map" in mapping:
-        mapping["columns"] = mapping.pop("column_map")
-    return settings_from_mapping(_drop_none(mapping), source)
+    return settings_from_mapping(data, source)
 
 
 def settings_sha256(settings: Settings) -> str:
