@@ -1,0 +1,86 @@
+"""Drop-folder behaviour of the batch: discovery, settle, output names (no workers run here)."""
+
+from __future__ import annotations
+
+import os
+import threading
+import time
+from pathlib import Path
+
+import pytest
+
+from surveytools.batch import Candidate, discover, output_stems, settle
+
+
+def _touch(path: Path, data: bytes = b"PK\x03\x04 not really") -> Path:
+    path.write_bytes(data)
+    return path
+
+
+def test_discover_keeps_regular_survey_files_and_explains_the_rest(tmp_path: Path) -> None:
+    good = _touch(tmp_path / "east.xlsx")
+    _touch(tmp_path / "west.csv", b"Start,LAeq\n")
+    _touch(tmp_path / "~$east.xlsx")            # Office owner file
+    _touch(tmp_path / ".~lock.east.xlsx#")      # LibreOffice lock file
+    _touch(tmp_path / "._east.xlsx")            # macOS AppleDouble file
+    _touch(tmp_path / "notes.txt")              # not a survey file: ignored silently in a folder
+    os.mkfifo(tmp_path / "pipe.xlsx")           # would hang any reader that opened it
+    (tmp_path / "link.xlsx").symlink_to(good)
+    (tmp_path / "sub").mkdir()                  # folders are not descended into
+
+    found, skipped = discover([tmp_path])
+
+    assert sorted(c.path.name for c in found) == ["east.xlsx", "west.csv"]
+    by_name = {Path(s.path).name: s.code for s in skipped}
+    assert by_name == {
+        "~$east.xlsx": "lock-or-temp-file",
+        "._east.xlsx": "lock-or-temp-file",
+        "pipe.xlsx": "not-regular-file",
+        "link.xlsx": "not-regular-file",
+    }
+
+
+def test_discover_reports_a_missing_explicit_path(tmp_path: Path) -> None:
+    found, skipped = discover([tmp_path / "absent.xlsx"])
+    assert found == []
+    assert [s.code for s in skipped] == ["path-missing"]
+
+
+def test_a_file_still_growing_is_deferred_not_failed(tmp_path: Path) -> None:
+    path = _touch(tmp_path / "copying.xlsx", b"PK\x03\x04" + b"x" * 100)
+    st = path.stat()
+    candidate = Candidate(path, st.st_size, st.st_mtime_ns)
+    stop = threading.Event()
+
+    def grow() -> None:
+        with path.open("ab") as fh:
+            while not stop.is_set():
+                fh.write(b"y" * 4096)
+                fh.flush()
+                time.sleep(0.02)
+
+    t = threading.Thread(target=grow)
+    t.start()
+    try:
+        ready, deferred = settle([candidate], 0.2)
+    finally:
+        stop.set()
+        t.join()
+    assert ready == []
+    assert [(d.code, d.status) for d in deferred] == [("file-changing", "deferred")]
+
+
+def test_a_settled_file_is_ready(tmp_path: Path) -> None:
+    path = _touch(tmp_path / "done.xlsx")
+    st = path.stat()
+    ready, deferred = settle([Candidate(path, st.st_size, st.st_mtime_ns)], 0.0)
+    assert [c.path for c in ready] == [path] and deferred == []
+
+
+@pytest.mark.parametrize("names", [["a b.xlsx", "a_b.xlsx"], ["East.xlsx", "east.csv"]])
+def test_output_stems_are_unique_and_safe(tmp_path: Path, names: list[str]) -> None:
+    cands = [Candidate(tmp_path / n, 1, 1) for n in names]
+    stems = output_stems(cands)
+    values = list(stems.values())
+    assert len({v.lower() for v in values}) == len(values)
+    assert all("/" not in v and " " not in v for v in values)

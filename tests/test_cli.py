@@ -1,0 +1,186 @@
+"""Acceptance tests: run the command line in tmp_path as a user would.
+
+Each asserts the exit code (design §7 contract), a stable phrase and the parsed JSON.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import openpyxl
+import pytest
+
+from tests.workbooks import billion_laughs, survey_workbook
+
+pytestmark = pytest.mark.slow
+
+
+def run_cli(*args: str, cwd: Path) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([sys.executable, "-m", "surveytools", *args], cwd=cwd,
+                          capture_output=True, text=True, timeout=600, check=False)
+
+
+def sha(path: Path) -> str:
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+@pytest.fixture
+def mixed_folder(tmp_path: Path) -> Path:
+    drop = tmp_path / "drop"
+    drop.mkdir()
+    good = survey_workbook(drop / "good.xlsx", position="P1")
+    # Faulty: a text cell in LAeq (row 3 of Readings: header is row 1) -> error finding.
+    survey_workbook(drop / "faulty.xlsx", position="P2",
+                    levels=[60.0, "n/a"] + [60.0] * 10 + [55.0] * 4 + [50.0] * 8)
+    billion_laughs(drop / "hostile.xlsx", good)
+    (drop / "~$good.xlsx").write_bytes(b"owner file")
+    os.mkfifo(drop / "pipe.xlsx")
+    (drop / "empty.xlsx").write_bytes(b"")
+    return drop
+
+
+def test_mixed_folder_every_input_accounted_for(mixed_folder: Path, tmp_path: Path) -> None:
+    before = {p.name: sha(p) for p in mixed_folder.iterdir() if p.is_file()
+              and not p.is_fifo() and not p.is_symlink()}
+    out = tmp_path / "out"
+    proc = run_cli("run", str(mixed_folder), "-o", str(out), "--quiet", "--settle", "0",
+                   "--jobs", "2", cwd=tmp_path)
+    assert proc.returncode == 1, proc.stdout + proc.stderr
+    assert "Traceback" not in proc.stdout + proc.stderr
+    assert "Processed 4 files" in proc.stdout
+    overview = json.loads((out / "overview.json").read_text())
+    status = {Path(r["file"]).name: r["status"] for r in overview["inputs"]}
+    assert status == {"good.xlsx": "ok", "faulty.xlsx": "errors", "hostile.xlsx": "unreadable",
+                      "empty.xlsx": "unreadable"}
+    skipped = {Path(s["path"]).name: s["code"] for s in overview["skipped"]}
+    assert skipped == {"~$good.xlsx": "lock-or-temp-file", "pipe.xlsx": "not-regular-file"}
+    faulty = json.loads((out / "faulty.results.json").read_text())
+    located = [(f["sheet"], f["row"], f["column"], f["code"]) for f in faulty["findings"]
+               if f["severity"] == "error"]
+    assert ("Readings", 3, "C", "level-not-a-number") in located
+    hostile = json.loads((out / "hostile.results.json").read_text())
+    assert hostile["status"] == "unreadable"
+    assert hostile["findings"][0]["code"] == "xml-doctype"
+    for name in ("good", "faulty"):
+        assert (out / f"{name}.results.xlsx").is_file()
+    # Inputs are never modified.
+    after = {p.name: sha(p) for p in mixed_folder.iterdir() if p.is_file()
+             and not p.is_fifo() and not p.is_symlink()}
+    assert after == before
+
+
+def test_jobs_two_gives_the_same_results_as_jobs_one(tmp_path: Path) -> None:
+    drop = tmp_path / "drop"
+    drop.mkdir()
+    for i in range(3):
+        survey_workbook(drop / f"p{i}.xlsx", position=f"P{i}",
+                        levels=[60.0 + i] * 12 + [55.0] * 4 + [50.0] * 8)
+    outs = []
+    for jobs in ("1", "2"):
+        out = tmp_path / f"out{jobs}"
+        proc = run_cli("run", str(drop), "-o", str(out), "--quiet", "--settle", "0",
+                       "--jobs", jobs, cwd=tmp_path)
+        assert proc.returncode == 0, proc.stdout + proc.stderr
+        outs.append(out)
+    for i in range(3):
+        a = (outs[0] / f"p{i}.results.json").read_bytes()
+        b = (outs[1] / f"p{i}.results.json").read_bytes()
+        assert a == b
+
+
+def test_rerun_skips_unchanged_inputs_and_says_so(tmp_path: Path) -> None:
+    drop = tmp_path / "drop"
+    drop.mkdir()
+    survey_workbook(drop / "a.xlsx")
+    out = tmp_path / "out"
+    first = run_cli("run", str(drop), "-o", str(out), "--quiet", "--settle", "0", cwd=tmp_path)
+    assert first.returncode == 0, first.stdout + first.stderr
+    js = (out / "a.results.json").read_bytes()
+    second = run_cli("run", str(drop), "-o", str(out), "--quiet", "--settle", "0", cwd=tmp_path)
+    assert second.returncode == 0
+    assert "unchanged since the last run" in second.stdout
+    assert (out / "a.results.json").read_bytes() == js
+    third = run_cli("run", str(drop), "-o", str(out), "--quiet", "--settle", "0", "--force",
+                    cwd=tmp_path)
+    assert "unchanged since the last run" not in third.stdout
+    assert (out / "a.results.json").read_bytes() == js  # byte-identical rerun
+
+
+def test_verify_passes_on_the_original_and_fails_on_an_altered_reading(tmp_path: Path) -> None:
+    src = survey_workbook(tmp_path / "v.xlsx")
+    out = tmp_path / "out"
+    assert run_cli("run", str(src), "-o", str(out), "--quiet", "--settle", "0",
+                   cwd=tmp_path).returncode == 0
+    ok = run_cli("verify", str(out / "v.results.json"), cwd=tmp_path)
+    assert ok.returncode == 0, ok.stdout + ok.stderr
+    assert "verified" in ok.stdout
+    altered = tmp_path / "altered.xlsx"
+    shutil.copy(src, altered)
+    wb = openpyxl.load_workbook(altered)
+    wb["Readings"]["C2"] = 70.0
+    wb.save(altered)
+    bad = run_cli("verify", str(out / "v.results.json"), "--input", str(altered), cwd=tmp_path)
+    assert bad.returncode == 1
+    assert "input.sha256" in bad.stdout
+    assert "overall.LAeq" in bad.stdout
+
+
+def test_check_reports_located_findings_as_text_and_json(tmp_path: Path) -> None:
+    bad = survey_workbook(tmp_path / "east_gate.xlsx",
+                          levels=[60.0, "n/a"] + [60.0] * 22)
+    text = run_cli("check", str(bad), "--settle", "0", cwd=tmp_path)
+    assert text.returncode == 1
+    assert "east_gate.xlsx::Readings!C3:" in text.stdout
+    assert "[level-not-a-number]" in text.stdout
+    js = run_cli("check", str(bad), "--settle", "0", "--format", "json", cwd=tmp_path)
+    payload = json.loads(js.stdout)
+    codes = {(f["sheet"], f["row"], f["column"], f["code"])
+             for f in payload["inputs"][0]["findings"]}
+    assert ("Readings", 3, "C", "level-not-a-number") in codes
+
+
+def test_bad_settings_exit_2_naming_the_key(tmp_path: Path) -> None:
+    src = survey_workbook(tmp_path / "a.xlsx")
+    settings = tmp_path / "s.toml"
+    settings.write_text('[periods.lden]\nday_start = "7 am"\n')
+    proc = run_cli("run", str(src), "--settings", str(settings), "-o", str(tmp_path / "o"),
+                   cwd=tmp_path)
+    assert proc.returncode == 2
+    assert "periods.lden.day_start" in proc.stderr
+    assert "Traceback" not in proc.stderr
+
+
+def test_bad_arguments_exit_2(tmp_path: Path) -> None:
+    proc = run_cli("run", cwd=tmp_path)
+    assert proc.returncode == 2
+
+
+def test_demo_then_run_exits_0_with_warnings_only(tmp_path: Path) -> None:
+    demo = run_cli("demo", "d", cwd=tmp_path)
+    assert demo.returncode == 0, demo.stderr
+    run = run_cli("run", "d", "--settings", "d/settings.toml", "-o", "res", "--quiet",
+                  "--settle", "0", cwd=tmp_path)
+    assert run.returncode == 0, run.stdout + run.stderr
+    overview = json.loads((tmp_path / "res" / "overview.json").read_text())
+    statuses = sorted(r["status"] for r in overview["inputs"])
+    assert statuses and set(statuses) <= {"ok", "warnings"}
+    assert "warnings" in statuses
+
+
+def test_template_writes_a_workbook_the_checker_reads(tmp_path: Path) -> None:
+    proc = run_cli("template", "blank.xlsx", cwd=tmp_path)
+    assert proc.returncode == 0
+    wb = openpyxl.load_workbook(tmp_path / "blank.xlsx")
+    assert {"Guidance", "Survey", "Readings", "Weather", "Exclusions"} <= set(wb.sheetnames)
+    assert wb["Survey"].data_validations.dataValidation  # drop-down lists present
+
+
+def test_version_is_fast_to_start(tmp_path: Path) -> None:
+    proc = run_cli("--version", cwd=tmp_path)
+    assert proc.returncode == 0 and proc.stdout.startswith("surveytools ")
