@@ -272,3 +272,11 @@ SHEET_MAX_ROWS = 1_048_576
 SHEET_MAX_COLUMNS = 16_384
 #: Characters one cell can hold. Same source: 32,767 characters.
 CELL_MAX_CHARS = 32_767
+
+# --------------------------------------------------------------------------------------
+# Validation of logged levels
+# --------------------------------------------------------------------------------------
+
+#: Tolerance when checking LAFmax >= LAeq >= LAF90 >= LAFmin on one logged interval [dB].
+#: Common practice: meters print levels to 0.1 dB, so half a display step is rounding.
+LEVEL_ORDER_TOLERANCE_DB = 0.05
