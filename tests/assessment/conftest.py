@@ -11,6 +11,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
+# Imported first: at the time of writing, importing surveytools.io.raw before
+# surveytools.validation hits a circular import (validation/__init__ -> build -> io.raw).
+import surveytools.validation  # noqa: F401  # isort: skip
 from surveytools.io.raw import SourceInfo
 from surveytools.survey import Exclusion, Survey
 
