@@ -1,0 +1,1 @@
+"""Tests for surveytools.indicators (a package so test basenames may repeat elsewhere)."""
