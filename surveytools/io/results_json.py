@@ -93,17 +93,17 @@ def to_json_value(x: Any) -> Any:
     TypeError
         For a value with no JSON form (a programming error, not a data problem).
     """
-    if x is None or isinstance(x, bool | str):
-        return x
-    if isinstance(x, int):
-        return x
-    if isinstance(x, float):
-        return x if math.isfinite(x) else None
-    if isinstance(x, np.bool_):
+    if x is None:
+        return None
+    if isinstance(x, enum.Enum):  # before str/int: Severity is a str enum
+        return to_json_value(x.value)
+    if isinstance(x, bool | np.bool_):
         return bool(x)
-    if isinstance(x, np.integer):
+    if isinstance(x, str):
+        return str(x)  # also numpy.str_
+    if isinstance(x, int | np.integer):
         return int(x)
-    if isinstance(x, np.floating):
+    if isinstance(x, float | np.floating):  # numpy.float64 is a float subclass
         value = float(x)
         return value if math.isfinite(value) else None
     if isinstance(x, Mapping):
@@ -115,8 +115,6 @@ def to_json_value(x: Any) -> Any:
         return iso_timestamp(x)
     if isinstance(x, date):
         return x.isoformat()
-    if isinstance(x, enum.Enum):
-        return to_json_value(x.value)
     if isinstance(x, Finding):
         return x.to_json()
     if is_dataclass(x) and not isinstance(x, type):
