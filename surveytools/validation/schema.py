@@ -277,7 +277,7 @@ def validate_survey(
             instance[key] = _normalise(key, value)
             origin[key] = _Origin(entry, sheet_name)
 
-    def fill_default(key: str) -> None:
+    def fill_default(key: str, why: str = "not given on the Survey sheet") -> None:
         default = getattr(defaults, key, None)
         if default is None:
             return
@@ -286,7 +286,7 @@ def validate_survey(
         title = props.get(key, {}).get("title", key)
         collector.add(Finding(
             "survey-default-used", Severity.INFO,
-            f"'{title}' not given on the Survey sheet; the settings value {default!r} is used",
+            f"'{title}' {why}; the settings value {default!r} is used",
             sheet_name))
 
     for key in _DEFAULT_KEYS:
@@ -340,7 +340,7 @@ def validate_survey(
     for key in rejected:
         instance.pop(key, None)
         if key in _DEFAULT_KEYS and origin[key].entry is not None:
-            fill_default(key)
+            fill_default(key, "on the Survey sheet is not usable")
     locations: dict[str, tuple[str | None, int | None, str | None]] = {
         k: (o.sheet, o.entry.row, o.entry.value_column)
                  for k, o in origin.items() if o.entry is not None and k in instance}

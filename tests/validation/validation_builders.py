@@ -110,3 +110,9 @@ def reasons(survey: Survey) -> dict[str, list[int]]:
     for ex in survey.exclusions:
         out.setdefault(ex.reason, []).extend(rows[ex.mask].tolist())
     return out
+
+
+def canon(items: Sequence[tuple[Any, ...]]) -> list[tuple[Any, ...]]:
+    """Sort (sheet, row, column, code, ...) tuples that may hold None."""
+    return sorted(items, key=lambda t: tuple((x is None, "" if x is None else str(x).zfill(9)
+                                              if isinstance(x, int) else x) for x in t))
