@@ -15,11 +15,11 @@ from __future__ import annotations
 
 from typing import Any
 
-from surveytools.assessment.background import background_section
+from surveytools.assessment.background import background_section, reference_bounds
 from surveytools.assessment.context import build_context
 from surveytools.assessment.criteria import criteria_section
-from surveytools.assessment.daily import days_section, survey_average_section
-from surveytools.assessment.intervals import intervals_section, overall_section
+from surveytools.assessment.daily import all_scheme_times, days_section, survey_average_section
+from surveytools.assessment.intervals import interval_bounds, intervals_section, overall_section
 from surveytools.assessment.sources import assessments_section
 from surveytools.assessment.spans import (
     coverage_section,
@@ -28,7 +28,7 @@ from surveytools.assessment.spans import (
     survey_section,
     unplaced_section,
 )
-from surveytools.assessment.timegrid import format_local, position_tz
+from surveytools.assessment.timegrid import day_offset_boundaries, format_local, position_tz
 from surveytools.settings import Settings
 from surveytools.survey import Survey
 
@@ -63,6 +63,11 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
     .. [1] design.md §5 (computation rules).
     """
     ctx = build_context(survey, settings)
+    if ctx.n:
+        grids = [interval_bounds(ctx), reference_bounds(ctx)[0]]
+        grids += [day_offset_boundaries(ctx.candidate_days, times, ctx.tz)
+                  for times in all_scheme_times(ctx)]
+        ctx.share_boundaries(grids)
     intervals, intervals_basis = intervals_section(ctx)
     days = days_section(ctx)
     background = background_section(ctx)

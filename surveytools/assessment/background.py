@@ -23,11 +23,10 @@ import numpy as np
 from surveytools.assessment._common import (
     MS_PER_S,
     FloatArray,
+    IntArray,
     db,
     db_list,
     seconds_list,
-    segment_groups,
-    split,
 )
 from surveytools.assessment.context import Context
 from surveytools.assessment.intervals import logged_per_group, same_interval
@@ -47,12 +46,9 @@ BASIS_LOGGED = "logged LAF90"
 BASIS_SAMPLES = "LAeq samples"
 
 
-def background_section(ctx: Context) -> dict[str, Any] | None:
-    """Return the ``background`` section; None without readings."""
-    if ctx.n == 0:
-        return None
+def reference_bounds(ctx: Context) -> tuple[IntArray, IntArray]:
+    """Reference-interval grid overlapping the readings, and the period index of each."""
     settings = ctx.settings.background
-    method = settings.method
     days = ctx.candidate_days
     spans = day_offset_boundaries(days, [settings.day_start, settings.night_start], ctx.tz)
     steps = np.tile([settings.reference_interval_day_s, settings.reference_interval_night_s],
@@ -62,13 +58,21 @@ def background_section(ctx: Context) -> dict[str, Any] | None:
     first, last = int(ctx.start_ms.min()), int(ctx.end_ms.max())
     lo = max(int(np.searchsorted(bounds, first, side="right")) - 1, 0)
     hi = int(np.searchsorted(bounds, last, side="left"))
-    bounds, period_index = bounds[lo : hi + 1], period_index[lo:hi]
+    return bounds[lo : hi + 1], period_index[lo:hi]
+
+
+def background_section(ctx: Context) -> dict[str, Any] | None:
+    """Return the ``background`` section; None without readings."""
+    if ctx.n == 0:
+        return None
+    settings = ctx.settings.background
+    method = settings.method
+    bounds, period_index = reference_bounds(ctx)
     n_groups = max(bounds.size - 1, 0)
 
     laeq = ctx.level("LAeq")
     assert laeq is not None
-    pieces = split(ctx.start_ms, ctx.duration_ms, bounds)
-    group = segment_groups(pieces.segment, n_groups)
+    pieces, group = ctx.pieces_in(bounds)
     valid_group = np.where(ctx.valid_background[pieces.index], group, -1)
     levels = laeq[pieces.index]
     valid_s = grouped_valid_duration(levels, pieces.duration_s, valid_group, n_groups)

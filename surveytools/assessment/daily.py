@@ -25,7 +25,6 @@ from surveytools.assessment._common import (
     fraction,
     seconds,
     segment_groups,
-    split,
 )
 from surveytools.assessment.context import Context
 from surveytools.assessment.timegrid import day_offset_boundaries, hhmm_hours
@@ -64,13 +63,15 @@ def scheme_times(scheme: PeriodScheme) -> list[str]:
 
 
 def assess_scheme(ctx: Context, times: list[str]) -> SchemeResult:
-    """Energy average and valid time per candidate day and period of one scheme."""
+    """Energy average and valid time per candidate day and period of one scheme (cached)."""
+    cached = ctx.cache.get(tuple(times))
+    if isinstance(cached, SchemeResult):
+        return cached
     days = ctx.candidate_days
     n_days = len(days)
     n_groups = n_days * N_PERIODS
     bounds = day_offset_boundaries(days, times, ctx.tz)
-    pieces = split(ctx.start_ms, ctx.duration_ms, bounds)
-    group = segment_groups(pieces.segment, n_groups)
+    pieces, group = ctx.pieces_in(bounds)
     laeq = ctx.level("LAeq")
     assert laeq is not None
     levels = laeq[pieces.index]
@@ -78,29 +79,28 @@ def assess_scheme(ctx: Context, times: list[str]) -> SchemeResult:
     level = grouped_energy_average(levels, pieces.duration_s, valid_group, n_groups)
     valid_s = grouped_valid_duration(levels, pieces.duration_s, valid_group, n_groups)
     touched_groups = np.bincount(group[group >= 0], minlength=n_groups) > 0
-    return SchemeResult(
+    result = SchemeResult(
         level_db=level.reshape(n_days, N_PERIODS),
         valid_s=valid_s.reshape(n_days, N_PERIODS),
         length_s=(np.diff(bounds) / MS_PER_S).reshape(n_days, N_PERIODS),
         bounds_ms=bounds,
         touched=np.asarray(touched_groups.reshape(n_days, N_PERIODS).any(axis=1)),
     )
+    ctx.cache[tuple(times)] = result
+    return result
 
 
-def scheme_average(ctx: Context, times: list[str]) -> tuple[FloatArray, FloatArray]:
-    """Energy average and valid time of each period type over all days."""
-    days = ctx.candidate_days
-    n_groups = len(days) * N_PERIODS
-    bounds = day_offset_boundaries(days, times, ctx.tz)
-    pieces = split(ctx.start_ms, ctx.duration_ms, bounds)
-    group = segment_groups(pieces.segment, n_groups)
-    laeq = ctx.level("LAeq")
-    assert laeq is not None
-    period = np.where(ctx.valid[pieces.index] & (group >= 0), group % N_PERIODS, -1)
-    levels = laeq[pieces.index]
+def scheme_average(result: SchemeResult) -> tuple[FloatArray, FloatArray]:
+    """Energy average and valid time of each period type over all days.
+
+    The per-day levels weighted by their valid time give exactly the energy average of
+    all valid time of the period type (sum of t 10^(L/10) over sum of t).
+    """
+    period = np.broadcast_to(np.arange(N_PERIODS), result.level_db.shape)
+    levels, weights = result.level_db.ravel(), result.valid_s.ravel()
     return (
-        grouped_energy_average(levels, pieces.duration_s, period, N_PERIODS),
-        grouped_valid_duration(levels, pieces.duration_s, period, N_PERIODS),
+        grouped_energy_average(levels, weights, period.ravel(), N_PERIODS),
+        grouped_valid_duration(levels, weights, period.ravel(), N_PERIODS),
     )
 
 
@@ -118,6 +118,12 @@ def penalised(levels: FloatArray, scheme: PeriodScheme) -> FloatArray:
         [levels[..., k] for k in range(N_PERIODS)], hours, penalties
     )
     return np.asarray(result, dtype=np.float64)
+
+
+def all_scheme_times(ctx: Context) -> list[list[str]]:
+    """Local start times of every scheme: Lden, Ldn, CNEL and the 16 h / 8 h pair."""
+    p = ctx.settings.periods
+    return [scheme_times(p.lden), scheme_times(p.ldn), scheme_times(p.cnel), _pair_times(ctx)]
 
 
 def _pair_times(ctx: Context) -> list[str]:
@@ -240,10 +246,10 @@ def survey_average_section(ctx: Context) -> dict[str, Any] | None:
     if ctx.n == 0:
         return None
     periods = ctx.settings.periods
-    lden, lden_valid = scheme_average(ctx, scheme_times(periods.lden))
-    ldn, _ = scheme_average(ctx, scheme_times(periods.ldn))
-    cnel, _ = scheme_average(ctx, scheme_times(periods.cnel))
-    pair, _ = scheme_average(ctx, _pair_times(ctx))
+    lden, lden_valid = scheme_average(assess_scheme(ctx, scheme_times(periods.lden)))
+    ldn, _ = scheme_average(assess_scheme(ctx, scheme_times(periods.ldn)))
+    cnel, _ = scheme_average(assess_scheme(ctx, scheme_times(periods.cnel)))
+    pair, _ = scheme_average(assess_scheme(ctx, _pair_times(ctx)))
     return {
         "Lday": db(lden[0]),
         "Levening": db(lden[1]),

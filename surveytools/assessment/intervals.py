@@ -24,7 +24,6 @@ from surveytools.assessment._common import (
     seconds,
     seconds_list,
     segment_groups,
-    split,
 )
 from surveytools.assessment.context import Context
 from surveytools.assessment.daily import period_of_instants
@@ -116,8 +115,7 @@ def intervals_section(ctx: Context) -> tuple[list[dict[str, Any]], dict[str, Any
     if n_groups == 0:
         return [], basis
 
-    pieces = split(ctx.start_ms, ctx.duration_ms, bounds)
-    group = segment_groups(pieces.segment, n_groups)
+    pieces, group = ctx.pieces_in(bounds)
     valid_group = np.where(ctx.valid[pieces.index], group, -1)
     laeq = ctx.level("LAeq")
     assert laeq is not None  # LAeq is a required column

@@ -23,7 +23,7 @@ def local_ms(text: str, zone: str = "Europe/Berlin") -> int:
     moment = datetime.fromisoformat(text)
     if moment.tzinfo is None:
         moment = moment.replace(tzinfo=ZoneInfo(zone))
-    return int(round(moment.timestamp() * 1000))
+    return round(moment.timestamp() * 1000)
 
 
 def build_survey(

@@ -14,7 +14,8 @@ from surveytools.settings import Settings
 HOUR_MS = 3600_000
 
 
-def hourly_day(zone: str = "Europe/Berlin", day: str = "2026-06-10") -> tuple[list[int], list[float]]:
+def hourly_day(zone: str = "Europe/Berlin",
+               day: str = "2026-06-10") -> tuple[list[int], list[float]]:
     """24 hourly readings from 07:00: 12 h at 60, 4 h at 55, 8 h at 50 dB."""
     t0 = local_ms(f"{day} 07:00", zone)
     return [t0 + h * HOUR_MS for h in range(24)], [60.0] * 12 + [55.0] * 4 + [50.0] * 8
@@ -59,7 +60,8 @@ def test_reading_straddling_a_boundary_is_split_in_proportion() -> None:
     starts = [local_ms("2026-06-10 17:00"), t18, local_ms("2026-06-10 20:00")]
     survey = build_survey(starts, [3600, 7200, 3600], {"LAeq": [40.0, 70.0, 40.0]})
     day = assess(survey, Settings())["days"][0]
-    # hand-evaluated: day part 17-19 = 1 h @40 + 1 h @70 -> 10 lg((10^4 + 10^7)/2) = 10 lg(5.005e6) = 66.99
+    # hand-evaluated: day part 17-19 = 1 h @40 + 1 h @70
+    # -> 10 lg((10^4 + 10^7)/2) = 10 lg(5.005e6) = 66.99
     assert day["Lday"] == pytest.approx(10 * math.log10((1e4 + 1e7) / 2), abs=0.005)
     # evening 19-21 = 1 h @70 + 1 h @40 -> the same 66.99
     assert day["Levening"] == pytest.approx(66.99, abs=0.005)
