@@ -18,13 +18,16 @@ References
 from __future__ import annotations
 
 import math
-import re
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import date, datetime
 from typing import Any
 
 from surveytools import constants
+from surveytools.io.safetext import clean_text, is_formula_trigger
+
+#: Most characters a cell holds. Microsoft, "Excel specifications and limits".
+CELL_MAX_CHARS: int = constants.CELL_MAX_CHARS
 
 #: Options every surveytools workbook is opened with: no string is ever guessed to be a
 #: formula or a link, and NaN/inf can never become an error cell (we write blanks instead).
@@ -39,22 +42,8 @@ WORKBOOK_OPTIONS: dict[str, Any] = {
 #: file (nothing time-dependent goes into the output).
 FIXED_CREATED = datetime(2000, 1, 1, 0, 0, 0)
 
-#: Leading characters that make a spreadsheet or CSV consumer treat text as a formula.
-#: OWASP "CSV Injection"; line feed added in OWASP/www-community PR #1116.
-FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r", "\n")
-
-#: Most characters a cell holds. Microsoft, "Excel specifications and limits".
-CELL_MAX_CHARS = 32_767
-
 #: Rows in one worksheet. Microsoft, "Excel specifications and limits".
 SHEET_MAX_ROWS = 1_048_576
-
-#: Characters outside the XML 1.0 ``Char`` production (W3C XML 1.0 §2.2): C0 controls other
-#: than tab, LF and CR; lone surrogates; U+FFFE and U+FFFF.
-_XML_ILLEGAL_RE = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
-
-#: What an illegal character is replaced with (Unicode REPLACEMENT CHARACTER).
-REPLACEMENT_CHAR = "\ufffd"
 
 #: Number formats.
 FMT_LEVEL = "0.0"
@@ -130,16 +119,12 @@ _STYLE_PROPS: dict[str, dict[str, Any]] = {
 }
 
 
-def _fallback_clean_text(text: str) -> tuple[str, bool]:
-    cleaned = _XML_ILLEGAL_RE.sub(REPLACEMENT_CHAR, text)
-    return cleaned, cleaned != text
-
-
 def safe_cell_text(value: object) -> str:
     """Return text that can be stored in one cell exactly as a person should see it.
 
     Characters XML cannot carry are replaced with U+FFFD and the text is cut to
-    :data:`CELL_MAX_CHARS` (the JSON keeps the full text).
+    :data:`CELL_MAX_CHARS` (:func:`surveytools.io.safetext.clean_text`; the JSON keeps the
+    full text).
 
     Parameters
     ----------
@@ -154,13 +139,13 @@ def safe_cell_text(value: object) -> str:
     if value is None:
         return ""
     text = value if isinstance(value, str) else str(value)
-    text, _ = _fallback_clean_text(text)
-    return text[:CELL_MAX_CHARS]
+    cleaned, _changes = clean_text(text, CELL_MAX_CHARS)
+    return cleaned
 
 
 def is_trigger_led(text: str) -> bool:
-    """Return True when ``text`` starts with a formula trigger (see :data:`FORMULA_TRIGGERS`)."""
-    return text[:1] in FORMULA_TRIGGERS and text != ""
+    """Return True when ``text`` starts with a formula trigger (:mod:`surveytools.io.safetext`)."""
+    return text != "" and is_formula_trigger(text)
 
 
 def finite_number(value: object) -> float | None:
