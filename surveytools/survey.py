@@ -27,13 +27,15 @@ column             dtype     meaning
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 import pandas as pd
 
 from surveytools.io.raw import SourceInfo
-from surveytools.validation.findings import Finding
+
+if TYPE_CHECKING:  # imported for annotations only: validation imports this module
+    from surveytools.validation.findings import Finding
 
 Scope = Literal["all", "background"]
 

@@ -12,11 +12,13 @@ Row arithmetic: position ``i`` in a :class:`RawColumn` is spreadsheet row
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 import pandas as pd
 
-from surveytools.validation.findings import Finding
+if TYPE_CHECKING:  # imported for annotations only: validation imports this module
+    from surveytools.validation.findings import Finding
+
 
 ColumnKind = Literal["number", "datetime", "text", "bool", "empty"]
 
