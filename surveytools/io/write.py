@@ -320,7 +320,7 @@ def _write_summary(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
         else:
             sw.number(row, 1, round(value, 1), style)
         sw.number(row, 2, _hours(valid_by_key.get(key)), "hours")
-        _merged_text(sw, row, 4, _SUMMARY_LAST_COL, notes[key], "note_wrap", height=24)
+        _merged_text(sw, row, 4, _SUMMARY_LAST_COL, notes[key], "note_wrap")
         row += 1
     bg = doc.get("background") or {}
     whole = _is_mode(doc)
@@ -336,7 +336,7 @@ def _write_summary(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
             n = _get(bg, period, "n_intervals")
             if isinstance(n, int):
                 sw.text(row, 3, f"{bg.get('method')} of {n} intervals", "note", measure=False)
-        _merged_text(sw, row, 4, _SUMMARY_LAST_COL, notes[key], "note_wrap", height=24)
+        _merged_text(sw, row, 4, _SUMMARY_LAST_COL, notes[key], "note_wrap")
         row += 1
     row += 1
 
