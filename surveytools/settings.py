@@ -605,6 +605,8 @@ def _build(data: Mapping[str, Any]) -> tuple[Settings, list[tuple[str, str]]]:
         for k in data.get("criteria", [])
     )
 
+    problems += _column_map_problems(data.get("columns", {}))
+
     settings = Settings(
         periods=periods,
         reporting_interval_s=durations.get("reporting_interval", base.reporting_interval_s),
@@ -622,6 +624,23 @@ def _build(data: Mapping[str, Any]) -> tuple[Settings, list[tuple[str, str]]]:
         output=output,
     )
     return settings, problems
+
+
+def _column_map_problems(columns: Mapping[str, str]) -> list[tuple[str, str]]:
+    """Each ``[columns]`` target must be a canonical column or Survey key name."""
+    from surveytools.io.columns import READINGS_COLUMNS, VOCABULARIES, canonical_name
+
+    known = sorted({name for vocabulary in VOCABULARIES.values() for name in vocabulary})
+    problems: list[tuple[str, str]] = []
+    for header, target in sorted(columns.items()):
+        if target in known or canonical_name(target, READINGS_COLUMNS) == target:
+            continue  # a vocabulary name, or a one-third-octave band name
+        guesses = [g for v in VOCABULARIES.values() if (g := canonical_name(target, v))]
+        hint = f"; did you mean '{guesses[0]}'?" if guesses else ""
+        problems.append((f"columns.{header}", f"expected a canonical column name (one of "
+                                              f"{', '.join(known)}, or a band such as "
+                                              f"'LZeq_1000Hz'), found '{target}'{hint}"))
+    return problems
 
 
 def _raise(source: str, problems: list[tuple[str, str]]) -> None:

@@ -181,6 +181,14 @@ def test_to_dict_is_plain_json():
     assert json.loads(json.dumps(d, allow_nan=False)) == d  # tuples became lists
 
 
+@pytest.mark.parametrize("target", ["LAeq", "LAF90", "Wind speed", "LZeq_1000Hz", "position"])
+def test_column_map_targets_accepted(target):
+    # Canonical names of the input layout (design.md section 3) and one-third-octave bands
+    # (IEC 61260-1 nominal 1000 Hz).
+    assert settings_from_mapping({"columns": {"My header": target}}).column_map == {
+        "My header": target}
+
+
 def test_native_toml_times_and_seconds_spelling(tmp_path):
     text = (
         "reporting_interval_s = 300\n"
@@ -253,6 +261,10 @@ BAD = [
     ("[events]\nnth_highest = 2.5\n", r"events\.nth_highest: expected a whole number"),
     ("[output]\nreadings_row_limit = -1\n", r"output\.readings_row_limit: expected a number >= 0"),
     ("[columns]\nLeq = 5\n", r"columns\.Leq: expected text, found 5"),
+    ('[columns]\nLeq = "Bogus"\n',
+     r"columns\.Leq: expected a canonical column name .*found 'Bogus'$"),
+    ('[columns]\n"Level" = "LAeq (dB)"\n',
+     r"columns\.Level: .*found 'LAeq \(dB\)'; did you mean 'LAeq'\?"),
     ('[[criteria]]\nindicator = "Lnite"\nlimit_db = 45\n',
      r"criteria\[1\]\.indicator: expected one of 'Lday'"),
     ('[[criteria]]\nindicator = "Lnight"\n', r"criteria\[1\]\.limit_db: missing"),
