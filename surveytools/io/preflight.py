@@ -1,0 +1,803 @@
+"""Preflight: decide whether a workbook is safe to hand to a reader, before any reader runs.
+
+Checks, in order (each failure raises :class:`~surveytools.errors.WorkbookError` with a
+stable code): the file (empty, too large, not a regular file), its format by content
+(OLE container = legacy .xls or encrypted workbook, .xlsb, .ods, a CSV/HTML file renamed
+.xlsx, a zip that is not a workbook), the zip directory (corrupt or truncated, too many
+members, declared sizes, compression ratio, encrypted members), every XML part's encoding
+and DTD (no ``<!DOCTYPE``/``<!ENTITY`` anywhere: real Excel never writes one), and each
+worksheet's used extent (rows x columns), computed from the cells themselves, never from
+``<dimension>``.
+
+The extent scan streams each worksheet: a fast bytes-level path when every cell carries an
+``r=`` reference in upper-case A1 form and no namespace prefix is used on cells (as Excel,
+xlsxwriter and openpyxl write them), and an exact Expat scan otherwise, following OOXML's
+rules for omitted references (a ``<row>`` without ``r`` is the previous row + 1, a ``<c>``
+without ``r`` the previous column + 1) and matching elements by local name whatever their
+namespace prefix, as the readers do.
+
+Fast-path bound on rows: cell rows are checked per 4 MiB piece against the number of digits
+of the piece's last cell row (so a stray cell with a longer row number is always found);
+rows are exact for sheets whose rows ascend, as the format requires.
+
+Only the standard library is used, so this module imports fast.
+"""
+
+from __future__ import annotations
+
+import functools
+import os
+import queue
+import re
+import stat
+import struct
+import threading
+import zipfile
+import zlib
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from pathlib import Path
+from xml.parsers import expat
+
+from surveytools.errors import WorkbookError
+
+_MB = 1_000_000
+
+
+@dataclass(frozen=True)
+class PreflightLimits:
+    """Limits applied before reading; defaults sized for survey logs.
+
+    A week of 1-s readings (604,800 rows x 4 columns) is ~14 MB on disk and ~97 MB of sheet
+    XML (compression ~7:1); a day of 100 ms readings is 864,000 rows. The defaults leave
+    several times that headroom.
+    """
+
+    max_file_bytes: int = 200 * _MB
+    max_members: int = 2_000
+    max_total_uncompressed_bytes: int = 1_000 * _MB
+    max_member_uncompressed_bytes: int = 600 * _MB
+    #: Largest compression ratio accepted for members larger than ``ratio_min_bytes``.
+    #: Genuine sheet XML compresses ~7:1; highly repetitive genuine sheets stay below ~40:1.
+    max_ratio: float = 200.0
+    ratio_min_bytes: int = 1 * _MB
+    max_cells_area: int = 20_000_000
+    max_rows: int = 1_048_576
+    max_columns: int = 16_384
+
+
+@dataclass(frozen=True)
+class SheetInfo:
+    """What the preflight found about one worksheet.
+
+    Parameters
+    ----------
+    name : str
+        Sheet name as in the workbook.
+    part : str
+        Zip member holding the sheet (``xl/worksheets/sheet1.xml``).
+    visibility : str
+        ``"visible"``, ``"hidden"`` or ``"veryHidden"``.
+    max_row, max_col : int
+        Used extent: largest 1-based row and column holding a cell element (0 when empty).
+    formulas_without_value : tuple of str
+        A1 references of formula cells with no cached value.
+    merged_ranges : tuple of str
+        Merged ranges (``"A3:A5"``).
+    head : bytes
+        The first bytes (up to 256 KiB) of the sheet XML, so that a reader can look at the
+        first rows (header search) without parsing the whole sheet again.
+    """
+
+    name: str
+    part: str
+    visibility: str
+    max_row: int = 0
+    max_col: int = 0
+    formulas_without_value: tuple[str, ...] = ()
+    merged_ranges: tuple[str, ...] = ()
+    head: bytes = field(default=b"", repr=False)
+
+
+@dataclass
+class PreflightReport:
+    """Everything the preflight learned; the reader relies on it.
+
+    Parameters
+    ----------
+    path : str
+        File checked.
+    date_system : int
+        1900 or 1904 (``workbookPr date1904``).
+    sheets : list of SheetInfo
+        Worksheets in workbook order (chart sheets are left out).
+    application : str or None
+        ``Application`` from ``docProps/app.xml`` (the program that saved the file).
+    """
+
+    path: str
+    date_system: int = 1900
+    sheets: list[SheetInfo] = field(default_factory=list)
+    application: str | None = None
+
+    def sheet(self, name: str) -> SheetInfo:
+        """Return the info of the sheet called ``name`` (exact name)."""
+        for s in self.sheets:
+            if s.name == name:
+                return s
+        raise KeyError(name)
+
+    @property
+    def formulas_without_value(self) -> list[tuple[str, str]]:
+        """Return ``(sheet, cell reference)`` of every formula cell without a cached value."""
+        return [(s.name, ref) for s in self.sheets for ref in s.formulas_without_value]
+
+
+# --------------------------------------------------------------------------------------
+# Public entry point
+# --------------------------------------------------------------------------------------
+
+
+def preflight(
+    path: str | os.PathLike[str], limits: PreflightLimits | None = None
+) -> PreflightReport:
+    """Check that ``path`` is a workbook that is safe to read, and describe it.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The input file (opened read-only; never modified).
+    limits : PreflightLimits, optional
+        Limits to apply (defaults: :class:`PreflightLimits`).
+
+    Returns
+    -------
+    PreflightReport
+
+    Raises
+    ------
+    WorkbookError
+        With one of the codes ``file-not-regular``, ``file-empty``, ``file-too-large``,
+        ``file-not-a-zip``, ``file-legacy-xls-or-encrypted``, ``file-xlsb``, ``file-ods``,
+        ``file-not-ooxml``, ``zip-corrupt``, ``zip-too-many-members``, ``zip-too-large``,
+        ``zip-ratio``, ``zip-encrypted-member``, ``xml-doctype``, ``xml-encoding``,
+        ``sheet-too-large``.
+    """
+    lim = limits or PreflightLimits()
+    p = os.fspath(path)
+    head = _check_file(p, lim)
+    _check_magic(p, head)
+    try:
+        with zipfile.ZipFile(p) as zf:
+            infos = _check_members(zf, lim)
+            names = {i.filename for i in infos}
+            _check_format(zf, names)
+            for info in infos:
+                if info.filename.lower().endswith((".xml", ".rels", ".vml")):
+                    _check_xml_part(zf, info)
+            report = _describe(zf, p, names)
+            sheets = []
+            for s in report.sheets:
+                if s.part not in names:
+                    raise WorkbookError(
+                        "file-not-ooxml",
+                        f"The workbook lists sheet '{s.name}' but its part {s.part} is "
+                        "missing. Open and re-save the file in a spreadsheet program.",
+                        sheet=s.name,
+                    )
+                sheets.append(_scan_sheet(zf, zf.getinfo(s.part), s, lim))
+            report.sheets = sheets
+            return report
+    except WorkbookError:
+        raise
+    except (zipfile.BadZipFile, zlib.error, EOFError, OSError, ValueError, KeyError,
+            struct.error, UnicodeDecodeError, expat.ExpatError) as exc:
+        raise WorkbookError(
+            "zip-corrupt",
+            f"The file is damaged or incomplete ({type(exc).__name__}: {str(exc)[:200]}). "
+            "Copy it again from the meter or the sender; if it was still being copied, "
+            "wait until the copy has finished.",
+        ) from exc
+
+
+# --------------------------------------------------------------------------------------
+# File and format
+# --------------------------------------------------------------------------------------
+
+_OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
+
+
+def _check_file(path: str, lim: PreflightLimits) -> bytes:
+    try:
+        st = Path(path).stat()
+    except OSError as exc:
+        raise WorkbookError("file-not-regular", f"The file cannot be opened ({exc.strerror}). "
+                            "Check the path and the permissions.") from exc
+    if not stat.S_ISREG(st.st_mode):
+        raise WorkbookError("file-not-regular", "This is not a regular file (a folder, pipe or "
+                            "device). Put the workbook itself in the folder.")
+    if st.st_size == 0:
+        raise WorkbookError("file-empty", "The file is empty (0 bytes). Copy it again from the "
+                            "meter or the sender.")
+    if st.st_size > lim.max_file_bytes:
+        raise WorkbookError(
+            "file-too-large",
+            f"The file is {st.st_size / _MB:.0f} MB; the limit is "
+            f"{lim.max_file_bytes / _MB:.0f} MB. Split the log into several workbooks "
+            "or export it as CSV.",
+        )
+    with Path(path).open("rb") as fh:
+        return fh.read(4096)
+
+
+def _check_magic(path: str, head: bytes) -> None:
+    if head.startswith(_OLE_MAGIC):
+        raise WorkbookError(
+            "file-legacy-xls-or-encrypted",
+            "This file is an encrypted workbook or a legacy .xls; save it as an unprotected "
+            ".xlsx (File > Save As > Excel Workbook, without a password) and try again.",
+        )
+    if head.startswith((b"PK\x03\x04", b"PK\x05\x06")):
+        return
+    raise WorkbookError("file-not-a-zip", f"This is not an .xlsx workbook: {_sniff(head)}")
+
+
+def _sniff(head: bytes) -> str:
+    text = head.lstrip(b"\xef\xbb\xbf").lstrip().lower()
+    if text.startswith((b"<!doctype html", b"<html", b"<?xml", b"<table", b"<")):
+        return ("it holds HTML/XML text (probably a web page or report saved with an .xlsx "
+                "name). Export the readings again as an .xlsx workbook.")
+    try:
+        sample = head.decode("utf-8")
+    except UnicodeDecodeError:
+        sample = ""
+    if sample and ("," in sample or ";" in sample or "\t" in sample) and "\n" in sample:
+        return ("it holds delimited text (a CSV file renamed .xlsx). Rename it to .csv so it "
+                "is read as a CSV log, or save it as an .xlsx workbook.")
+    return "its content is not a zip container. Save or export it again as an .xlsx workbook."
+
+
+def _check_members(zf: zipfile.ZipFile, lim: PreflightLimits) -> list[zipfile.ZipInfo]:
+    infos = zf.infolist()
+    if len(infos) > lim.max_members:
+        raise WorkbookError(
+            "zip-too-many-members",
+            f"The workbook container holds {len(infos)} parts; the limit is {lim.max_members}. "
+            "A survey workbook needs a few dozen; re-save it from a spreadsheet program.",
+        )
+    seen: set[str] = set()
+    total = 0
+    for i in infos:
+        if i.filename in seen:
+            raise WorkbookError("zip-corrupt", f"The container holds part {i.filename} twice; "
+                                "the file is damaged. Re-save it from a spreadsheet program.")
+        seen.add(i.filename)
+        if i.flag_bits & 0x1:
+            raise WorkbookError(
+                "zip-encrypted-member",
+                f"Part {i.filename} of the workbook is encrypted. Save the workbook without a "
+                "password and try again.",
+            )
+        if i.compress_type not in (zipfile.ZIP_STORED, zipfile.ZIP_DEFLATED):
+            raise WorkbookError("zip-corrupt", f"Part {i.filename} uses an unsupported "
+                                "compression method; re-save the workbook from a spreadsheet "
+                                "program.")
+        total += i.file_size
+        if i.file_size > lim.max_member_uncompressed_bytes:
+            raise WorkbookError(
+                "zip-too-large",
+                f"Part {i.filename} unpacks to {i.file_size / _MB:.0f} MB; the limit is "
+                f"{lim.max_member_uncompressed_bytes / _MB:.0f} MB. Split the log into "
+                "several workbooks or export it as CSV.",
+            )
+        ratio = i.file_size / max(i.compress_size, 1)
+        if i.file_size > lim.ratio_min_bytes and ratio > lim.max_ratio:
+            raise WorkbookError(
+                "zip-ratio",
+                f"Part {i.filename} unpacks {ratio:.0f} times "
+                f"larger than it is stored (limit {lim.max_ratio:.0f}:1): this is how "
+                "decompression bombs look, not survey data. Ask the sender for the original "
+                "export.",
+            )
+    if total > lim.max_total_uncompressed_bytes:
+        raise WorkbookError(
+            "zip-too-large",
+            f"The workbook unpacks to {total / _MB:.0f} MB; the limit is "
+            f"{lim.max_total_uncompressed_bytes / _MB:.0f} MB. Split the log into several "
+            "workbooks or export it as CSV.",
+        )
+    return infos
+
+
+def _check_format(zf: zipfile.ZipFile, names: set[str]) -> None:
+    lower = {n.lower() for n in names}
+    if "xl/workbook.bin" in lower:
+        raise WorkbookError("file-xlsb", "This is a binary workbook (.xlsb). Save it as an "
+                            ".xlsx workbook (Excel Workbook format) and try again.")
+    if "mimetype" in lower or "content.xml" in lower:
+        mimetype = b""
+        if "mimetype" in names and zf.getinfo("mimetype").file_size < 200:
+            mimetype = zf.read("mimetype")
+        if b"opendocument" in mimetype or "content.xml" in lower:
+            raise WorkbookError("file-ods", "This is an OpenDocument spreadsheet (.ods). Save "
+                                "it as an .xlsx workbook and try again.")
+    if "[Content_Types].xml" not in names or "xl/workbook.xml" not in names:
+        raise WorkbookError("file-not-ooxml", "This zip file is not an .xlsx workbook (no "
+                            "workbook part inside). Export the readings again as .xlsx.")
+
+
+# --------------------------------------------------------------------------------------
+# XML encoding and DTD
+# --------------------------------------------------------------------------------------
+
+_DECL_ENCODING_RE = re.compile(r"""^\s*<\?xml[^>]*?\bencoding\s*=\s*["']([^"']*)["']""", re.I)
+_DTD_RE = re.compile(r"<!\s*(?:DOCTYPE|ENTITY)", re.I)
+_ROOT_START_RE = re.compile(r"<[A-Za-z_]")
+_HEAD_BYTES = 65_536
+_WHOLE_PART_BYTES = 4 * _MB
+
+
+def _bad_encoding(part: str, found: str) -> WorkbookError:
+    return WorkbookError(
+        "xml-encoding",
+        f"Part {part} of the workbook is written in {found}; workbooks use UTF-8 or UTF-16. "
+        "Re-save the file from a spreadsheet program.",
+    )
+
+
+def detect_xml_encoding(data: bytes, part: str = "?") -> str:
+    """Return the Python codec of an XML part's bytes, or raise for a refused encoding.
+
+    Only UTF-8 (with or without BOM) and UTF-16 with a BOM are accepted. The UTF-32 BOM is
+    tested before the UTF-16 one (``FF FE 00 00`` starts with ``FF FE``); BOM-less UTF-16 or
+    UTF-32 and any declared encoding other than UTF-8/UTF-16 raise ``xml-encoding``.
+    """
+    if data.startswith((b"\x00\x00\xfe\xff", b"\xff\xfe\x00\x00")):
+        raise _bad_encoding(part, "UTF-32")
+    if data.startswith(b"\xef\xbb\xbf"):
+        codec = "utf-8-sig"
+    elif data.startswith((b"\xfe\xff", b"\xff\xfe")):
+        codec = "utf-16"
+    elif data[:4] in (b"\x00\x00\x00<", b"<\x00\x00\x00"):
+        raise _bad_encoding(part, "UTF-32 without a byte-order mark")
+    elif data[:2] in (b"\x00<", b"<\x00"):
+        raise _bad_encoding(part, "UTF-16 without a byte-order mark")
+    else:
+        codec = "utf-8"
+    text = _decode_head(data[:4096], codec, part)
+    m = _DECL_ENCODING_RE.match(text)
+    if m:
+        declared = m.group(1).strip().lower().replace("_", "-")
+        allowed = {"utf-8", "utf8"} if codec != "utf-16" else {"utf-16", "utf-16le", "utf-16be"}
+        if declared not in allowed:
+            raise _bad_encoding(part, f"the declared encoding '{m.group(1)[:40]}'")
+    return codec
+
+
+def _decode_head(data: bytes, codec: str, part: str) -> str:
+    import codecs
+
+    try:
+        return codecs.getincrementaldecoder(codec)().decode(data, final=False)
+    except UnicodeDecodeError as exc:
+        raise _bad_encoding(part, "bytes that are not valid in its encoding") from exc
+
+
+def _doctype_error(part: str) -> WorkbookError:
+    return WorkbookError(
+        "xml-doctype",
+        f"Part {part} of the workbook carries a DTD (<!DOCTYPE>/<!ENTITY>), which spreadsheet "
+        "programs never write and which is used for XML entity attacks. The file was not "
+        "read; ask the sender for the original export.",
+    )
+
+
+def _check_xml_part(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> None:
+    with zf.open(info) as fh:
+        head = fh.read(_HEAD_BYTES if info.file_size > _WHOLE_PART_BYTES else _WHOLE_PART_BYTES)
+    if not head:
+        return
+    codec = detect_xml_encoding(head, info.filename)
+    text = _decode_head(head, codec, info.filename)
+    if info.file_size <= _WHOLE_PART_BYTES:
+        if _DTD_RE.search(text):
+            raise _doctype_error(info.filename)
+        return
+    # Large part: a DTD can only stand in the prolog, before the root element.
+    body = text.lstrip("\ufeff")
+    pos = 0
+    while True:
+        m = _ROOT_START_RE.search(body, pos)
+        if m is None:
+            raise _doctype_error(info.filename) if _DTD_RE.search(body) else WorkbookError(
+                "xml-doctype",
+                f"Part {info.filename} has an XML header longer than {_HEAD_BYTES} bytes; "
+                "spreadsheet programs never write one. Re-save the file.",
+            )
+        if _DTD_RE.search(body, 0, m.start()):
+            raise _doctype_error(info.filename)
+        return
+
+
+# --------------------------------------------------------------------------------------
+# workbook.xml, rels, app.xml (read with Expat after the DTD check; DTDs refused again)
+# --------------------------------------------------------------------------------------
+
+
+def _parse_small_xml(zf: zipfile.ZipFile, name: str) -> list[tuple[str, dict[str, str], str]]:
+    """Return ``(local name, attributes by local name, text)`` of every element."""
+    events: list[tuple[str, dict[str, str], str]] = []
+    texts: list[list[str]] = []
+    parser = expat.ParserCreate(namespace_separator=" ")
+
+    def start(tag: str, attrs: dict[str, str]) -> None:
+        local = {k.rsplit(" ", 1)[-1]: v for k, v in attrs.items()}
+        events.append((tag.rsplit(" ", 1)[-1], local, ""))
+        texts.append([])
+
+    def end(tag: str) -> None:
+        text = "".join(texts.pop())
+        for i in range(len(events) - 1, -1, -1):
+            if events[i][0] == tag.rsplit(" ", 1)[-1] and events[i][2] == "":
+                events[i] = (events[i][0], events[i][1], text)
+                break
+
+    def chars(data: str) -> None:
+        if texts:
+            texts[-1].append(data)
+
+    def doctype(*_args: object) -> None:
+        raise _doctype_error(name)
+
+    parser.StartElementHandler = start
+    parser.EndElementHandler = end
+    parser.CharacterDataHandler = chars
+    parser.StartDoctypeDeclHandler = doctype
+    parser.EntityDeclHandler = doctype
+    parser.Parse(zf.read(name), True)
+    return events
+
+
+def _describe(zf: zipfile.ZipFile, path: str, names: set[str]) -> PreflightReport:
+    report = PreflightReport(path=path)
+    rels: dict[str, tuple[str, str]] = {}
+    if "xl/_rels/workbook.xml.rels" in names:
+        for tag, attrs, _ in _parse_small_xml(zf, "xl/_rels/workbook.xml.rels"):
+            if tag == "Relationship" and "Id" in attrs:
+                rels[attrs["Id"]] = (attrs.get("Target", ""), attrs.get("Type", ""))
+    for tag, attrs, _ in _parse_small_xml(zf, "xl/workbook.xml"):
+        if tag == "workbookPr" and attrs.get("date1904", "").lower() in ("1", "true"):
+            report.date_system = 1904
+        elif tag == "sheet":
+            target, typ = rels.get(attrs.get("id", ""), ("", ""))
+            if typ and not typ.endswith("/worksheet"):
+                continue  # chart sheet, dialog sheet ...
+            part = target.lstrip("/") if target.startswith("/") else "xl/" + target
+            part = os.path.normpath(part).replace(os.sep, "/")
+            report.sheets.append(SheetInfo(attrs.get("name", ""), part,
+                                           attrs.get("state", "visible")))
+    if "docProps/app.xml" in names:
+        for tag, _attrs, text in _parse_small_xml(zf, "docProps/app.xml"):
+            if tag == "Application":
+                report.application = text.strip() or None
+    return report
+
+
+# --------------------------------------------------------------------------------------
+# Worksheet extent scan
+# --------------------------------------------------------------------------------------
+
+_CHUNK = 1 << 20
+#: Bytes of each sheet's XML kept in :attr:`SheetInfo.head`.
+HEAD_KEEP_BYTES = 256 << 10
+_MAX_PENDING = 64 << 20
+_PREFIXED_CELL_RE = re.compile(rb':(?:c|row|sheetData)[\s/>]')
+_LAST_REF_RE = re.compile(rb'<c r="[A-Z]+([0-9]+)"')
+_MERGE_RE = re.compile(rb'<mergeCell\s+ref="([A-Za-z]+[0-9]+(?::[A-Za-z]+[0-9]+)?)"')
+_FORMULA_NO_VALUE_RE = re.compile(
+    rb'<c r="([A-Z]+[0-9]+)"[^>]*(?<!/)>(?:<f[^>]*/>|<f[^>]*>[^<]*</f>)(?:<v\s*/>|<v></v>)?</c>'
+)
+_SAMPLE_BYTES = 256 << 10
+_LETTERS_RE = re.compile(rb'<c r="([A-Z]+)[0-9]')
+_ROWS_RE = re.compile(rb'<c r="[A-Z]+([0-9]+)"')
+_ROOT_TAG_RE = re.compile(rb"<([A-Za-z_][\w.\-]*:)?worksheet[\s>]")
+
+
+class _NeedExactError(Exception):
+    """The fast path met something non-standard: rescan exactly with Expat."""
+
+
+def _exact_max(piece: bytes, max_row: int, max_col: int) -> tuple[int, int]:
+    """Return the largest row and column of the ``<c r="...">`` references in ``piece``."""
+    letters = set(_LETTERS_RE.findall(piece))
+    if any(len(x) > 3 for x in letters):
+        raise _NeedExactError
+    if letters:
+        max_col = max(max_col, *(column_number(x.decode()) for x in letters))
+    rows = _ROWS_RE.findall(piece)
+    if rows:
+        longest = max(map(len, rows))
+        if longest > 7:
+            raise _NeedExactError
+        max_row = max(max_row, int(max(r for r in rows if len(r) == longest)))
+    return max_row, max_col
+
+
+def column_number(letters: str) -> int:
+    """Return the 1-based column number of column letters (``"A"`` -> 1, ``"XFD"`` -> 16384)."""
+    n = 0
+    for ch in letters.upper():
+        n = n * 26 + (ord(ch) - 64)
+    return n
+
+
+def column_letters(number: int) -> str:
+    """Return the column letters of a 1-based column number (1 -> ``"A"``)."""
+    out = ""
+    while number > 0:
+        number, rem = divmod(number - 1, 26)
+        out = chr(65 + rem) + out
+    return out
+
+
+@functools.lru_cache(maxsize=256)
+def _unusual_cell_pattern(max_col: int, digits: int) -> bytes:
+    """Regex for a cell start tag that is not ``<c r="REF"`` with REF inside the bounds.
+
+    REF must be upper-case letters no later than column ``max_col`` followed by 1 to
+    ``digits`` digits (no leading zero) and a closing quote.
+    """
+    letters = column_letters(max_col) if max_col else "A"
+    n = len(letters)
+    alts = [f"[A-Z]{{1,{n - 1}}}"] if n > 1 else []
+    for i, ch in enumerate(letters):
+        if ch != "A":
+            tail = f"[A-Z]{{{n - i - 1}}}" if n - i - 1 else ""
+            alts.append(letters[:i] + f"[A-{chr(ord(ch) - 1)}]" + tail)
+    alts.append(letters)
+    ok = "(?:" + "|".join(alts) + ")" + f"[1-9][0-9]{{0,{digits - 1}}}" + '"'
+    return ('<c(?=[\\s/>])(?! r="' + ok + ")").encode()
+
+
+def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
+    """Yield the member's bytes in chunks, inflated in a helper thread, CRC checked."""
+    if info.compress_type != zipfile.ZIP_DEFLATED or zf.fp is None:
+        with zf.open(info) as fh:
+            while chunk := fh.read(_CHUNK):
+                yield chunk
+        return
+    path = zf.filename
+    assert path is not None
+    with Path(path).open("rb") as fh:
+        fh.seek(info.header_offset)
+        local = fh.read(30)
+        if local[:4] != b"PK\x03\x04":
+            raise zipfile.BadZipFile(f"bad local header for {info.filename}")
+        name_len, extra_len = struct.unpack("<HH", local[26:30])
+        data_start = info.header_offset + 30 + name_len + extra_len
+    q: queue.Queue[bytes | BaseException | None] = queue.Queue(maxsize=4)
+    stop = threading.Event()
+
+    def produce() -> None:
+        try:
+            d = zlib.decompressobj(-15)
+            crc = 0
+            size = 0
+            with Path(path).open("rb") as fh:
+                fh.seek(data_start)
+                left = info.compress_size
+                while left and not stop.is_set():
+                    raw = fh.read(min(_CHUNK // 8, left))
+                    if not raw:
+                        raise EOFError(f"{info.filename} is truncated")
+                    left -= len(raw)
+                    out = d.decompress(raw, info.file_size - size + 1)
+                    if d.unconsumed_tail:
+                        raise zipfile.BadZipFile(
+                            f"{info.filename} is larger than its declared size")
+                    size += len(out)
+                    crc = zlib.crc32(out, crc)
+                    if out:
+                        q.put(out)
+                out = d.flush()
+                size += len(out)
+                crc = zlib.crc32(out, crc)
+                if out:
+                    q.put(out)
+            if not stop.is_set():
+                if not d.eof:
+                    raise EOFError(f"{info.filename} is truncated")
+                if size != info.file_size or crc != info.CRC:
+                    raise zipfile.BadZipFile(f"Bad CRC-32 or size for {info.filename}")
+            q.put(None)
+        except BaseException as exc:  # handed to the consumer thread
+            q.put(exc)
+
+    worker = threading.Thread(target=produce, daemon=True)
+    worker.start()
+    try:
+        while True:
+            item = q.get()
+            if item is None:
+                return
+            if isinstance(item, BaseException):
+                raise item
+            yield item
+    finally:
+        stop.set()
+        while worker.is_alive():
+            try:
+                q.get_nowait()
+            except queue.Empty:
+                worker.join(0.01)
+
+
+def _too_large(sheet: str, rows: int, cols: int, lim: PreflightLimits) -> WorkbookError:
+    return WorkbookError(
+        "sheet-too-large",
+        f"Sheet '{sheet}' uses {rows} rows x {cols} columns (up to cell "
+        f"{column_letters(cols)}{rows}); the limit is {lim.max_rows} rows, {lim.max_columns} "
+        f"columns and {lim.max_cells_area:,} cells in all. Delete the stray cells far from the "
+        "table (or split the log) and save again.",
+        sheet=sheet,
+    )
+
+
+def _check_extent(sheet: str, rows: int, cols: int, lim: PreflightLimits) -> None:
+    if rows > lim.max_rows or cols > lim.max_columns or rows * cols > lim.max_cells_area:
+        raise _too_large(sheet, rows, cols, lim)
+
+
+def _scan_sheet(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
+                lim: PreflightLimits) -> SheetInfo:
+    try:
+        return _scan_fast(zf, info, sheet, lim)
+    except _NeedExactError:
+        return _scan_exact(zf, info, sheet, lim)
+
+
+def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
+               lim: PreflightLimits) -> SheetInfo:
+    max_row = 0
+    max_col = 0
+    formulas: list[str] = []
+    pending = b""
+    head = b""
+    first = True
+
+    def scan(piece: bytes) -> None:
+        nonlocal max_row, max_col
+        last = piece.rfind(b'<c r="')
+        m = _LAST_REF_RE.match(piece, last) if last >= 0 else None
+        digits = len(m.group(1)) if m else 1
+        if m:
+            max_row = max(max_row, int(m.group(1)))
+        # One pass: any cell that is not '<c r="LETTERS DIGITS"' with letters up to the
+        # widest column so far and no more digits than the piece's last row.
+        if digits >= 7 or re.search(_unusual_cell_pattern(max_col, digits), piece):
+            max_row, max_col = _exact_max(piece, max_row, max_col)
+            if re.search(_unusual_cell_pattern(max_col, 7), piece):
+                raise _NeedExactError  # a cell without r=, or a malformed reference
+        _check_extent(sheet.name, max_row, max_col, lim)
+        if b":c" in piece and _PREFIXED_CELL_RE.search(piece):
+            raise _NeedExactError
+        if b"<f" in piece:
+            formulas.extend(ref.decode() for ref in _FORMULA_NO_VALUE_RE.findall(piece))
+
+    for chunk in _inflate(zf, info):
+        if len(head) < HEAD_KEEP_BYTES:
+            head += chunk[: HEAD_KEEP_BYTES - len(head)]
+        if first:
+            first = False
+            if not chunk.lstrip(b"\xef\xbb\xbf \t\r\n").startswith(b"<"):
+                raise _NeedExactError  # UTF-16 or other: exact scan decodes it
+            root = _ROOT_TAG_RE.search(chunk[:_HEAD_BYTES])
+            if root is None or root.group(1):
+                raise _NeedExactError
+            # Widest column among the first cells: later pieces are probed against it.
+            max_row, max_col = _exact_max(chunk[:_SAMPLE_BYTES], 0, 0)
+        pending += chunk
+        cut = max(pending.rfind(b"<row "), pending.rfind(b"<row>"))
+        if cut <= 0:
+            if len(pending) > _MAX_PENDING:
+                raise _NeedExactError
+            continue
+        scan(pending[:cut])
+        pending = pending[cut:]
+    scan(pending)
+    merged = [r.decode() for r in _MERGE_RE.findall(pending)]
+    if b"<mergeCell" in pending and not merged:
+        raise _NeedExactError
+    _check_extent(sheet.name, max_row, max_col, lim)
+    return SheetInfo(sheet.name, sheet.part, sheet.visibility, max_row, max_col,
+                     tuple(formulas), tuple(merged), head)
+
+
+_A1_RE = re.compile(r"^\$?([A-Za-z]{1,3})\$?([0-9]{1,7})$")
+
+
+def _scan_exact(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
+                lim: PreflightLimits) -> SheetInfo:
+    """Expat scan following OOXML's rules for omitted references; elements by local name."""
+    state = {"row": 0, "col": 0, "max_row": 0, "max_col": 0, "in_cell": False,
+             "has_f": False, "has_v": False, "in_v": False}
+    ref = [""]
+    formulas: list[str] = []
+    merged: list[str] = []
+    parser = expat.ParserCreate(namespace_separator=" ")
+
+    def bad_ref(value: str) -> WorkbookError:
+        return WorkbookError(
+            "sheet-too-large",
+            f"Sheet '{sheet.name}' has a cell reference '{value[:20]}' outside the sheet grid "
+            f"(at most {lim.max_rows} rows x {lim.max_columns} columns). Delete the stray "
+            "cells and save again.",
+            sheet=sheet.name,
+        )
+
+    def start(tag: str, attrs: dict[str, str]) -> None:
+        local = tag.rsplit(" ", 1)[-1]
+        if local == "row":
+            r = attrs.get("r")
+            if r is not None:
+                if not r.isdigit() or len(r) > 8:
+                    raise bad_ref(r)
+                state["row"] = int(r)
+            else:
+                state["row"] += 1
+            state["col"] = 0
+            state["max_row"] = max(state["max_row"], state["row"])
+        elif local == "c":
+            r = attrs.get("r")
+            if r is not None:
+                m = _A1_RE.match(r)
+                if m is None:
+                    raise bad_ref(r)
+                state["col"] = column_number(m.group(1))
+                state["row"] = int(m.group(2))
+            else:
+                state["col"] += 1
+            state["max_row"] = max(state["max_row"], state["row"])
+            state["max_col"] = max(state["max_col"], state["col"])
+            _check_extent(sheet.name, state["max_row"], state["max_col"], lim)
+            ref[0] = f"{column_letters(state['col'])}{state['row']}"
+            state["in_cell"] = True
+            state["has_f"] = False
+            state["has_v"] = False
+        elif local == "f" and state["in_cell"]:
+            state["has_f"] = True
+        elif local == "v" and state["in_cell"]:
+            state["in_v"] = True
+        elif local == "mergeCell" and "ref" in attrs:
+            merged.append(attrs["ref"])
+
+    def end(tag: str) -> None:
+        local = tag.rsplit(" ", 1)[-1]
+        if local == "c":
+            if state["has_f"] and not state["has_v"]:
+                formulas.append(ref[0])
+            state["in_cell"] = False
+        elif local == "v":
+            state["in_v"] = False
+
+    def chars(data: str) -> None:
+        if state["in_v"] and data.strip():
+            state["has_v"] = True
+
+    def doctype(*_args: object) -> None:
+        raise _doctype_error(info.filename)
+
+    parser.StartElementHandler = start
+    parser.EndElementHandler = end
+    parser.CharacterDataHandler = chars
+    parser.StartDoctypeDeclHandler = doctype
+    parser.EntityDeclHandler = doctype
+    head = b""
+    for chunk in _inflate(zf, info):
+        if len(head) < HEAD_KEEP_BYTES:
+            head += chunk[: HEAD_KEEP_BYTES - len(head)]
+        parser.Parse(chunk, False)
+    parser.Parse(b"", True)
+    _check_extent(sheet.name, state["max_row"], state["max_col"], lim)
+    return SheetInfo(sheet.name, sheet.part, sheet.visibility, state["max_row"],
+                     state["max_col"], tuple(formulas), tuple(merged), head)
