@@ -420,7 +420,7 @@ def _record_unreadable(options: BatchOptions, job: dict[str, Any],
 
 def overview_document(result: BatchResult, settings_key: str) -> dict[str, Any]:
     """Build overview.json content from a batch result."""
-    from surveytools.pipeline import SCHEMA_VERSION
+    from surveytools.io.results_json import SCHEMA_VERSION
 
     rows = []
     for o in result.outcomes:

@@ -13,14 +13,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from surveytools import __version__
 from surveytools.errors import WorkbookError
 from surveytools.io.raw import SourceInfo
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
-
-#: Version of the results document layout (schemas/results.schema.json).
-SCHEMA_VERSION = "1.0"
 
 #: Input suffixes the batch accepts.
 WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
@@ -121,8 +117,7 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     Never raises for a bad input: an unreadable file gives a document with status
     ``"unreadable"`` and the fatal finding.
     """
-    from surveytools.io.results_json import status_from_findings, unreadable_document
-    from surveytools.settings import settings_to_mapping
+    from surveytools.io.results_json import document_header, unreadable_document
 
     if source is None:
         source = source_info(path)
@@ -139,18 +134,8 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
 
     survey = build_survey(raw, settings)
     sections = assess(survey, settings)
-    findings = _findings_json(survey.findings)
-    doc: dict[str, Any] = {
-        "schema_version": SCHEMA_VERSION,
-        "tool": {"name": "surveytools", "version": __version__},
-        "input": {"file": source.file, "path": source.path, "sha256": source.sha256,
-                  "size_bytes": source.size_bytes},
-        "settings": settings_to_mapping(settings),
-        "status": status_from_findings(survey.findings),
-        "findings": findings,
-        "finding_counts": dict(sorted(survey.finding_counts.items())),
-        "provenance": library_versions(),
-    }
+    doc = document_header(source, settings, survey.findings, survey.finding_counts)
+    doc["provenance"] = library_versions()
     doc.update(sections)
     annotations = None
     if settings.output.include_readings or len(survey.readings) <= settings.output.readings_row_limit:

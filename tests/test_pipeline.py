@@ -1,0 +1,94 @@
+"""One workbook end to end, in process: read -> validate -> assess -> results document."""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import pytest
+
+from surveytools.io.results_json import dumps_results, validate_results
+from surveytools.pipeline import build_document, run_file
+from surveytools.settings import Settings
+from tests.workbooks import survey_workbook
+
+
+def lg(x: float) -> float:
+    return math.log10(x)
+
+
+@pytest.fixture
+def day_workbook(tmp_path: Path) -> Path:
+    # 24 hourly readings from 07:00 (UTC clock): 12 h at 60 dB (07-19), 4 h at 55 dB (19-23),
+    # 8 h at 50 dB (23-07). Invented values chosen so that the Directive's identity applies.
+    return survey_workbook(tmp_path / "day.xlsx")
+
+
+def test_full_day_through_a_workbook(day_workbook: Path) -> None:
+    doc, _ = build_document(day_workbook, Settings())
+    assert validate_results(doc) == []
+    assert doc["status"] == "ok", doc["findings"]
+    (day,) = doc["days"]
+    assert day["date"] == "2026-06-01"
+    # Directive 2002/49/EC Annex I: Lden(L, L-5, L-10) = L exactly.
+    assert day["Lday"] == pytest.approx(60.0, abs=0.005)
+    assert day["Levening"] == pytest.approx(55.0, abs=0.005)
+    assert day["Lnight"] == pytest.approx(50.0, abs=0.005)
+    assert day["Lden"] == pytest.approx(60.0, abs=0.005)
+    # hand-evaluated: Ldn (07-22 / 22-07, +10 dB) = 10 lg((12*10^6 + 3*10^5.5
+    #   + 10*(1*10^5.5 + 8*10^5)) / 24) = 10 lg(24 110 961 / 24) = 60.02
+    ldn = 10 * lg((12e6 + 3 * 10**5.5 + 10 * (10**5.5 + 8e5)) / 24)
+    assert day["Ldn"] == pytest.approx(ldn, abs=0.005)
+    # hand-evaluated: CNEL (07-19 / 19-22 +5 / 22-07 +10) = 10 lg((12*10^6 + 3*10^6
+    #   + 10*(10^5.5 + 8*10^5)) / 24) = 60.37
+    cnel = 10 * lg((12e6 + 3 * 1e6 + 10 * (10**5.5 + 8e5)) / 24)
+    assert day["CNEL"] == pytest.approx(cnel, abs=0.005)
+    # hand-evaluated: LAeq,16h (07-23) = 10 lg((12*10^6 + 4*10^5.5)/16) = 59.19; LAeq,8h = 50.
+    assert day["LAeq_16h"] == pytest.approx(10 * lg((12e6 + 4 * 10**5.5) / 16), abs=0.005)
+    assert day["LAeq_8h"] == pytest.approx(50.0, abs=0.005)
+    assert doc["coverage"]["measured_s"] == pytest.approx(86_400.0)
+    assert doc["overall"]["LAFmax"] == pytest.approx(70.0)  # max logged LAFmax (60 + 10)
+
+
+def test_results_file_is_deterministic_and_strict_json(day_workbook: Path, tmp_path: Path) -> None:
+    out1 = tmp_path / "o1"
+    out2 = tmp_path / "o2"
+    out1.mkdir()
+    out2.mkdir()
+    a = run_file(day_workbook, out1, "day", Settings())
+    b = run_file(day_workbook, out2, "day", Settings())
+    assert a.status == b.status == "ok"
+    text1 = (out1 / "day.results.json").read_text()
+    assert text1 == (out2 / "day.results.json").read_text()
+    json.loads(text1, parse_constant=lambda c: pytest.fail(f"non-strict JSON constant {c}"))
+    assert text1 == dumps_results(json.loads(text1))
+    assert (out1 / "day.results.xlsx").is_file()
+    assert not list(out1.glob("*.part"))
+
+
+def test_a_faulty_row_is_excluded_with_its_reason_and_the_rest_assessed(tmp_path: Path) -> None:
+    path = survey_workbook(tmp_path / "f.xlsx",
+                           levels=[60.0, "n/a"] + [60.0] * 10 + [55.0] * 4 + [50.0] * 8)
+    doc, annotations = build_document(path, Settings())
+    assert doc["status"] == "errors"
+    codes = [(f["sheet"], f["row"], f["column"], f["code"]) for f in doc["findings"]
+             if f["severity"] == "error"]
+    assert codes == [("Readings", 3, "C", "level-not-a-number")]
+    # 23 valid hours remain; the excluded hour is reported, not dropped.
+    assert doc["coverage"]["valid_s"] == pytest.approx(23 * 3600.0)
+    spans = [(s["first_row"], s["reason"]) for s in doc["exclusion_spans"]]
+    assert spans == [(3, "level-invalid")]
+    assert annotations is not None
+    reasons = dict(zip(annotations["row"], annotations["reason"], strict=True))
+    assert reasons[3] == "level-invalid" and reasons[2] == ""
+
+
+def test_unreadable_file_gives_a_valid_unreadable_document(tmp_path: Path) -> None:
+    bad = tmp_path / "bad.xlsx"
+    bad.write_bytes(b"Start,LAeq\n2026-01-01,50\n")
+    doc, annotations = build_document(bad, Settings())
+    assert annotations is None
+    assert doc["status"] == "unreadable"
+    assert validate_results(doc) == []
+    assert doc["findings"][0]["code"] == "file-not-a-zip"
