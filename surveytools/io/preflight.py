@@ -759,7 +759,6 @@ def _scan_exact(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
                 state["col"] += 1
             state["max_row"] = max(state["max_row"], state["row"])
             state["max_col"] = max(state["max_col"], state["col"])
-            _check_extent(sheet.name, state["max_row"], state["max_col"], lim)
             ref[0] = f"{column_letters(state['col'])}{state['row']}"
             state["in_cell"] = True
             state["has_f"] = False
@@ -797,6 +796,9 @@ def _scan_exact(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
         if len(head) < HEAD_KEEP_BYTES:
             head += chunk[: HEAD_KEEP_BYTES - len(head)]
         parser.Parse(chunk, False)
+        # Checked per chunk (not per cell) so the message gives the extent of the whole
+        # chunk, e.g. all 16,384 columns of a row of empty cells.
+        _check_extent(sheet.name, state["max_row"], state["max_col"], lim)
     parser.Parse(b"", True)
     _check_extent(sheet.name, state["max_row"], state["max_col"], lim)
     return SheetInfo(sheet.name, sheet.part, sheet.visibility, state["max_row"],
