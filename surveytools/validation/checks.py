@@ -245,8 +245,8 @@ def read_flags(col: RawColumn, n: int, where: Where, collector: FindingCollector
     known = np.zeros(n, bool)
     if col.kind == "bool":
         b = col.values.astype("boolean")
-        known = b.notna().to_numpy(dtype=bool)
-        value = b.fillna(False).to_numpy(dtype=bool)
+        known = np.array(b.notna(), dtype=bool)
+        value = np.array(b.fillna(False), dtype=bool)
         texts = pd.Series(dict(col.text_cells), dtype=object)
     elif col.kind == "number":
         x = col.values.to_numpy(dtype=float, na_value=np.nan)
@@ -290,14 +290,15 @@ def read_text(col: RawColumn, n: int) -> np.ndarray:
     s = col.values.astype(object)
     present = pd.notna(s).to_numpy(dtype=bool)
     if col.kind != "text":
-        s = s.where(~present, None)
-        s[present] = s[present].astype(str)
+        as_text = np.array(s.astype(str).to_numpy(dtype=object), dtype=object)
+        as_text[~present] = None
+        s = pd.Series(as_text, dtype="object")
     if col.text_cells:
         s = s.copy()
         s.iloc[list(col.text_cells)] = list(col.text_cells.values())
     s = s.where(s.notna(), None)
     blank = s.str.strip().eq("").fillna(True).to_numpy(dtype=bool)
-    arr = s.to_numpy(dtype=object)
+    arr = np.array(s.to_numpy(dtype=object), dtype=object)
     arr[blank] = None
     return arr
 

@@ -213,7 +213,8 @@ def test_date_and_time_columns():
     # Excel's own time value: a fraction of a day (0.5 = 12:00) - the spreadsheet convention
     t3 = table("Readings", [date, time, num_col("LAeq", "C", [50.0, 51.0, 52.0])])
     s = build(t3)
-    assert s.readings["start_ms"].tolist()[:2] == [utc_ms(2026, 7, 3, 23), utc_ms(2026, 7, 3, 23, 30)]
+    assert s.readings["start_ms"].tolist()[:2] == [utc_ms(2026, 7, 3, 23),
+                                                   utc_ms(2026, 7, 3, 23, 30)]
     assert canon(located(s)) == canon([("Readings", 4, "B", "timestamp-invalid")])
     frac = num_col("Time", "B", [0.5, 0.75, 0.0])
     s2 = build(table("Readings", [date, frac, num_col("LAeq", "C", [50.0, 51.0, 52.0])]))
@@ -241,3 +242,13 @@ def test_modal_step_ties_take_the_shortest():
     # steps 10, 10, 20, 20 (ms): a tie, the shorter wins
     assert tb.modal_step_ms(np.array([0, 10, 20, 40, 60], np.int64)) == 10
     assert tb.modal_step_ms(np.array([5], np.int64)) is None
+
+
+def test_dst_autumn_hourly_log_repeats_the_same_wall_time():
+    # hourly rows: 02:00 is written twice, once per pass (no backward jump, a repeat)
+    texts = ["2026-10-25 01:00", "2026-10-25 02:00", "2026-10-25 02:00", "2026-10-25 03:00"]
+    s = build(readings(texts, [50.0] * 4), survey_with(clock="local", time_zone="Europe/Berlin"))
+    assert s.readings["start_ms"].tolist() == [
+        utc_ms(2026, 10, 25, 1, tzinfo=BERLIN), utc_ms(2026, 10, 25, 2, tzinfo=BERLIN, fold=0),
+        utc_ms(2026, 10, 25, 2, tzinfo=BERLIN, fold=1), utc_ms(2026, 10, 25, 3, tzinfo=BERLIN)]
+    assert located(s) == [("Readings", None, None, "dst-policy-applied")]
