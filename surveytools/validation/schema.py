@@ -151,8 +151,7 @@ def _plain(value: Any) -> Any:
     if isinstance(value, int):
         return value
     if isinstance(value, float):
-        return int(value) if math.isfinite(value) and value.is_integer() and abs(value) < 2**53 \
-            else value
+        return value
     return str(value)
 
 
@@ -341,6 +340,9 @@ def validate_survey(
         instance.pop(key, None)
         if key in _DEFAULT_KEYS and origin[key].entry is not None:
             fill_default(key, "on the Survey sheet is not usable")
+    mc = instance.get("meter_class")
+    if isinstance(mc, float):
+        instance["meter_class"] = int(mc)
     locations: dict[str, tuple[str | None, int | None, str | None]] = {
         k: (o.sheet, o.entry.row, o.entry.value_column)
                  for k, o in origin.items() if o.entry is not None and k in instance}

@@ -11,9 +11,8 @@ Daylight saving on a local clock (see ``reference/reliability.md`` §4):
 - autumn: the repeated hour is placed by order. In sheet order the readings of the
   repeated hour run forward, jump back (or repeat a time) once, and run forward again;
   before the jump is the first pass (summer time), after it the second (standard time).
-  If that pattern is
-  not there (one pass only, or out of order) the earlier offset is used and a warning
-  ``timestamp-ambiguous`` is given;
+  If that pattern is not there (one pass only, or out of order) the earlier offset is
+  used and a warning ``timestamp-ambiguous`` is given;
 - spring: the skipped hour is simply absent; a reading stamped inside it does not exist
   (``timestamp-nonexistent``).
 """

@@ -252,3 +252,29 @@ def test_dst_autumn_hourly_log_repeats_the_same_wall_time():
         utc_ms(2026, 10, 25, 1, tzinfo=BERLIN), utc_ms(2026, 10, 25, 2, tzinfo=BERLIN, fold=0),
         utc_ms(2026, 10, 25, 2, tzinfo=BERLIN, fold=1), utc_ms(2026, 10, 25, 3, tzinfo=BERLIN)]
     assert located(s) == [("Readings", None, None, "dst-policy-applied")]
+
+
+def test_time_only_cells():
+    from validation_builders import num_col, table
+    # the reader puts a time-only Excel cell on the spreadsheet's day 0 (1899-12-31)
+    date = dt_col("Date", "A", ["2026-07-03", "2026-07-03"])
+    time = dt_col("Time", "B", ["1899-12-31 22:00:00", "1899-12-31 22:15:00.125"])
+    s = build(table("Readings", [date, time, num_col("LAeq", "C", [50.0, 51.0])]))
+    assert s.readings["start_ms"].tolist() == [utc_ms(2026, 7, 3, 22),
+                                               utc_ms(2026, 7, 3, 22, 15) + 125]
+    # ... but in a Start column a time without a date cannot be placed
+    t = readings(["2026-07-03 22:00", "2026-07-03 22:01", "1899-12-31 22:02"], [50.0] * 3)
+    s2 = build(t)
+    assert located(s2) == [("Readings", 4, "A", "timestamp-invalid")]
+    assert "time of day without a date" in s2.findings[0].message
+    assert s2.unplaced["row"].tolist() == [4]
+
+
+def test_number_in_start_column_is_not_guessed():
+    from validation_builders import num_col, table
+    t = table("Readings", [num_col("Start", "A", [46206.9, 46207.0]),
+                           num_col("LAeq", "B", [50.0, 51.0])])
+    s = build(t)
+    assert canon(located(s)) == canon([("Readings", 2, "A", "timestamp-invalid"),
+                                       ("Readings", 3, "A", "timestamp-invalid")])
+    assert s.readings.empty and len(s.unplaced) == 2
