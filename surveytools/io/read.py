@@ -135,8 +135,10 @@ def read_workbook(
     p = Path(path)
     report = preflight(p, limits)
     source = source_info(p)
+    reader = None
     try:
-        return _Reader(p, report, source, settings.column_map).read()
+        reader = _Reader(p, report, source, settings.column_map)
+        return reader.read()
     except WorkbookError:
         raise
     except Exception as exc:  # any reader failure on a file that passed the preflight
@@ -145,6 +147,9 @@ def read_workbook(
             f"The workbook could not be read ({type(exc).__name__}: {str(exc)[:300]}). Open "
             "it in a spreadsheet program, save it again as .xlsx and retry.",
         ) from exc
+    finally:
+        if reader is not None:
+            reader.close()
 
 
 # --------------------------------------------------------------------------------------
@@ -165,6 +170,11 @@ class _Reader:
         self.calamine = CalamineWorkbook.from_path(str(path))
         self._fastexcel: Any = None
         self._parts: _WorkbookParts | None = None
+
+    def close(self) -> None:
+        if self._parts is not None:
+            self._parts.close()
+        self.calamine.close()
 
     # -- sheets -------------------------------------------------------------------------
 
@@ -595,6 +605,11 @@ class _WorkbookParts:
         self._strings_done = "xl/sharedStrings.xml" not in self.names
         self._strings_iter: Any = None
 
+    def close(self) -> None:
+        if self._strings_iter is not None:
+            self._strings_iter.close()
+        self.zip.close()
+
     def date_styles(self) -> set[int]:
         from xml.parsers import expat
 
@@ -670,14 +685,12 @@ class _WorkbookParts:
             parser.StartElementHandler = start
             parser.EndElementHandler = end
             parser.CharacterDataHandler = chars
-            fh = self.zip.open("xl/sharedStrings.xml")
-
             def feed() -> Any:
-                while block := fh.read(1 << 16):
-                    parser.Parse(block, False)
-                    yield
-                parser.Parse(b"", True)
-                fh.close()
+                with self.zip.open("xl/sharedStrings.xml") as fh:
+                    while block := fh.read(1 << 16):
+                        parser.Parse(block, False)
+                        yield
+                    parser.Parse(b"", True)
 
             self._strings_iter = feed()
         try:
