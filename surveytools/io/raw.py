@@ -61,6 +61,9 @@ class RawColumn:
         Typed values, RangeIndex ``0..n-1``: ``float64`` (NaN = empty) for numbers,
         ``datetime64[ms]`` (NaT = empty) for date-times (naive, as written in the sheet),
         ``object`` (``str`` or ``None``) for text, ``boolean`` for yes/no cells.
+        Time-of-day cells (and ``[h]:mm:ss`` duration cells) are date-times on 1899-12-31,
+        day 0 of the 1900 date system, plus the time (``1899-12-31 01:02:03``), whatever the
+        workbook's date system; subtract that day to combine a Date and a Time column.
     text_cells : dict of int to str
         Cells whose content did not fit ``kind`` (e.g. ``"OVL"`` or ``"55,2"`` in a number
         column, ISO text in a date-time column), by position; their ``values`` entry is empty.
