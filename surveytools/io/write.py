@@ -140,12 +140,17 @@ def _window_text(windows: object) -> str:
 
 
 def _all_levels(doc: Mapping[str, Any]) -> list[object]:
-    """Every LAeq-family and LAFmax value in the document (for the 80 dB caution)."""
+    """Every LAeq-family value in the document (for the 80 dB(A) occupational caution).
+
+    Maxima (LAFmax) are left out on purpose: the action value is an 8-hour exposure
+    level (LEX,8h), and a momentary maximum says nothing about exposure. An interval LAeq at
+    or above 80 dB(A) is enough: someone there for 8 h at that level reaches it.
+    """
     out: list[object] = []
     overall = doc.get("overall") or {}
-    out += [overall.get("LAeq"), overall.get("LAFmax")]
+    out += [overall.get("LAeq")]
     for iv in doc.get("intervals") or []:
-        out += [iv.get("LAeq"), iv.get("LAFmax")]
+        out += [iv.get("LAeq")]
     for day in doc.get("days") or []:
         out += [day.get(k) for k, _ in DAY_INDICATORS]
     avg = doc.get("survey_average") or {}

@@ -364,7 +364,7 @@ def occupational_warning(levels_db: Iterable[object]) -> str | None:
     Parameters
     ----------
     levels_db : iterable
-        LAeq / LAFmax values found anywhere in the results. [dB]
+        LAeq values (period and interval equivalent levels) found in the results. [dB]
 
     Returns
     -------
@@ -379,10 +379,11 @@ def occupational_warning(levels_db: Iterable[object]) -> str | None:
     if top < constants.LEX8H_LOWER_ACTION_DB:
         return None
     return (
-        f"WARNING: a level of {top:.1f} dB(A) in these results reaches or exceeds "
-        f"{constants.LEX8H_LOWER_ACTION_DB:.0f} dB(A), the lower exposure action value of "
-        "Directive 2003/10/EC. People working at this position may need hearing protection and an "
-        "occupational noise assessment. Follow local codes."
+        f"WARNING: an equivalent level of {top:.1f} dB(A) in these results reaches or exceeds "
+        f"{constants.LEX8H_LOWER_ACTION_DB:.0f} dB(A), the lower exposure action value (LEX,8h) of "
+        "Directive 2003/10/EC, for anyone exposed to it for 8 hours. People working at this "
+        "position may need hearing protection and an occupational noise assessment. Follow "
+        "local codes."
     )
 
 

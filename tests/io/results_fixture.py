@@ -73,8 +73,8 @@ def build_results_doc(
             excluded = ["rain"]
             valid_s = 0.0
         lafmax = round(laeq + 14.5, 2)
-        if high_level and i == 10:
-            lafmax = 93.4
+        if high_level and i == 10:  # an interval whose equivalent level reaches 80 dB(A)
+            laeq, lafmax = 84.2, 93.4
         intervals.append({
             "start": iso(t0), "end": iso(t0 + STEP),
             "LAeq": laeq if valid_s > 0 else None,

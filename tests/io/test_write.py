@@ -153,10 +153,23 @@ def test_cautions_text_and_occupational_warning(tmp_path: Path) -> None:
     for phrase in ("indicative", "local standard and regulations", "competent person",
                    "sign off", "Directive 2003/10/EC", "hearing protection"):
         assert phrase in q
-    # Directive 2003/10/EC Art. 3(1)(c): lower exposure action value 80 dB(A); the fixture's
-    # loud variant holds LAFmax 93.4 dB, the quiet one peaks at 72.6 dB.
+    # Directive 2003/10/EC Art. 3(1)(c): lower exposure action value LEX,8h = 80 dB(A); the
+    # fixture's loud variant holds an interval LAeq of 84.2 dB, the quiet one's equivalent
+    # levels stay below 80 dB.
     assert "WARNING" not in q
-    assert "WARNING: a level of 93.4 dB(A)" in lo
+    assert "WARNING: an equivalent level of 84.2 dB(A)" in lo
+
+
+def test_a_high_maximum_alone_does_not_raise_the_exposure_warning(tmp_path: Path) -> None:
+    # The action value is an 8-hour exposure level (Directive 2003/10/EC Art. 2, LEX,8h per
+    # ISO 9612): a momentary LAFmax of 95 dB with equivalent levels far below 80 dB(A) is not
+    # an exposure at the action value.
+    doc = build_results_doc()
+    doc["overall"]["LAFmax"] = 95.0
+    doc["intervals"][3]["LAFmax"] = 95.0
+    ws = openpyxl.load_workbook(write(tmp_path, doc, "m.xlsx"))["Summary"]
+    text = "\n".join(str(c.value) for row in ws.iter_rows() for c in row if c.value)
+    assert "WARNING" not in text
 
 
 def test_days_sheet_values_and_insufficient_greyed(tmp_path: Path) -> None:
