@@ -31,6 +31,7 @@ import queue
 import re
 import stat
 import struct
+import sys
 import threading
 import zipfile
 import zlib
@@ -488,6 +489,13 @@ def _describe(zf: zipfile.ZipFile, path: str, names: set[str]) -> PreflightRepor
 # --------------------------------------------------------------------------------------
 
 _CHUNK = 1 << 20
+#: Bytes of sheet XML checked per regex pass in the fast path.
+_WINDOW = 1 << 19
+#: Compressed bytes inflated per step by the helper thread (few, large hand-overs keep the
+#: two threads from waiting on each other).
+_RAW_STEP = 1 << 20
+#: Thread switch interval while a sheet is inflated in the helper thread [s].
+_SWITCH_INTERVAL_S = 1e-4
 #: Bytes of each sheet's XML kept in :attr:`SheetInfo.head`.
 HEAD_KEEP_BYTES = 256 << 10
 _MAX_PENDING = 64 << 20
@@ -575,7 +583,7 @@ def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
             raise zipfile.BadZipFile(f"bad local header for {info.filename}")
         name_len, extra_len = struct.unpack("<HH", local[26:30])
         data_start = info.header_offset + 30 + name_len + extra_len
-    q: queue.Queue[bytes | BaseException | None] = queue.Queue(maxsize=4)
+    q: queue.Queue[bytes | BaseException | None] = queue.Queue(maxsize=3)
     stop = threading.Event()
 
     def produce() -> None:
@@ -587,7 +595,7 @@ def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
                 fh.seek(data_start)
                 left = info.compress_size
                 while left and not stop.is_set():
-                    raw = fh.read(min(_CHUNK // 8, left))
+                    raw = fh.read(min(_RAW_STEP, left))
                     if not raw:
                         raise EOFError(f"{info.filename} is truncated")
                     left -= len(raw)
@@ -614,6 +622,10 @@ def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
             q.put(exc)
 
     worker = threading.Thread(target=produce, daemon=True)
+    # zlib releases the GIL while inflating but takes it back for every output block; with
+    # the default 5 ms switch interval the scanning thread would make it wait each time.
+    interval = sys.getswitchinterval()
+    sys.setswitchinterval(_SWITCH_INTERVAL_S)
     worker.start()
     try:
         while True:
@@ -630,6 +642,7 @@ def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
                 q.get_nowait()
             except queue.Empty:
                 worker.join(0.01)
+        sys.setswitchinterval(interval)
 
 
 def _too_large(sheet: str, rows: int, cols: int, lim: PreflightLimits) -> WorkbookError:
@@ -661,28 +674,35 @@ def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
     max_row = 0
     max_col = 0
     formulas: list[str] = []
-    pending = b""
+    buf = bytearray()
     head = b""
     first = True
 
-    def scan(piece: bytes) -> None:
+    def scan(start: int, end: int) -> None:
+        """Check ``buf[start:end]`` (whole rows) without copying it."""
         nonlocal max_row, max_col
-        last = piece.rfind(b'<c r="')
-        m = _LAST_REF_RE.match(piece, last) if last >= 0 else None
+        last = buf.rfind(b'<c r="', start, end)
+        m = _LAST_REF_RE.match(buf, last, end) if last >= 0 else None
         digits = len(m.group(1)) if m else 1
         if m:
             max_row = max(max_row, int(m.group(1)))
         # One pass: any cell that is not '<c r="LETTERS DIGITS"' with letters up to the
         # widest column so far and no more digits than the piece's last row.
-        if digits >= 7 or re.search(_unusual_cell_pattern(max_col, digits), piece):
+        if digits >= 7 or re.search(_unusual_cell_pattern(max_col, digits),
+                                    memoryview(buf)[start:end]):
+            piece = bytes(buf[start:end])
             max_row, max_col = _exact_max(piece, max_row, max_col)
             if re.search(_unusual_cell_pattern(max_col, 7), piece):
                 raise _NeedExactError  # a cell without r=, or a malformed reference
         _check_extent(sheet.name, max_row, max_col, lim)
-        if b":c" in piece and _PREFIXED_CELL_RE.search(piece):
+        if buf.find(b":c", start, end) >= 0 and _PREFIXED_CELL_RE.search(buf, start, end):
             raise _NeedExactError
-        if b"<f" in piece:
-            formulas.extend(ref.decode() for ref in _FORMULA_NO_VALUE_RE.findall(piece))
+        if buf.find(b"<f", start, end) >= 0:
+            formulas.extend(ref.decode()
+                            for ref in _FORMULA_NO_VALUE_RE.findall(buf, start, end))
+
+    def row_start(lo: int, hi: int) -> int:
+        return max(buf.rfind(b"<row ", lo, hi), buf.rfind(b"<row>", lo, hi))
 
     for chunk in _inflate(zf, info):
         if len(head) < HEAD_KEEP_BYTES:
@@ -696,17 +716,24 @@ def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
                 raise _NeedExactError
             # Widest column among the first cells: later pieces are probed against it.
             max_row, max_col = _exact_max(chunk[:_SAMPLE_BYTES], 0, 0)
-        pending += chunk
-        cut = max(pending.rfind(b"<row "), pending.rfind(b"<row>"))
-        if cut <= 0:
-            if len(pending) > _MAX_PENDING:
-                raise _NeedExactError
-            continue
-        scan(pending[:cut])
-        pending = pending[cut:]
-    scan(pending)
-    merged = [r.decode() for r in _MERGE_RE.findall(pending)]
-    if b"<mergeCell" in pending and not merged:
+        buf += chunk
+        start, n = 0, len(buf)
+        # Scan in windows of about _WINDOW bytes (cache-friendly), each ending at a row start.
+        while n - start > _WINDOW:
+            cut = row_start(start + 1, start + _WINDOW)
+            if cut <= start:
+                cut = row_start(start + 1, n)
+                if cut <= start:
+                    break
+            scan(start, cut)
+            start = cut
+        del buf[:start]
+        if len(buf) > _MAX_PENDING:
+            raise _NeedExactError
+    scan(0, len(buf))
+    tail = bytes(buf)
+    merged = [r.decode() for r in _MERGE_RE.findall(tail)]
+    if b"<mergeCell" in tail and not merged:
         raise _NeedExactError
     _check_extent(sheet.name, max_row, max_col, lim)
     return SheetInfo(sheet.name, sheet.part, sheet.visibility, max_row, max_col,
