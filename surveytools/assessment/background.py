@@ -127,10 +127,26 @@ def background_section(ctx: Context) -> dict[str, Any] | None:
     return out
 
 
-def background_period_of(ctx: Context, instant_ms: int) -> str:
-    """``"day"`` or ``"night"`` (background periods) of a UTC instant."""
+def background_periods_of(ctx: Context, instants_ms: np.ndarray) -> np.ndarray:
+    """Background period index per UTC instant (index into ``BACKGROUND_PERIODS``), vectorised."""
     settings = ctx.settings.background
     spans = day_offset_boundaries(ctx.candidate_days, [settings.day_start, settings.night_start],
                                   ctx.tz)
-    segment = int(np.searchsorted(spans, instant_ms, side="right"))
-    return BACKGROUND_PERIODS[(segment - 1) % len(BACKGROUND_PERIODS)]
+    segment = np.searchsorted(spans, np.asarray(instants_ms, dtype=np.int64), side="right")
+    return np.asarray((segment - 1) % len(BACKGROUND_PERIODS), dtype=np.int64)
+
+
+def majority_period(ctx: Context, spans_ms: np.ndarray) -> str | None:
+    """Return the background period ("day"/"night") holding most of the time of ``spans_ms``.
+
+    Each ``[from, to)`` span is weighed by its length and placed by its middle instant;
+    spans are short against a period (windows of an assessment, runs of operating
+    readings), so the middle decides. None when there are no spans.
+    """
+    if spans_ms.size == 0:
+        return None
+    middle = (spans_ms[:, 0] + spans_ms[:, 1]) // 2
+    weights = (spans_ms[:, 1] - spans_ms[:, 0]).astype(float)
+    periods = background_periods_of(ctx, middle)
+    totals = np.bincount(periods, weights=weights, minlength=len(BACKGROUND_PERIODS))
+    return BACKGROUND_PERIODS[int(np.argmax(totals))]

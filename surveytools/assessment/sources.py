@@ -6,7 +6,11 @@ reading piece belongs to a window when it lies inside it) or, with
 False = residual; not stated = neither). LAeq of the total and of the residual average
 the valid time only; the specific level follows ISO 1996-2 residual correction, the
 rating level adds the corrections (BS 4142), and the excess is over the representative
-background LA90 of the period holding the first source-on instant.
+background LA90 of the period (day or night) holding most of the source-on time.
+
+With the Operating column, source-on and residual readings are both taken from that same
+period only: day and night are assessed separately (BS 4142:2014 reference intervals), and
+a residual taken from the louder day would not be comparable with a night-time total.
 """
 
 from __future__ import annotations
@@ -16,7 +20,11 @@ from typing import Any
 import numpy as np
 
 from surveytools.assessment._common import IntArray, db, run_spans, seconds, split
-from surveytools.assessment.background import background_period_of
+from surveytools.assessment.background import (
+    BACKGROUND_PERIODS,
+    background_periods_of,
+    majority_period,
+)
 from surveytools.assessment.context import Context
 from surveytools.assessment.timegrid import format_local, local_text_to_utc_ms
 from surveytools.errors import SettingsError
@@ -102,6 +110,7 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
     )
 
     residual_settings = ctx.settings.residual
+    period_note: str | None = None
     if assessment.use_operating_column:
         selection = "operating column"
         operating = (
@@ -112,6 +121,17 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
             else np.zeros(ctx.n, dtype=bool)  # noqa: E712 (nullable boolean comparison)
         off = (operating == False).fillna(False).to_numpy(dtype=bool) if operating is not None \
             else np.zeros(ctx.n, dtype=bool)  # noqa: E712
+        period = majority_period(ctx, _operating_spans(ctx, on & ctx.valid))
+        if period is not None:
+            same = background_periods_of(ctx, ctx.start_ms) == BACKGROUND_PERIODS.index(period)
+            if np.any(off & same & ctx.valid):
+                on, off = on & same, off & same
+                period_note = (f"source-on and residual readings taken from {period}-time "
+                               "only, the period holding most of the operating time")
+            else:
+                period_note = (f"no valid residual readings in the {period}-time, where most "
+                               "of the operating time lies: the residual comes from the other "
+                               "period and may not be comparable")
         on_spans, off_spans = _operating_spans(ctx, on), _operating_spans(ctx, off)
         total, valid_total = _selected_level(ctx, on)
         residual, valid_residual = _selected_level(ctx, off)
@@ -121,6 +141,7 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
         off_spans = window_ms(ctx, assessment.residual)
         total, valid_total = _windowed_level(ctx, on_spans)
         residual, valid_residual = _windowed_level(ctx, off_spans)
+        period = majority_period(ctx, on_spans)
 
     try:
         specific_arr, difference_arr, basis_arr = residual_correction(
@@ -134,7 +155,6 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
     corrections = {name: float(assessment.corrections_db.get(name, 0.0))
                    for name in CORRECTION_NAMES}
     rating = float(rating_level(specific, *(corrections[name] for name in CORRECTION_NAMES)))
-    period = background_period_of(ctx, int(on_spans[:, 0].min())) if on_spans.size else None
     bg = background[period]["LA90"] if (background and period) else None
     excess = float(excess_over_background(rating, bg if bg is not None else float("nan")))
     impact = impact_indication(excess)
@@ -146,6 +166,8 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
         notes.append("no valid readings in the residual time")
     if basis == "upper bound":
         notes.append(NOTE_UPPER_BOUND.format(limit=residual_settings.upper_bound_at_or_below_db))
+    if period_note:
+        notes.append(period_note)
     if period is not None and bg is None:
         notes.append(f"no representative {period} background LA90")
     return {

@@ -54,7 +54,30 @@ def test_corrected_liptak_example(operating: bool) -> None:
     assert a["impact_indication"] == "likely significant adverse impact"
     assert a["valid_s_total"] == 3600.0
     assert a["source_on"][0] == ["2026-07-03T22:00:00+02:00", "2026-07-03T23:00:00+02:00"]
-    assert a["note"] is None
+    if operating:
+        # The plant ran in the day period only and was off at night: the residual had to come
+        # from the other period, and the note says so.
+        assert "residual comes from the other period" in a["note"]
+    else:
+        assert a["note"] is None
+
+
+def test_operating_column_compares_like_with_like() -> None:
+    # Plant on 02:00-03:00 (night) and off 03:00-04:00 (night) and 10:00-11:00 (day, louder).
+    # Hand-evaluated: the night residual alone is 40 dB; including the 60 dB day hour would
+    # give 10 lg((10^4 + 10^6)/2) = 57.03 dB and swamp a 50 dB total.
+    t = local_ms("2026-07-04 02:00")
+    starts = [t, t + 3_600_000, t + 8 * 3_600_000]
+    survey = build_survey(starts, 3600, {"LAeq": [50.0, 40.0, 60.0], "LAF90": [38.0] * 3},
+                          operating=[True, False, False], metadata={"position": "NW-2"})
+    a = Assessment(name="Plant", position="NW-2", use_operating_column=True)
+    (res,) = assess(survey, Settings(assessments=(a,)))["assessments"]
+    assert res["background_period"] == "night"
+    assert res["LAeq_residual"] == 40.0
+    # ISO 1996-2 class: dL = 10 dB -> corrected: 10 lg(10^5 - 10^4) = 49.54 (hand-evaluated).
+    assert res["specific_basis"] == "corrected"
+    assert res["specific_level"] == pytest.approx(10 * math.log10(1e5 - 1e4), abs=0.005)
+    assert "night-time only" in res["note"]
 
 
 def test_no_correction_above_10_db() -> None:
