@@ -324,7 +324,9 @@ class _Reader:
             arr = batch.column(k)
             if not _has_text(header) and arr.null_count == len(arr):
                 continue
-            col = _arrow_to_column(arr, _header_text(header), column_letters(j + 1),
+            header_text = self._clean(_header_text(header), info.name, header_row,
+                                      column_letters(j + 1))
+            col = _arrow_to_column(arr, header_text, column_letters(j + 1),
                                    self.report.date_system)
             for pos, detail in cell_errors.get(k, []):
                 m = _ERROR_DETAIL_RE.search(detail)

@@ -408,3 +408,26 @@ def test_column_letters_round_trip() -> None:
     assert column_letters(16_384) == "XFD"
     for n in (1, 26, 27, 52, 53, 702, 703, 16_384):
         assert column_number(column_letters(n)) == n
+
+
+def test_calamine_reads_foreign_prefixed_cells(tmp_path: Path) -> None:
+    # Why the extent scan matches cells by local name: python-calamine places a <x:c> cell
+    # of any namespace in the grid (so a corner attack could hide behind a prefix).
+    from python_calamine import CalamineWorkbook
+
+    rows = ('<row r="1"><c r="A1"><v>1</v></c>'
+            '<x:c xmlns:x="urn:other" r="D3"><x:v>5</x:v></x:c></row>')
+    p = build_xlsx(tmp_path / "px.xlsx", {"Readings": sheet_xml(rows)})
+    values = CalamineWorkbook.from_path(str(p)).get_sheet_by_name("Readings").to_python()
+    assert values[2][3] == 5.0
+    assert (preflight(p).sheets[0].max_row, preflight(p).sheets[0].max_col) == (3, 4)
+
+
+def test_preflight_imports_no_pandas() -> None:
+    import subprocess
+    import sys
+
+    code = "import sys, surveytools.io.preflight; print('pandas' in sys.modules)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True, timeout=60)
+    assert out.stdout.strip() == "False"

@@ -16,6 +16,7 @@ from pathlib import Path
 import numpy as np
 import openpyxl
 import pandas as pd
+import pytest
 import xlsxwriter
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
@@ -368,3 +369,50 @@ def test_round_trip_openpyxl(tmp_path: Path, start: dt.datetime, step_ms: int,
     diff_us = (got_t.to_numpy().astype("datetime64[us]") - expected).astype(np.int64)
     assert np.abs(diff_us).max() <= 1000
     np.testing.assert_allclose(got_v, levels, rtol=0, atol=1e-9)
+
+
+def test_table_starting_at_c5_without_title(tmp_path: Path) -> None:
+    # The header is the sheet's first non-empty row; row numbers still count from row 1.
+    p = tmp_path / "c5only.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Readings"
+    ws["C5"], ws["D5"] = "Start", "LAeq"
+    for i in range(3):
+        ws.cell(6 + i, 3, dt.datetime(2026, 7, 1, i))
+        ws.cell(6 + i, 4, 50.0 + i)
+    wb.save(p)
+    t = read_workbook(p).readings
+    assert t is not None and (t.header_row, t.n_rows) == (5, 3)
+    ref = openpyxl.load_workbook(p)["Readings"]
+    laeq = _col(t, "LAeq")
+    assert laeq.letter == "D"
+    assert laeq.values.tolist() == [ref[f"D{r}"].value for r in range(6, 9)]
+
+
+def test_reader_failure_mapped(tmp_path: Path) -> None:
+    # An undefined entity (no DTD, so the preflight passes) makes the readers fail: the
+    # failure becomes one WorkbookError code, never a stray exception (reliability.md §5).
+    from surveytools.errors import WorkbookError
+
+    rows = ('<row r="1"><c r="A1" t="inlineStr"><is><t>LAeq</t></is></c></row>'
+            '<row r="2"><c r="A2" t="inlineStr"><is><t>&undefined;</t></is></c></row>')
+    p = build_xlsx(tmp_path / "u.xlsx", {"Readings": sheet_xml(rows)})
+    with pytest.raises(WorkbookError, match="could not be read") as info:
+        read_workbook(p)
+    assert info.value.code == "reader-failed"
+
+
+@pytest.mark.parametrize("name", ["readings", "Readings ", "READINGS", "Read-ings"])
+def test_sheet_name_tolerant(tmp_path: Path, name: str) -> None:
+    p = tmp_path / "n.xlsx"
+    wb = openpyxl.Workbook()
+    wb.active.title = "Other"
+    wb.active.append(["Start", "LAeq"])  # a decoy with the same signature, listed first
+    ws = wb.create_sheet(name)
+    ws.append(["Start", "LAeq"])
+    ws.append([dt.datetime(2026, 7, 1), 50.0])
+    wb.save(p)
+    raw = read_workbook(p)
+    assert raw.readings is not None and raw.readings.sheet == name
+    assert raw.findings == []
