@@ -25,6 +25,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from surveytools import constants as const
 from surveytools.errors import WorkbookError
 from surveytools.io import columns as cols
 from surveytools.io.preflight import column_letters
@@ -202,7 +203,7 @@ def _clean(table: RawTable, findings: list[Finding]) -> None:
     for c in table.columns:
         if c.kind == "text":
             flags = c.values.map(lambda v: isinstance(v, str) and (
-                len(v) > 32_767 or has_illegal_characters(v)), na_action="ignore")
+                len(v) > const.CELL_MAX_CHARS or has_illegal_characters(v)), na_action="ignore")
             for i in np.flatnonzero(flags.fillna(False).to_numpy(dtype=bool)):
                 c.values.iat[int(i)] = fix(str(c.values.iat[int(i)]), int(i), c.letter)
         for pos, text in list(c.text_cells.items()):

@@ -40,6 +40,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from xml.parsers import expat
 
+from surveytools import constants as const
 from surveytools.errors import WorkbookError
 
 _MB = 1_000_000
@@ -63,8 +64,8 @@ class PreflightLimits:
     max_ratio: float = 200.0
     ratio_min_bytes: int = 1 * _MB
     max_cells_area: int = 20_000_000
-    max_rows: int = 1_048_576
-    max_columns: int = 16_384
+    max_rows: int = const.SHEET_MAX_ROWS
+    max_columns: int = const.SHEET_MAX_COLUMNS
 
 
 @dataclass(frozen=True)

@@ -33,6 +33,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from surveytools import constants as const
 from surveytools.errors import WorkbookError
 from surveytools.io import columns as cols
 from surveytools.io.preflight import HEAD_KEEP_BYTES as HEAD_KEEP
@@ -372,7 +373,7 @@ class _Reader:
             if c.kind == "text":
                 values = c.values
                 mask = values.map(lambda v: isinstance(v, str)
-                                  and (len(v) > 32_767 or has_illegal_characters(v)),
+                                  and (len(v) > const.CELL_MAX_CHARS or has_illegal_characters(v)),
                                   na_action="ignore")
                 for flagged in np.flatnonzero(mask.fillna(False).to_numpy(dtype=bool)):
                     i = int(flagged)
