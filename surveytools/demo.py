@@ -7,7 +7,7 @@ week crosses the end of summer time. The data are generated from a fixed seed, s
 
 - ``kl1_north_boundary.xlsx``: 15-minute logging with the meter's own LAF10/LAF90, a
   Weather sheet with a wet spell and a windy afternoon, calibration drift 0.2 dB.
-- ``kl2_garden.xlsx``: 1-minute logging; a chiller plant runs at night (22:00-06:00) except
+- ``kl2_garden.xlsx``: 1-minute logging; a chiller plant runs at night (23:00-07:00) except
   on two nights (residual periods), an ``Operating`` column records it; the technician marked
   lawn mowing beside the meter, and a barking dog (background only).
 - ``kl3_lane_end.xlsx``: 1-second logging over one day, two overloads (one written by the
@@ -46,8 +46,8 @@ rain_settle = "1h"
 [[assessments]]
 name = "Chiller plant at night"
 position = "KL-2"
-source_on = [["2026-10-22 23:00", "2026-10-23 01:00"]]
-residual  = [["2026-10-24 23:00", "2026-10-25 01:00"]]
+source_on = [["2026-10-22 23:30", "2026-10-23 01:30"]]
+residual  = [["2026-10-24 23:30", "2026-10-25 01:30"]]
 corrections_db = { tonal = 2.0, impulsive = 0.0, intermittency = 0.0, other = 0.0 }
 
 [[assessments]]
@@ -113,23 +113,33 @@ def _wall_clock_series(pos: DemoPosition) -> list[datetime]:
 
 def _levels(pos: DemoPosition, hours: np.ndarray, rng: np.random.Generator,
             plant_on: np.ndarray) -> dict[str, np.ndarray]:
+    """Invented levels: a diurnal background, an AR(1) wander, passing events, the plant."""
+    n = hours.size
     diurnal = pos.base_db + 8.0 * np.clip(np.sin((hours - 5.0) / 24 * 2 * np.pi), -0.6, 1.0)
-    ar = np.zeros(hours.size)
-    noise = rng.normal(0.0, 1.0, hours.size)
-    phi = 0.9 if pos.step_s < 100 else 0.5
-    for i in range(1, hours.size):  # AR(1) fluctuation for the invented data only
-        ar[i] = phi * ar[i - 1] + noise[i] * 1.2
-    la90 = diurnal + 0.5 * ar - 3.0
-    events = rng.random(hours.size) < (0.04 if pos.step_s < 100 else 0.3)
-    event_db = np.where(events, rng.uniform(50, 72, hours.size), 0.0)
-    laeq = 10 * np.log10(10 ** (la90 / 10) * 2.0 + np.where(events, 10 ** (event_db / 10), 0.0))
-    plant = np.where(plant_on, 10 ** (46.0 / 10), 0.0)
-    laeq = 10 * np.log10(10 ** (laeq / 10) + plant)
-    la90 = 10 * np.log10(10 ** (la90 / 10) + np.where(plant_on, 10 ** (45.0 / 10), 0.0))
-    lafmax = laeq + np.abs(rng.normal(6.0, 2.5, hours.size)) + np.where(events, 6.0, 0.0)
-    la10 = laeq + np.abs(rng.normal(1.5, 0.6, hours.size))
+    ar = np.zeros(n)
+    noise = rng.normal(0.0, 1.0, n)
+    phi = 0.95 if pos.step_s < 100 else 0.5
+    for i in range(1, n):  # AR(1) wander, for the invented data only
+        ar[i] = phi * ar[i - 1] + noise[i] * (0.4 if pos.step_s < 100 else 1.0)
+    la90 = diurnal + ar - 3.0
+    quiet_night = (hours >= 23) | (hours < 7)
+    # Passing vehicles, voices, birds: ~20 events an hour by day, one every 2 h at night,
+    # 5-40 s each.
+    rate_per_s = np.where(quiet_night, 0.5, 20.0) / 3600.0
+    p_event = 1.0 - np.exp(-rate_per_s * pos.step_s)
+    events = rng.random(n) < p_event
+    event_db = rng.uniform(55.0, 74.0, n) - np.where(quiet_night, 12.0, 0.0)
+    event_s = rng.uniform(5.0, 40.0, n)
+    share = np.minimum(1.0, event_s / pos.step_s)
+    energy = 10 ** (la90 / 10) * 1.6 + np.where(events, share * 10 ** (event_db / 10), 0.0)
+    plant_db = 44.0
+    energy = energy + np.where(plant_on, 10 ** (plant_db / 10), 0.0)
+    laeq = 10 * np.log10(energy)
+    la90 = 10 * np.log10(10 ** (la90 / 10) + np.where(plant_on, 10 ** ((plant_db - 1) / 10), 0))
     la90 = np.minimum(la90, laeq - 0.5)
-    lafmin = la90 - np.abs(rng.normal(2.0, 0.8, hours.size))
+    lafmax = np.maximum(laeq + np.abs(rng.normal(3.0, 1.5, n)), np.where(events, event_db, 0))
+    la10 = np.minimum(laeq + np.abs(rng.normal(1.5, 0.6, n)), lafmax)
+    lafmin = la90 - np.abs(rng.normal(2.0, 0.8, n))
     return {k: np.round(v, 1) for k, v in
             {"LAeq": laeq, "LAFmax": lafmax, "LAF10": la10, "LAF90": la90,
              "LAFmin": lafmin}.items()}
@@ -141,8 +151,8 @@ def _write_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> 
     stamps = _wall_clock_series(pos)
     hours = _local_hours(stamps)
     nights_off = {datetime(2026, 10, 24).date(), datetime(2026, 10, 26).date()}
-    night = (hours >= 22) | (hours < 6)
-    owner = np.array([(t - timedelta(hours=6)).date() for t in stamps])
+    night = (hours >= 23) | (hours < 7)
+    owner = np.array([(t - timedelta(hours=7)).date() for t in stamps])
     plant_on = night & np.array([d not in nights_off for d in owner]) if pos.position == "KL-2" \
         else np.zeros(len(stamps), dtype=bool)
     lv = _levels(pos, hours, rng, plant_on)

@@ -350,6 +350,10 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
     add("duration-invalid", "interval length not usable", dur_invalid[order])
     add("duplicate", "duplicated timestamp", tc.duplicate)
     add("overlap", "overlapping interval", tc.overlap)
+    # Background is the residual sound's LA90 (BS 4142:2014 3.4): while the assessed source
+    # runs, its sound is not background, so operating readings are left out of it.
+    add("source-operating", "assessed source running",
+        data["operating"].fillna(False).to_numpy(dtype=bool), scope="background")
     if drift_excess and settings.calibration.on_excess_drift == "exclude":
         add("calibration-drift", "calibration drift above the limit",
             np.ones(len(order), bool))

@@ -345,3 +345,16 @@ def test_text_level_column_with_plain_numbers():
     assert s.readings["LAeq"].tolist()[:2] == [50.5, 51.0]
     assert located(s) == [("Readings", 4, "B", "level-not-a-number")]
     assert isinstance(s.readings, pd.DataFrame)
+
+
+def test_operating_readings_are_left_out_of_background_only():
+    # BS 4142:2014 3.4: the background level is the LA90 of the residual sound, so readings
+    # taken while the assessed source runs are excluded from background figures (scope
+    # "background") but stay in every other figure.
+    s = build(readings(m(4), [50.0, 51.0, 52.0, 53.0],
+                       bool_col("Operating", "C", [True, False, None, True])))
+    (ex,) = [e for e in s.exclusions if e.reason == "source-operating"]
+    assert ex.scope == "background"
+    assert ex.mask.tolist() == [True, False, False, True]
+    assert s.valid_mask("all").tolist() == [True, True, True, True]
+    assert s.valid_mask("background").tolist() == [False, True, True, False]
