@@ -516,6 +516,10 @@ class _NeedExactError(Exception):
     """The fast path met something non-standard: rescan exactly with Expat."""
 
 
+class _NeedExactRowsError(Exception):
+    """Loose row bounds could hide an over-large sheet: rescan with exact rows per piece."""
+
+
 def _exact_max(piece: bytes, max_row: int, max_col: int) -> tuple[int, int]:
     """Return the largest row and column of the ``<c r="...">`` references in ``piece``."""
     letters = set(_LETTERS_RE.findall(piece))
@@ -549,12 +553,12 @@ def column_letters(number: int) -> str:
     return out
 
 
-@functools.lru_cache(maxsize=256)
+@functools.lru_cache(maxsize=1024)
 def _unusual_cell_pattern(max_col: int, digits: int) -> bytes:
     """Regex for a cell start tag that is not ``<c r="REF"`` with REF inside the bounds.
 
-    REF must be upper-case letters no later than column ``max_col`` followed by 1 to
-    ``digits`` digits (no leading zero) and a closing quote.
+    REF must be upper-case letters no later than column ``max_col`` followed by a row
+    number of 1 to ``digits`` digits (no leading zero) and a closing quote.
     """
     letters = column_letters(max_col) if max_col else "A"
     n = len(letters)
@@ -665,15 +669,19 @@ def _check_extent(sheet: str, rows: int, cols: int, lim: PreflightLimits) -> Non
 def _scan_sheet(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
                 lim: PreflightLimits) -> SheetInfo:
     try:
-        return _scan_fast(zf, info, sheet, lim)
+        try:
+            return _scan_fast(zf, info, sheet, lim)
+        except _NeedExactRowsError:
+            return _scan_fast(zf, info, sheet, lim, exact_rows=True)
     except _NeedExactError:
         return _scan_exact(zf, info, sheet, lim)
 
 
 def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
-               lim: PreflightLimits) -> SheetInfo:
+               lim: PreflightLimits, exact_rows: bool = False) -> SheetInfo:
     max_row = 0
     max_col = 0
+    row_bound = 0
     formulas: list[str] = []
     buf = bytearray()
     head = b""
@@ -681,20 +689,30 @@ def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
 
     def scan(start: int, end: int) -> None:
         """Check ``buf[start:end]`` (whole rows) without copying it."""
-        nonlocal max_row, max_col
+        nonlocal max_row, max_col, row_bound
         last = buf.rfind(b'<c r="', start, end)
         m = _LAST_REF_RE.match(buf, last, end) if last >= 0 else None
-        digits = len(m.group(1)) if m else 1
-        if m:
-            max_row = max(max_row, int(m.group(1)))
+        rows = m.group(1) if m else b"1"
+        digits = len(rows)
+        max_row = max(max_row, int(rows))
         # One pass: any cell that is not '<c r="LETTERS DIGITS"' with letters up to the
-        # widest column so far and no more digits than the piece's last row.
-        if digits >= 7 or re.search(_unusual_cell_pattern(max_col, digits),
-                                    memoryview(buf)[start:end]):
+        # widest column so far and no more digits than the piece's last row. Rows are then
+        # known to be below 10**digits; the piece is taken cell by cell when that bound
+        # could hide a sheet over the area limit, and always for rows >= 1,000,000.
+        bound = 10**digits - 1
+        loose_area = max(row_bound, bound) * max(max_col, 1)
+        if (exact_rows or digits >= 7 or loose_area > lim.max_cells_area
+                or re.search(_unusual_cell_pattern(max_col, digits),
+                             memoryview(buf)[start:end])):
             piece = bytes(buf[start:end])
             max_row, max_col = _exact_max(piece, max_row, max_col)
             if re.search(_unusual_cell_pattern(max_col, 7), piece):
                 raise _NeedExactError  # a cell without r=, or a malformed reference
+            row_bound = max(row_bound, max_row)
+        else:
+            row_bound = max(row_bound, bound)
+        if row_bound * max(max_col, 1) > lim.max_cells_area and not exact_rows:
+            raise _NeedExactRowsError  # earlier pieces were bounded loosely: redo exactly
         _check_extent(sheet.name, max_row, max_col, lim)
         if buf.find(b":c", start, end) >= 0 and _PREFIXED_CELL_RE.search(buf, start, end):
             raise _NeedExactError
