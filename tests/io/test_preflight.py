@@ -434,14 +434,15 @@ def test_preflight_imports_no_pandas() -> None:
 
 
 def test_stray_row_with_same_digit_count_found(tmp_path: Path) -> None:
-    # A stray cell whose row has as many digits as the last row (B999 among rows 100-200)
-    # must still count when it could push the sheet over the area limit: 999 rows x 5
-    # columns = 4,995 cells > 2,000 (hand-evaluated), whereas 200 x 5 = 1,000 would pass.
+    # A stray cell whose row has as many digits as the last row (C999999 among rows
+    # 100000-109999, past the first sampled bytes) must still count when it could push the
+    # sheet over the area limit: 999,999 rows x 5 columns = 4,999,995 cells > 1,000,000
+    # (hand-evaluated), whereas 109,999 x 5 = 549,995 would pass.
     rows = "".join(
         f'<row r="{i}">' + "".join(f'<c r="{c}{i}"><v>1</v></c>' for c in "ABCDE") + "</row>"
-        for i in range(100, 201)
-    ).replace('<c r="B150"><v>1</v></c>', '<c r="B150"><v>1</v></c><c r="C999"><v>1</v></c>')
+        for i in range(100_000, 110_000)
+    ).replace('<c r="B105000"><v>1</v></c>',
+              '<c r="B105000"><v>1</v></c><c r="C999999"><v>1</v></c>')
     p = build_xlsx(tmp_path / "same.xlsx", {"Readings": sheet_xml(rows)})
-    err = _code(p, "sheet-too-large", limits=PreflightLimits(max_cells_area=2_000))
-    assert "999 rows x 5 columns" in err.message
-    assert preflight(p).sheets[0].max_row == 999
+    err = _code(p, "sheet-too-large", limits=PreflightLimits(max_cells_area=1_000_000))
+    assert "999999 rows x 5 columns" in err.message
