@@ -560,7 +560,9 @@ def _unusual_cell_pattern(max_col: int, digits: int) -> bytes:
     REF must be upper-case letters no later than column ``max_col`` followed by a row
     number of 1 to ``digits`` digits (no leading zero) and a closing quote.
     """
-    letters = column_letters(max_col) if max_col else "A"
+    if max_col < 1:
+        return b"<c(?=[\\s/>])"  # no cell seen yet: every cell is news
+    letters = column_letters(max_col)
     n = len(letters)
     alts = [f"[A-Z]{{1,{n - 1}}}"] if n > 1 else []
     for i, ch in enumerate(letters):

@@ -13,6 +13,8 @@ import zipfile
 from pathlib import Path
 
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from surveytools.errors import WorkbookError
 from surveytools.io.preflight import (
@@ -446,3 +448,37 @@ def test_stray_row_with_same_digit_count_found(tmp_path: Path) -> None:
     p = build_xlsx(tmp_path / "same.xlsx", {"Readings": sheet_xml(rows)})
     err = _code(p, "sheet-too-large", limits=PreflightLimits(max_cells_area=1_000_000))
     assert "999999 rows x 5 columns" in err.message
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(
+    cells=st.lists(st.tuples(st.integers(1, 3000), st.integers(1, 60)), min_size=1,
+                   max_size=120),
+    drop_refs=st.booleans(),
+)
+def test_extent_matches_generator(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+                                  cells: list[tuple[int, int]], drop_refs: bool) -> None:
+    # Reference: the generator's own cell positions (OOXML: r= gives the position). Tiny
+    # sample and window sizes make the fast path scan many pieces of this small sheet.
+    import surveytools.io.preflight as pf
+
+    monkeypatch.setattr(pf, "_SAMPLE_BYTES", 64)
+    monkeypatch.setattr(pf, "_WINDOW", 256)
+    by_row: dict[int, set[int]] = {}
+    for r, c in cells:
+        by_row.setdefault(r, set()).add(c)
+    xml_rows = []
+    for r in sorted(by_row):
+        cols = sorted(by_row[r])
+        if drop_refs:  # consecutive columns from A without r= (previous column + 1)
+            cols = list(range(1, len(cols) + 1))
+            xml_rows.append(f'<row r="{r}">' + "<c><v>1</v></c>" * len(cols) + "</row>")
+        else:
+            xml_rows.append(f'<row r="{r}">' + "".join(
+                f'<c r="{column_letters(c)}{r}"><v>1</v></c>' for c in cols) + "</row>")
+        by_row[r] = set(cols)
+    p = build_xlsx(tmp_path / "h.xlsx", {"Readings": sheet_xml("".join(xml_rows))})
+    s = preflight(p).sheets[0]
+    assert s.max_row == max(by_row)
+    assert s.max_col == max(max(c) for c in by_row.values())
