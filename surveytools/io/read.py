@@ -299,23 +299,30 @@ class _Reader:
     def _load(self, info: SheetInfo, header_row: int, first_col: int, headers: list[Any],
               dtypes: dict[int, str]) -> RawTable:
         n_cols = max(len(headers), info.max_col)
-        if info.max_row <= header_row:
+        if info.max_row <= header_row:  # header only
             columns = [RawColumn(_header_text(headers[j] if j < len(headers) else ""),
                                  column_letters(j + 1), "empty", pd.Series([], dtype=object))
                        for j in range(first_col, n_cols) if _has_text(headers[j])]
             return RawTable(info.name, header_row, columns, 0)
-        wanted = list(range(first_col, n_cols))
+        # Columns are chosen and typed by absolute sheet index (0 = column A); a column the
+        # sheet's cell range does not reach is simply absent.
         sheet = self._fx().load_sheet(
-            info.name, header_row=header_row - 1, use_columns=wanted,
+            info.name, header_row=header_row - 1,
+            use_columns=lambda c: c.absolute_index >= first_col,
             dtypes={k: v for k, v in dtypes.items() if v != "auto"},
             schema_sample_rows=None, dtype_coercion="coerce",
         )
         batch, errors = sheet.to_arrow_with_errors()
-        abs_index = [c.absolute_index for c in sheet.selected_columns]
+        selected = list(sheet.selected_columns)
+        abs_index = [c.absolute_index for c in selected]
+        # A cell error names its column by the range index, not by the batch position.
+        position_of = {c.index: k for k, c in enumerate(selected)}
         cell_errors: dict[int, list[tuple[int, str]]] = {}
         for e in (errors.errors if errors is not None else []):
             pos, col = e.offset_position
-            cell_errors.setdefault(int(col), []).append((int(pos), str(e.detail)))
+            k = position_of.get(int(col))
+            if k is not None:
+                cell_errors.setdefault(k, []).append((int(pos), str(e.detail)))
         n = batch.num_rows
         raw_cols: list[RawColumn] = []
         text_needed: dict[int, tuple[RawColumn, list[int]]] = {}
@@ -356,14 +363,16 @@ class _Reader:
     def _recover_text(self, info: SheetInfo, header_row: int, abs_index: list[int],
                       text_needed: dict[int, tuple[RawColumn, list[int]]]) -> None:
         """Read, as text, the cells that did not fit their column's type (rare: one more pass)."""
-        wanted = [abs_index[k] for k in text_needed]
+        wanted = {abs_index[k] for k in text_needed}
         sheet = self._fx().load_sheet(
-            info.name, header_row=header_row - 1, use_columns=wanted,
-            dtypes=dict.fromkeys(range(len(wanted)), "string"), schema_sample_rows=None,
+            info.name, header_row=header_row - 1,
+            use_columns=lambda c: c.absolute_index in wanted,
+            dtypes=dict.fromkeys(wanted, "string"), schema_sample_rows=None,
         )
         batch = sheet.to_arrow()
-        for i, (col, positions) in enumerate(text_needed.values()):
-            values = batch.column(i)
+        batch_position = {c.absolute_index: i for i, c in enumerate(sheet.selected_columns)}
+        for k, (col, positions) in text_needed.items():
+            values = batch.column(batch_position[abs_index[k]])
             for pos in positions:
                 text = values[pos].as_py() if pos < len(values) else None
                 col.text_cells[pos] = "" if text is None else str(text)

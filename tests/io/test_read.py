@@ -416,3 +416,42 @@ def test_sheet_name_tolerant(tmp_path: Path, name: str) -> None:
     raw = read_workbook(p)
     assert raw.readings is not None and raw.readings.sheet == name
     assert raw.findings == []
+
+
+def test_misfits_located_when_table_is_right_of_the_range_start(tmp_path: Path) -> None:
+    # A title in A1 makes the cell range start at column A while the table starts at C:
+    # text and error cells must still land in the right column (checked against openpyxl).
+    p = tmp_path / "off.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Readings"
+    ws["A1"] = "Invented log"
+    for j, h in enumerate(["Start", "LAeq", "LAFmax"]):
+        ws.cell(5, 3 + j, h)
+    for i in range(1200):
+        ws.cell(6 + i, 3, dt.datetime(2026, 7, 1) + dt.timedelta(minutes=i))
+        ws.cell(6 + i, 4, 50.0)
+        ws.cell(6 + i, 5, 60.0)
+    ws["D1106"] = "OVL"
+    ws["E1107"] = "n/a"
+    wb.save(p)
+    t = read_workbook(p).readings
+    assert t is not None
+    ref = openpyxl.load_workbook(p)["Readings"]
+    for header in ("LAeq", "LAFmax"):
+        col = _col(t, header)
+        assert col.kind == "number"
+        for pos, text in col.text_cells.items():
+            assert ref[f"{col.letter}{t.first_data_row + pos}"].value == text
+    assert _col(t, "LAeq").text_cells == {1100: "OVL"}
+    assert _col(t, "LAFmax").text_cells == {1101: "n/a"}
+
+
+def test_styled_empty_cells_beyond_the_data(tmp_path: Path) -> None:
+    # Formatted but empty cells (J1, B30) widen the preflight extent, not the table.
+    rows = ('<row r="1"><c r="A1" t="inlineStr"><is><t>LAeq</t></is></c><c r="J1" s="0"/></row>'
+            '<row r="2"><c r="A2"><v>5</v></c></row><row r="30"><c r="B30" s="0"/></row>')
+    p = build_xlsx(tmp_path / "styled.xlsx", {"Readings": sheet_xml(rows)})
+    t = read_workbook(p).readings
+    assert t is not None and t.n_rows == 1
+    assert [(c.header, c.letter, c.values.tolist()) for c in t.columns] == [("LAeq", "A", [5.0])]
