@@ -211,6 +211,14 @@ class _Reader:
                     break
         for info in out.values():
             self._note_hidden(info)
+        readings = out.get("readings")
+        if readings is not None and sheet_key(readings.name) not in ("readings", "reading"):
+            self.findings.append(Finding(
+                "readings-sheet-chosen", Severity.INFO,
+                f"No sheet is named 'Readings'; sheet '{readings.name}' was used as the "
+                "readings sheet because of its name. Name the sheet 'Readings' to make this "
+                "explicit.", sheet=readings.name,
+            ))
         return out
 
     def _note_hidden(self, info: SheetInfo) -> None:

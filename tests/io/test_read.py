@@ -455,3 +455,16 @@ def test_styled_empty_cells_beyond_the_data(tmp_path: Path) -> None:
     t = read_workbook(p).readings
     assert t is not None and t.n_rows == 1
     assert [(c.header, c.letter, c.values.tolist()) for c in t.columns] == [("LAeq", "A", [5.0])]
+
+
+def test_readings_sheet_by_other_name_noted(tmp_path: Path) -> None:
+    p = tmp_path / "d.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Data"
+    ws.append(["Start", "LAeq"])
+    ws.append([dt.datetime(2026, 7, 1), 50.0])
+    wb.save(p)
+    raw = read_workbook(p)
+    assert raw.readings is not None and raw.readings.sheet == "Data"
+    assert _codes(raw) == [("readings-sheet-chosen", "Data", None, None)]
