@@ -14,9 +14,10 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, Literal
 
-import pandas as pd
+if TYPE_CHECKING:  # annotations only: keeps the batch parent free of pandas, and
+    # validation imports this module (no cycle)
+    import pandas as pd
 
-if TYPE_CHECKING:  # imported for annotations only: validation imports this module
     from surveytools.validation.findings import Finding
 
 
@@ -110,7 +111,10 @@ class RawTable:
 
     def spreadsheet_rows(self) -> pd.Series:
         """Return the spreadsheet row number of every data position (int64)."""
-        return pd.Series(range(self.first_data_row, self.first_data_row + self.n_rows), dtype="int64")
+        import pandas as pd
+
+        first = self.first_data_row
+        return pd.Series(range(first, first + self.n_rows), dtype="int64")
 
 
 @dataclass(frozen=True)
