@@ -22,7 +22,7 @@ from pathlib import Path
 from typing import Any
 
 from surveytools import __version__
-from surveytools.pipeline import CSV_SUFFIXES, WORKBOOK_SUFFIXES
+from surveytools.io.kinds import CSV_SUFFIXES, WORKBOOK_SUFFIXES
 
 #: Name prefixes of lock / temporary / metadata files left by spreadsheet programs and
 #: file systems (Office owner files, LibreOffice locks, macOS AppleDouble files).
@@ -172,7 +172,7 @@ def discover(paths: list[Path]) -> tuple[list[Candidate], list[Skipped]]:
 def _zip_complete(path: Path) -> bool:
     """Return True when the file ends with a zip end-of-central-directory record."""
     try:
-        with open(path, "rb", buffering=0) as fh:
+        with path.open("rb", buffering=0) as fh:
             size = os.fstat(fh.fileno()).st_size
             fh.seek(max(0, size - 66_000))
             tail = fh.read()
@@ -311,9 +311,9 @@ def run_batch(options: BatchOptions, settings_key: str,
         remove_stale_parts(out_dir)
         manifest = load_manifest(out_dir)
 
-    jobs: list[dict[str, Any]] = []
+    jobs: list[dict[str, Any]] = []  # JSON job descriptions for the workers
     for c in ready:
-        job = {"mode": options.mode, "path": str(c.path.resolve()),
+        job: dict[str, Any] = {"mode": options.mode, "path": str(c.path.resolve()),
                "settings_path": str(options.settings_path) if options.settings_path else None,
                "include_readings": options.include_readings,
                "memory_bytes": options.memory_bytes}

@@ -27,7 +27,7 @@ DEFAULT_OUT = "surveytools_results"
 class _Parser(argparse.ArgumentParser):
     """ArgumentParser whose usage errors exit with our code 2 (argparse's default too)."""
 
-    def error(self, message: str) -> Any:  # noqa: D102 - argparse hook
+    def error(self, message: str) -> Any:
         self.print_usage(sys.stderr)
         self.exit(EXIT_USAGE, f"surveytools: error: {message}\n")
 
@@ -100,6 +100,7 @@ class Progress:
         self.start = time.monotonic()
 
     def __call__(self, done: int, total: int, current: str) -> None:
+        """Show ``done`` of ``total`` files, the current one and the elapsed time."""
         if not self.enabled:
             return
         elapsed = time.monotonic() - self.start
@@ -111,6 +112,7 @@ class Progress:
         self.stream.flush()
 
     def finish(self) -> None:
+        """Clear the progress line."""
         if self.enabled:
             self.stream.write("\r" + " " * 100 + "\r")
             self.stream.flush()

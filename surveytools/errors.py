@@ -1,8 +1,9 @@
 """The small exception tree for failures of the tool's own inputs.
 
-Problems in survey *data* are never raised: they become :class:`~surveytools.validation.findings.Finding`
-values. Exceptions are kept for what stops the tool itself from doing its job on one input:
-a workbook that cannot be opened safely, or a settings file that is not valid.
+Problems in survey *data* are never raised: they become
+:class:`~surveytools.validation.findings.Finding` values. Exceptions are kept for what
+stops the tool itself from doing its job on one input: a workbook that cannot be opened
+safely, or a settings file that is not valid.
 """
 
 from __future__ import annotations

@@ -14,13 +14,10 @@ from pathlib import Path
 from typing import Any
 
 from surveytools.errors import WorkbookError
+from surveytools.io.kinds import CSV_SUFFIXES
 from surveytools.io.raw import SourceInfo
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
-
-#: Input suffixes the batch accepts.
-WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
-CSV_SUFFIXES = (".csv",)
 
 
 @dataclass
@@ -138,7 +135,8 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     doc["provenance"] = library_versions()
     doc.update(sections)
     annotations = None
-    if settings.output.include_readings or len(survey.readings) <= settings.output.readings_row_limit:
+    output = settings.output
+    if output.include_readings or len(survey.readings) <= output.readings_row_limit:
         annotations = reading_annotations(survey)
     return doc, annotations
 

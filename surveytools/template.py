@@ -11,7 +11,7 @@ from __future__ import annotations
 from datetime import datetime
 from pathlib import Path
 
-from surveytools import constants as C
+from surveytools import constants
 
 SURVEY_FIELDS: tuple[tuple[str, str], ...] = (
     ("Position", "Required. Your name for the monitoring position, e.g. P1 or North fence."),
@@ -130,10 +130,11 @@ def _write(path: Path) -> None:
     readings.data_validation(1, 1, last, 1, {"validate": "decimal", "criteria": ">",
                                              "value": 0})
     readings.data_validation(1, 2, last, 6, {
-        "validate": "decimal", "criteria": "between", "minimum": C.PLAUSIBLE_LEVEL_MIN_DB,
-        "maximum": C.PLAUSIBLE_LEVEL_MAX_DB, "error_type": "warning",
+        "validate": "decimal", "criteria": "between", "minimum": constants.PLAUSIBLE_LEVEL_MIN_DB,
+        "maximum": constants.PLAUSIBLE_LEVEL_MAX_DB, "error_type": "warning",
         "error_message": "Levels are expected between "
-                         f"{C.PLAUSIBLE_LEVEL_MIN_DB:g} and {C.PLAUSIBLE_LEVEL_MAX_DB:g} dB."})
+                         f"{constants.PLAUSIBLE_LEVEL_MIN_DB:g} and "
+                         f"{constants.PLAUSIBLE_LEVEL_MAX_DB:g} dB."})
     readings.data_validation(1, 7, last, 8, {"validate": "list", "source": ["yes", "no"]})
 
     weather = wb.add_worksheet("Weather")

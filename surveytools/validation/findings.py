@@ -10,13 +10,14 @@ from __future__ import annotations
 from collections import Counter
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
-from enum import Enum
-from typing import Any
+from enum import StrEnum
+from typing import TYPE_CHECKING, Any
 
-import numpy as np
+if TYPE_CHECKING:  # numpy is imported where rows arrive, not by every importer of findings
+    import numpy as np
 
 
-class Severity(str, Enum):
+class Severity(StrEnum):
     """How serious a finding is.
 
     ``error``: a value, row or the whole file was rejected. ``warning``: accepted, but doubtful
@@ -156,6 +157,8 @@ class FindingCollector:
             One message for all rows, or one per row (only the first ``max_per_code`` are
             formatted by callers that build them lazily).
         """
+        import numpy as np
+
         rows_arr = np.asarray(rows, dtype=np.int64)
         n = int(rows_arr.size)
         if n == 0:

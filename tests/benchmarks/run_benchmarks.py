@@ -31,7 +31,6 @@ import statistics
 import subprocess
 import sys
 import tempfile
-import time
 from datetime import datetime, timedelta
 from pathlib import Path
 
@@ -67,6 +66,7 @@ def generate(path: Path, n: int, step_ms: int, columns: tuple[str, ...], seed: i
     ws_s.write_row(0, 0, ["Field", "Value"])
     ws_s.write_row(1, 0, ["Position", f"BENCH-{seed}"])
     ws_s.write_row(2, 0, ["Time zone", "Europe/Berlin"])
+    ws_s.write_row(5, 0, ["Clock", "UTC"])  # generated instants are continuous UTC
     ws_s.write_row(3, 0, ["Calibration before (dB)", 94.0])
     ws_s.write_row(4, 0, ["Calibration after (dB)", 94.1])
     ws = wb.add_worksheet("Readings")
