@@ -283,7 +283,6 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
     # ---- unplaced ---------------------------------------------------------------------------
     rows_all = np.arange(n, dtype=np.int64) + cols.where.first_row
     unplaced_mask = ~placed & ~empty_row
-    reasons = np.where(times.loc.nonexistent, "timestamp-nonexistent", "timestamp-invalid")
     missing_ts = unplaced_mask & times.naive.empty & ~times.loc.nonexistent
     if missing_ts.any():
         pos = np.flatnonzero(missing_ts)
@@ -291,14 +290,16 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
                            pos + cols.where.first_row, times.letter,
                            "the row has values but no timestamp, so it cannot be placed in "
                            "time — enter the interval's date and time")
-        reasons = np.where(missing_ts, "timestamp-missing", reasons)
     u = np.flatnonzero(unplaced_mask)
+    # Reason texts only for the (few) unplaced rows, not for every reading.
+    reasons = np.where(times.loc.nonexistent[u], "timestamp-nonexistent",
+                       np.where(missing_ts[u], "timestamp-missing", "timestamp-invalid"))
     raw_text = times.naive.raw[u].copy()
     gone = times.loc.nonexistent[u]
     raw_text[gone] = tb.format_naive_ms(times.naive.ms[u][gone])
     unplaced = pd.DataFrame({
         "row": pd.Series(rows_all[u], dtype="int64"),
-        "reason": pd.Series(reasons[u], dtype="object"),
+        "reason": pd.Series(reasons, dtype="object"),
         "raw": pd.Series([None if r is None else str(r) for r in raw_text], dtype="object"),
     })
 
