@@ -232,23 +232,53 @@ def _worker_failure(path: Path, code: str, message: str) -> dict[str, Any]:
             "finding_totals": {"error": 1, "warning": 0, "info": 0}, "overview": {}}
 
 
+def prepare(path: Path, sha256: str | None) -> Any:
+    """Run the stdlib-only preflight of one input in this (parent) process.
+
+    It runs while the input's worker is still starting (importing pandas and the readers),
+    so on two cores its cost disappears from the run time. The worker re-hashes the file and
+    refuses it if it changed since. Any failure of the preflight itself is left to the
+    worker, which runs it again under its limits.
+    """
+    from surveytools.errors import WorkbookError
+    from surveytools.pipeline import Prepared
+
+    if path.suffix.lower() not in WORKBOOK_SUFFIXES or sha256 is None:
+        return None
+    from surveytools.io.preflight import preflight
+
+    try:
+        return Prepared(sha256, preflight(path), None)
+    except WorkbookError as exc:
+        return Prepared(sha256, None, exc)
+    except Exception:  # a fault of ours: the worker repeats the preflight and reports it
+        return None
+
+
 def run_worker(job: dict[str, Any], timeout_s: float) -> dict[str, Any]:
     """Run one job in its own Python process; map any crash to a located failure."""
+    import pickle
+
     path = Path(job["path"])
     cmd = [sys.executable, "-m", "surveytools.worker"]
+    proc = subprocess.Popen(cmd, stdin=subprocess.PIPE, stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, start_new_session=True)
+    job = dict(job, prepared=prepare(path, job.get("sha256")))
     try:
-        proc = subprocess.run(cmd, input=json.dumps(job), capture_output=True, text=True,
-                              timeout=timeout_s, start_new_session=True, check=False)
+        out_b, err_b = proc.communicate(pickle.dumps(job), timeout=timeout_s)
     except subprocess.TimeoutExpired:
+        proc.kill()
+        proc.communicate()
         return _worker_failure(path, "worker-timeout",
                                f"processing took longer than {timeout_s:.0f} s and was stopped; "
                                "check the file is a genuine survey export, or raise --timeout")
+    stdout = out_b.decode("utf-8", "replace")
     if proc.returncode == 0:
         try:
-            return dict(json.loads(proc.stdout.strip().splitlines()[-1]))
+            return dict(json.loads(stdout.strip().splitlines()[-1]))
         except (ValueError, IndexError):
             pass
-    err = (proc.stderr or "").strip()
+    err = err_b.decode("utf-8", "replace").strip()
     tail = err.splitlines()[-1][:300] if err else ""
     rc = proc.returncode
     if rc in (-6, 134) or "memory allocation" in err or "MemoryError" in err:
@@ -284,7 +314,7 @@ def save_manifest(out_dir: Path, manifest: dict[str, Any]) -> None:
 
 def _file_sha256(path: Path) -> str | None:
     from surveytools.errors import WorkbookError
-    from surveytools.pipeline import source_info
+    from surveytools.io.source import source_info
 
     try:
         return source_info(path).sha256
@@ -317,11 +347,12 @@ def run_batch(options: BatchOptions, settings_key: str,
                "settings_path": str(options.settings_path) if options.settings_path else None,
                "include_readings": options.include_readings,
                "memory_bytes": options.memory_bytes}
+        sha = _file_sha256(c.path)
+        job["sha256"] = sha
         if options.mode == "run":
             assert out_dir is not None
             job["out_dir"] = str(out_dir.resolve())
             job["stem"] = stems[str(c.path)]
-            sha = _file_sha256(c.path)
             key = f"{sha}:{settings_key}:{__version__}:{options.include_readings}"
             entry = manifest.get(str(c.path.resolve()))
             if (not options.force and sha and entry and entry.get("key") == key
@@ -394,7 +425,8 @@ def _record_unreadable(options: BatchOptions, job: dict[str, Any],
     from surveytools.errors import WorkbookError
     from surveytools.io.atomic import atomic_write_text
     from surveytools.io.results_json import dumps_results, unreadable_document
-    from surveytools.pipeline import overview_row, source_info
+    from surveytools.io.source import source_info
+    from surveytools.pipeline import overview_row
     from surveytools.settings import load_settings
     from surveytools.validation.findings import Finding, Severity
 

@@ -32,6 +32,10 @@ class WorkbookError(SurveyToolsError):
         self.message = message
         self.sheet = sheet
 
+    def __reduce__(self) -> tuple[type[WorkbookError], tuple[str, str, str | None]]:
+        """Pickle with all three fields (the batch hands preflight refusals to workers)."""
+        return (type(self), (self.code, self.message, self.sheet))
+
 
 class SettingsError(SurveyToolsError, ValueError):
     """The settings file (or a command-line option) is not valid; the command cannot run."""

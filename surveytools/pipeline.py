@@ -7,8 +7,6 @@ reader ends only that input. Nothing here prints; outcomes are returned as plain
 
 from __future__ import annotations
 
-import hashlib
-import os
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -16,6 +14,7 @@ from typing import Any
 from surveytools.errors import WorkbookError
 from surveytools.io.kinds import CSV_SUFFIXES
 from surveytools.io.raw import SourceInfo
+from surveytools.io.source import source_info
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
 
@@ -39,46 +38,46 @@ class FileOutcome:
         return dict(self.__dict__)
 
 
-def source_info(path: Path) -> SourceInfo:
-    """Hash and size one input without modifying it (read-only, no symlink following).
-
-    Raises
-    ------
-    WorkbookError
-        ``file-not-regular`` when the path is not a regular file, ``file-unreadable`` when
-        it cannot be opened.
-    """
-    flags = os.O_RDONLY | getattr(os, "O_NOFOLLOW", 0) | getattr(os, "O_NONBLOCK", 0)
-    try:
-        fd = os.open(path, flags)
-    except OSError as exc:
-        raise WorkbookError("file-unreadable", f"cannot open the file: {exc.strerror}; check "
-                            "that it exists and that you may read it") from exc
-    try:
-        import stat
-
-        st = os.fstat(fd)
-        if not stat.S_ISREG(st.st_mode):
-            raise WorkbookError("file-not-regular", "this is not a regular file (a pipe, device "
-                                "or link); copy the workbook itself into the folder")
-        digest = hashlib.sha256()
-        with os.fdopen(fd, "rb", closefd=False) as fh:
-            for chunk in iter(lambda: fh.read(1 << 20), b""):
-                digest.update(chunk)
-        return SourceInfo(path=str(path.resolve()), file=path.name, sha256=digest.hexdigest(),
-                          size_bytes=st.st_size)
-    finally:
-        os.close(fd)
-
-
-def _read_raw(path: Path, settings: Settings) -> Any:
+def _read_raw(path: Path, settings: Settings, source: SourceInfo | None = None,
+              report: Any = None) -> Any:
     if path.suffix.lower() in CSV_SUFFIXES:
         from surveytools.io.csv_input import read_csv_table
 
         return read_csv_table(path, settings)
     from surveytools.io.read import read_workbook
 
-    return read_workbook(path, settings)
+    return read_workbook(path, settings, report=report, source=source)
+
+
+@dataclass
+class Prepared:
+    """What the batch parent already learned about an input before its worker started.
+
+    Parameters
+    ----------
+    sha256 : str or None
+        Hash of the file when the parent looked at it.
+    report : PreflightReport or None
+        The parent's preflight of the file (None: the worker runs it itself).
+    fatal : WorkbookError or None
+        The preflight refused the file.
+    """
+
+    sha256: str | None = None
+    report: Any = None
+    fatal: WorkbookError | None = None
+
+
+def _checked_source(path: Path, prepared: Prepared | None) -> tuple[SourceInfo, Prepared]:
+    """Hash the input; a file that changed since the parent's preflight is refused."""
+    source = source_info(path)
+    prepared = prepared or Prepared()
+    if prepared.sha256 is not None and prepared.sha256 != source.sha256:
+        fatal = WorkbookError("file-changed",
+                              "The file changed while it was being processed (it is probably "
+                              "still being copied); run again once the copy has finished.")
+        return source, Prepared(source.sha256, None, fatal)
+    return source, prepared
 
 
 def library_versions() -> dict[str, str]:
@@ -107,8 +106,8 @@ def _totals(findings: list[dict[str, Any]]) -> dict[str, int]:
     return totals
 
 
-def build_document(path: Path, settings: Settings, source: SourceInfo | None = None
-                   ) -> tuple[dict[str, Any], Any]:
+def build_document(path: Path, settings: Settings, source: SourceInfo | None = None,
+                   prepared: Prepared | None = None) -> tuple[dict[str, Any], Any]:
     """Read, validate and assess one input; return (results document, annotations or None).
 
     Never raises for a bad input: an unreadable file gives a document with status
@@ -117,9 +116,12 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     from surveytools.io.results_json import document_header, unreadable_document
 
     if source is None:
-        source = source_info(path)
+        source, prepared = _checked_source(path, prepared)
+    prepared = prepared or Prepared()
     try:
-        raw = _read_raw(path, settings)
+        if prepared.fatal is not None:
+            raise prepared.fatal
+        raw = _read_raw(path, settings, source, prepared.report)
     except WorkbookError as exc:
         fatal = Finding(exc.code, Severity.ERROR, exc.message, exc.sheet)
         doc = unreadable_document(source, [fatal], settings)
@@ -175,7 +177,7 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
 
 
 def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
-             source: SourceInfo | None = None) -> FileOutcome:
+             prepared: Prepared | None = None) -> FileOutcome:
     """Process one input and write ``<stem>.results.xlsx`` then ``<stem>.results.json``.
 
     Outputs are written to temporary names and renamed into place; the JSON goes last, as
@@ -185,7 +187,7 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
     from surveytools.io.results_json import dumps_results
     from surveytools.io.write import write_results_workbook
 
-    doc, annotations = build_document(path, settings, source)
+    doc, annotations = build_document(path, settings, prepared=prepared)
     xlsx = out_dir / f"{stem}.results.xlsx"
     js = out_dir / f"{stem}.results.json"
     with atomic_path(xlsx) as tmp:
@@ -199,13 +201,16 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
                        overview=overview_row(doc, js.name, xlsx.name))
 
 
-def check_file(path: Path, settings: Settings) -> FileOutcome:
+def check_file(path: Path, settings: Settings, prepared: Prepared | None = None
+               ) -> FileOutcome:
     """Validate one input without computing or writing anything."""
     from surveytools.io.results_json import status_from_findings
 
-    source = source_info(path)
+    source, prepared = _checked_source(path, prepared)
     try:
-        raw = _read_raw(path, settings)
+        if prepared.fatal is not None:
+            raise prepared.fatal
+        raw = _read_raw(path, settings, source, prepared.report)
     except WorkbookError as exc:
         fatal = Finding(exc.code, Severity.ERROR, exc.message, exc.sheet)
         findings = _findings_json([fatal])

@@ -92,3 +92,24 @@ def test_unreadable_file_gives_a_valid_unreadable_document(tmp_path: Path) -> No
     assert doc["status"] == "unreadable"
     assert validate_results(doc) == []
     assert doc["findings"][0]["code"] == "file-not-a-zip"
+
+
+def test_a_file_changed_since_the_parents_preflight_is_refused(day_workbook: Path) -> None:
+    from surveytools.pipeline import Prepared
+
+    stale = Prepared(sha256="0" * 64)  # the parent saw other bytes than the worker reads now
+    doc, _ = build_document(day_workbook, Settings(), prepared=stale)
+    assert doc["status"] == "unreadable"
+    assert [f["code"] for f in doc["findings"]] == ["file-changed"]
+
+
+def test_the_parents_preflight_refusal_reaches_the_document(day_workbook: Path) -> None:
+    from surveytools.batch import prepare
+    from surveytools.io.source import source_info
+    from tests.workbooks import billion_laughs
+
+    hostile = billion_laughs(day_workbook.with_name("hostile.xlsx"), day_workbook)
+    prepared = prepare(hostile, source_info(hostile).sha256)
+    assert prepared is not None and prepared.fatal is not None
+    doc, _ = build_document(hostile, Settings(), prepared=prepared)
+    assert [f["code"] for f in doc["findings"]] == ["xml-doctype"]

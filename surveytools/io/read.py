@@ -24,7 +24,6 @@ Known limits (documented, not silent): fastexcel turns a yes/no cell in a number
 from __future__ import annotations
 
 import datetime as dt
-import hashlib
 import re
 from collections.abc import Mapping, Sequence
 from pathlib import Path
@@ -54,6 +53,7 @@ from surveytools.io.raw import (
     SourceInfo,
 )
 from surveytools.io.safetext import clean_text, has_illegal_characters
+from surveytools.io.source import source_info
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
 
@@ -81,20 +81,6 @@ TIME_ONLY_EPOCH = np.datetime64("1899-12-31T00:00:00", "ms")
 _EPOCH_1904 = np.datetime64("1904-01-01T00:00:00", "ms")
 
 
-def _sha256(path: Path) -> str:
-    h = hashlib.sha256()
-    with path.open("rb") as fh:
-        while block := fh.read(1 << 20):
-            h.update(block)
-    return h.hexdigest()
-
-
-def source_info(path: str | Path) -> SourceInfo:
-    """Return the identity (absolute path, name, sha256, size) of an input file."""
-    p = Path(path).resolve()
-    return SourceInfo(path=str(p), file=p.name, sha256=_sha256(p), size_bytes=p.stat().st_size)
-
-
 def sheet_key(name: str) -> str:
     """Return a sheet name's comparison key (case, spaces and punctuation ignored)."""
     return re.sub(r"[^0-9a-z]+", "", name.lower())
@@ -109,6 +95,8 @@ def read_workbook(
     path: str | Path,
     settings: Settings | None = None,
     limits: PreflightLimits | None = None,
+    report: PreflightReport | None = None,
+    source: SourceInfo | None = None,
 ) -> RawWorkbook:
     """Read a survey workbook, safely, with every value located.
 
@@ -120,6 +108,12 @@ def read_workbook(
         Uses ``settings.column_map`` (extra header spellings).
     limits : PreflightLimits, optional
         Safety limits of the preflight.
+    report : PreflightReport, optional
+        The preflight of this very file, when it was already run (the batch runs it in the
+        parent process while the worker starts). The caller must make sure the file has not
+        changed since (same SHA-256 as ``source``).
+    source : SourceInfo, optional
+        The file's identity, when already hashed.
 
     Returns
     -------
@@ -134,8 +128,10 @@ def read_workbook(
     """
     settings = settings or Settings()
     p = Path(path)
-    report = preflight(p, limits)
-    source = source_info(p)
+    if report is None:
+        report = preflight(p, limits)
+    if source is None:
+        source = source_info(p)
     reader = None
     try:
         reader = _Reader(p, report, source, settings.column_map)
