@@ -269,6 +269,13 @@ def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sy
     except KeyboardInterrupt:
         err.write("surveytools: interrupted\n")
         return EXIT_DATA
+    except Exception as exc:  # a fault of the tool itself: say so plainly, no traceback
+        err.write(f"surveytools: internal error ({type(exc).__name__}: {str(exc)[:300]}). "
+                  "Results already written are complete; please report this with the "
+                  "command you ran. Set SURVEYTOOLS_DEBUG=1 to see the details.\n")
+        if os.environ.get("SURVEYTOOLS_DEBUG"):
+            raise
+        return EXIT_USAGE
     return EXIT_USAGE
 
 

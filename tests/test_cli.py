@@ -184,3 +184,21 @@ def test_template_writes_a_workbook_the_checker_reads(tmp_path: Path) -> None:
 def test_version_is_fast_to_start(tmp_path: Path) -> None:
     proc = run_cli("--version", cwd=tmp_path)
     assert proc.returncode == 0 and proc.stdout.startswith("surveytools ")
+
+
+def test_an_internal_fault_is_a_plain_message_not_a_traceback(tmp_path: Path,
+                                                              monkeypatch: pytest.MonkeyPatch,
+                                                              capsys: pytest.CaptureFixture[str]
+                                                              ) -> None:
+    from surveytools import batch, cli
+
+    def broken(*_a: object, **_k: object) -> None:
+        raise RuntimeError("simulated fault")
+
+    monkeypatch.setattr(batch, "run_batch", broken)
+    monkeypatch.delenv("SURVEYTOOLS_DEBUG", raising=False)
+    code = cli.main(["run", str(tmp_path), "-o", str(tmp_path / "o"), "--quiet"])
+    captured = capsys.readouterr()
+    assert code == 2
+    assert "internal error (RuntimeError: simulated fault)" in captured.err
+    assert "Traceback" not in captured.err

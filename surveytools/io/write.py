@@ -37,6 +37,7 @@ from surveytools.io.xlsx_style import (
     cautions_lines,
     finite_number,
     occupational_warning,
+    print_detail_sheet,
     parse_local_timestamp,
     severity_counts,
 )
@@ -1059,6 +1060,9 @@ def write_results_workbook(path: Path, doc: dict[str, Any],
             _write_readings(sheet(SHEET_READINGS), doc, annotations)
         _write_findings(sheet(SHEET_FINDINGS), doc)
         _write_provenance(sheet(SHEET_PROVENANCE), doc)
+        for ws in wb.worksheets():
+            if ws is not summary.ws:
+                print_detail_sheet(ws)
         summary.ws.activate()
     finally:
         wb.close()

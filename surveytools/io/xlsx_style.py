@@ -228,6 +228,35 @@ class Styles:
         return self._cache[key]
 
 
+#: Height of one line of header text [pt] (the default row height of a spreadsheet).
+HEADER_LINE_HEIGHT_PT = 15.0
+
+
+#: Widest sheet (columns) still printed one page wide; wider sheets flow over pages.
+PRINT_FIT_MAX_COLUMNS = 16
+
+
+def print_detail_sheet(ws: Any) -> None:
+    """Print a detail sheet landscape on A4, its header rows (and key column) on every page.
+
+    Sheets of up to :data:`PRINT_FIT_MAX_COLUMNS` columns are fitted one page wide; wider
+    ones flow over several pages at full size (shrinking 40 columns onto one page would
+    make them unreadable).
+    """
+    ws.set_landscape()
+    ws.set_paper(9)  # A4
+    last_col = getattr(ws, "dim_colmax", None)
+    if last_col is not None and last_col < PRINT_FIT_MAX_COLUMNS:
+        ws.fit_to_pages(1, 0)
+    panes = getattr(ws, "panes", None)
+    if panes:
+        frozen_rows, frozen_cols = int(panes[0]), int(panes[1])
+        if frozen_rows > 0:
+            ws.repeat_rows(0, frozen_rows - 1)
+        if frozen_cols > 0:
+            ws.repeat_columns(0, frozen_cols - 1)
+
+
 @dataclass
 class SheetWriter:
     """One worksheet plus the widths its columns need.
@@ -309,10 +338,16 @@ class SheetWriter:
         self._measure(col, len(FMT_DATE))
 
     def header(self, row: int, col: int, names: Sequence[str], style: str = "header") -> None:
-        """Write a header row of our own column names."""
+        """Write a header row of our own column names (tall enough for wrapped names)."""
+        lines = 1
         for i, name in enumerate(names):
             self.ws.write_string(row, col + i, name, self.styles.get(style))
-            self._measure(col + i, min(max(len(w) for w in name.split()), 40) + 2)
+            longest = min(max(len(w) for w in name.split()), 40) + 2
+            self._measure(col + i, longest)
+            # The column is at least `longest` wide; a longer name wraps onto more lines.
+            lines = max(lines, min(3, -(-len(name) // max(longest, 8))))
+        if lines > 1:
+            self.ws.set_row(row, HEADER_LINE_HEIGHT_PT * lines)
 
     def key_values(self, row: int, col: int, pairs: Iterable[tuple[str, object]],
                    value_style: str | None = "text") -> int:
