@@ -37,8 +37,8 @@ from surveytools.io.xlsx_style import (
     cautions_lines,
     finite_number,
     occupational_warning,
-    print_detail_sheet,
     parse_local_timestamp,
+    print_detail_sheet,
     severity_counts,
 )
 
