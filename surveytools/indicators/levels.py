@@ -25,6 +25,7 @@ __all__ = [
     "energy_sum",
     "from_energy",
     "grouped_energy_average",
+    "grouped_energy_average_and_duration",
     "grouped_max",
     "grouped_valid_duration",
     "to_energy",
@@ -215,7 +216,29 @@ def _grouped_inputs(
             f"{levels.size}, {weights.size} and {group_index.size}"
         )
     keep = np.isfinite(levels) & np.isfinite(weights) & (weights >= 0) & (group_index >= 0)
+    if keep.all():  # already filtered by the caller: skip three copies
+        return levels, weights, group_index
     return levels[keep], weights[keep], group_index[keep]
+
+
+def _grouped_peak(
+    values: FloatArray, group_index: NDArray[np.int64], n_groups: int
+) -> FloatArray:
+    """Largest value per group, ``-inf`` for empty groups (``values`` all finite).
+
+    When the group indices never decrease (samples in time order, groups in time order)
+    the maxima come from one ``np.maximum.reduceat`` over the runs of equal groups,
+    otherwise from ``np.maximum.at``; a maximum is exact either way.
+    """
+    peak = np.full(n_groups, -np.inf)
+    if values.size == 0:
+        return peak
+    if np.all(group_index[1:] >= group_index[:-1]):
+        run_start = np.flatnonzero(np.r_[True, group_index[1:] != group_index[:-1]])
+        peak[group_index[run_start]] = np.maximum.reduceat(values, run_start)
+    else:
+        np.maximum.at(peak, group_index, values)
+    return peak
 
 
 def grouped_max(values_db: ArrayLike, groups: ArrayLike, n_groups: int) -> FloatArray:
@@ -247,8 +270,7 @@ def grouped_max(values_db: ArrayLike, groups: ArrayLike, n_groups: int) -> Float
        maxima is the maximum over their union).
     """
     values, _, group_index = _grouped_inputs(values_db, None, groups, n_groups)
-    out = np.full(n_groups, -np.inf)
-    np.maximum.at(out, group_index, values)
+    out = _grouped_peak(values, group_index, n_groups)
     out[np.isneginf(out)] = np.nan
     return out
 
@@ -323,14 +345,58 @@ def grouped_energy_average(
     ----------
     .. [1] ISO 1996-1:2016, equivalent continuous sound pressure level.
     """
+    return grouped_energy_average_and_duration(levels_db, durations_s, groups, n_groups)[0]
+
+
+def grouped_energy_average_and_duration(
+    levels_db: ArrayLike, durations_s: ArrayLike | None, groups: ArrayLike, n_groups: int
+) -> tuple[FloatArray, FloatArray]:
+    r"""Energy-average level and valid duration per group, from one pass over the samples.
+
+    The same figures as :func:`grouped_energy_average` and
+    :func:`grouped_valid_duration` called with the same arguments (bit for bit: the
+    duration sums add the same durations in the same order; zero durations, which only
+    the latter keeps, add nothing).
+
+    Parameters
+    ----------
+    levels_db : array-like
+        Levels, one per sample. [dB]
+    durations_s : array-like or None
+        Time each sample represents; 1 each if None. [s]
+    groups : array-like of int
+        Group index per sample, ``0 .. n_groups-1``; -1 means the sample is in no group.
+    n_groups : int
+        Number of groups.
+
+    Returns
+    -------
+    level_db : numpy.ndarray
+        Shape ``(n_groups,)``; NaN for groups with no finite sample or zero valid time.
+        [dB]
+    valid_s : numpy.ndarray
+        Shape ``(n_groups,)``; total duration of the samples with a finite level, 0 for
+        groups without any. [s]
+
+    Raises
+    ------
+    ValueError
+        If the inputs differ in length or ``n_groups`` is negative (programming errors).
+
+    References
+    ----------
+    .. [1] ISO 1996-1:2016, equivalent continuous sound pressure level.
+    .. [2] ISO 1996-2:2017, measurement time interval (only valid time counts).
+    """
     levels, weights, group_index = _grouped_inputs(levels_db, durations_s, groups, n_groups)
     positive = weights > 0  # zero-duration samples carry no energy (and no maximum)
-    levels, weights, group_index = levels[positive], weights[positive], group_index[positive]
-    peak = np.full(n_groups, -np.inf)
-    np.maximum.at(peak, group_index, levels)
+    if not positive.all():
+        levels, weights, group_index = levels[positive], weights[positive], group_index[positive]
+    peak = _grouped_peak(levels, group_index, n_groups)
     shifted = weights * np.exp((levels - peak[group_index]) * LN10_OVER_10)
     energy = np.bincount(group_index, weights=shifted, minlength=n_groups)
     total = np.bincount(group_index, weights=weights, minlength=n_groups)
     ok = (total > 0) & np.isfinite(peak) & (energy > 0)
     ratio = np.divide(energy, total, out=np.ones(n_groups), where=ok)
-    return np.where(ok, peak + DB_PER_DECADE_POWER * np.log10(ratio), np.nan)
+    level = np.where(ok, peak + DB_PER_DECADE_POWER * np.log10(ratio), np.nan)
+    return level, total.astype(np.float64)

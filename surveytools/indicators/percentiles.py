@@ -33,6 +33,7 @@ __all__ = [
     "exceedance_level",
     "exceedance_levels",
     "grouped_exceedance_levels",
+    "level_order",
     "whole_db_distribution",
 ]
 
@@ -47,10 +48,60 @@ def _cdf_targets(percents: ArrayLike) -> FloatArray:
     return np.where(ok, 1.0 - values / PERCENT_OF_WHOLE, np.nan)
 
 
+def _check_order(order: ArrayLike, size: int) -> NDArray[np.intp]:
+    """Return a caller's level order as an index array of the right length."""
+    index = np.asarray(order, dtype=np.intp).ravel()
+    if index.size != size:
+        raise ValueError(
+            f"level_order has {index.size} entries but there are {size} levels; pass "
+            "np.argsort(levels_db, kind='stable')"
+        )
+    return index
+
+
+def level_order(levels_db: ArrayLike) -> NDArray[np.intp]:
+    """Stable ascending order of levels, to share between several LN computations.
+
+    Parameters
+    ----------
+    levels_db : array-like
+        Sample levels (NaN sorts last). [dB]
+
+    Returns
+    -------
+    numpy.ndarray of intp
+        ``np.argsort(levels_db, kind="stable")`` of the flattened levels: equal levels
+        keep their input order, which the LN functions rely on (their cumulative weights
+        add equal levels in input order).
+
+    References
+    ----------
+    .. [1] NumPy reference, ``numpy.argsort`` (``kind="stable"``).
+    """
+    return np.argsort(as_float_array(levels_db).ravel(), kind="stable")
+
+
+def _stable_group_sort(group_index: NDArray[np.int64], n_groups: int) -> NDArray[np.intp]:
+    """Stable order of small non-negative group numbers.
+
+    The narrowest integer type that holds them is sorted (NumPy sorts 8- and 16-bit
+    integers stably with a radix sort, several times faster than a merge sort).
+    """
+    if n_groups <= np.iinfo(np.int16).max:
+        return np.argsort(group_index.astype(np.int16), kind="stable")
+    if n_groups <= np.iinfo(np.int32).max:
+        return np.argsort(group_index.astype(np.int32), kind="stable")
+    return np.argsort(group_index, kind="stable")
+
+
 def _sorted_valid(
-    levels_db: ArrayLike, durations_s: ArrayLike | None
+    levels_db: ArrayLike, durations_s: ArrayLike | None,
+    order: ArrayLike | None = None,
 ) -> tuple[FloatArray, FloatArray]:
-    """Finite levels with positive finite durations, sorted by level, and their weights."""
+    """Finite levels with positive finite durations, sorted by level, and their weights.
+
+    ``order`` is the stable level order of all of ``levels_db`` when the caller has it.
+    """
     levels = as_float_array(levels_db).ravel()
     if durations_s is None:
         weights = np.ones(levels.shape)
@@ -64,13 +115,22 @@ def _sorted_valid(
                 f"{weights.shape}; pass one duration per level (or one for all)"
             ) from exc
     keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0)
-    levels, weights = levels[keep], weights[keep]
-    order = np.argsort(levels, kind="stable")
-    return levels[order], weights[order]
+    if order is None:
+        levels, weights = levels[keep], weights[keep]
+        chosen = np.argsort(levels, kind="stable")
+        return levels[chosen], weights[chosen]
+    # the stable order of all levels, restricted to the kept ones, is the stable order of
+    # the kept levels
+    index = _check_order(order, levels.size)
+    index = index[keep[index]]
+    return levels[index], weights[index]
 
 
 def exceedance_levels(
-    levels_db: ArrayLike, percents: ArrayLike, durations_s: ArrayLike | None = None
+    levels_db: ArrayLike,
+    percents: ArrayLike,
+    durations_s: ArrayLike | None = None,
+    level_order: ArrayLike | None = None,
 ) -> FloatArray:
     r"""Exceedance levels LN for several N at once.
 
@@ -82,12 +142,21 @@ def exceedance_levels(
         The N values. [%]
     durations_s : array-like, optional
         Time each sample represents (weights); equal if omitted. [s]
+    level_order : array-like of int, optional
+        :func:`level_order` of ``levels_db``, when several computations share it (it
+        saves the sort; the result is the same).
 
     Returns
     -------
     numpy.ndarray
         One LN per percent, always a sample level; NaN for N outside [0, 100] or when no
         finite sample with positive duration exists. [dB]
+
+    Raises
+    ------
+    ValueError
+        If ``durations_s`` or ``level_order`` does not fit ``levels_db`` (programming
+        errors).
 
     Notes
     -----
@@ -105,7 +174,7 @@ def exceedance_levels(
     .. [2] design.md §5 (the convention pinned here).
     """
     targets = _cdf_targets(percents)
-    levels, weights = _sorted_valid(levels_db, durations_s)
+    levels, weights = _sorted_valid(levels_db, durations_s, level_order)
     out = np.full(targets.shape, np.nan)
     if levels.size == 0:
         return out
@@ -156,10 +225,13 @@ def grouped_exceedance_levels(
     groups: ArrayLike,
     n_groups: int,
     percents: ArrayLike,
+    level_order: ArrayLike | None = None,
 ) -> FloatArray:
     """Exceedance levels LN per group, vectorised over all groups at once.
 
-    Samples are sorted by (group, level) with ``np.lexsort``; cumulative weights restart
+    Samples are sorted by (group, level): stably by level (or in the caller's
+    ``level_order``), then stably by group, the order of ``np.lexsort((levels, groups))``;
+    cumulative weights restart
     in each group and are normalised by the group total; for each percent the first
     sample per group whose normalised cumulative weight reaches ``1 - N/100`` is found by
     counting, per group, the samples below the target (the same comparison as
@@ -177,6 +249,9 @@ def grouped_exceedance_levels(
         Number of groups.
     percents : array-like
         The N values. [%]
+    level_order : array-like of int, optional
+        :func:`level_order` of ``levels_db``, when several groupings of the same samples
+        share it (it saves the sort; the result is the same).
 
     Returns
     -------
@@ -206,10 +281,12 @@ def grouped_exceedance_levels(
         )
     out = np.full((n_groups, targets.size), np.nan)
     keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0) & (group_index >= 0)
-    levels, weights, group_index = levels[keep], weights[keep], group_index[keep]
-    if levels.size == 0:
+    by_level = (np.argsort(levels, kind="stable") if level_order is None
+                else _check_order(level_order, levels.size))
+    by_level = by_level[keep[by_level]]
+    if by_level.size == 0:
         return out
-    order = np.lexsort((levels, group_index))
+    order = by_level[_stable_group_sort(group_index[by_level], n_groups)]
     levels, weights, group_index = levels[order], weights[order], group_index[order]
 
     counts = np.bincount(group_index, minlength=n_groups)

@@ -15,6 +15,7 @@ from surveytools.indicators.levels import (
     energy_sum,
     from_energy,
     grouped_energy_average,
+    grouped_energy_average_and_duration,
     grouped_max,
     grouped_valid_duration,
     to_energy,
@@ -226,3 +227,54 @@ def test_grouped_rejects_length_mismatch():
         grouped_energy_average([60, 61], [1, 1, 1], [0, 0], 1)
     with pytest.raises(ValueError, match="n_groups must be >= 0"):
         grouped_max([60], [0], -1)
+
+
+# --- one-pass level and valid time; runs of sorted groups -----------------------------
+
+@given(
+    st.lists(
+        st.tuples(st.one_of(levels_st, st.just(math.nan)),
+                  st.one_of(durations_st, st.just(0.0)),
+                  st.integers(min_value=-1, max_value=4)),
+        min_size=1,
+        max_size=60,
+    ),
+    st.booleans(),
+)
+def test_level_and_duration_equal_per_group(samples, sort_by_group):
+    # sort_by_group: groups in non-decreasing order take the run (reduceat) path of the
+    # group maxima, otherwise the scattered (maximum.at) path.
+    if sort_by_group:
+        samples = sorted(samples, key=lambda sample: sample[2])
+    levels, durations, groups = (np.array(x) for x in zip(*samples, strict=True))
+    level, valid_s = grouped_energy_average_and_duration(levels, durations, groups, 5)
+    # the two single-purpose functions give the same figures bit for bit
+    np.testing.assert_array_equal(level, grouped_energy_average(levels, durations, groups, 5))
+    np.testing.assert_array_equal(valid_s,
+                                  grouped_valid_duration(levels, durations, groups, 5))
+    for g in range(5):
+        sel = (groups == g) & np.isfinite(levels)
+        # valid time: durations of the finite levels added in input order (plain sum)
+        assert valid_s[g] == sum(durations[sel].tolist(), 0.0)
+        positive = sel & (durations > 0)
+        if positive.any():
+            # textbook form, Bies & Hansen eq. (4.1), without max-factoring
+            assert level[g] == pytest.approx(_hand_leq(levels[positive], durations[positive]),
+                                             abs=1e-9)
+            assert grouped_max(levels, groups, 5)[g] == levels[sel].max()
+        else:
+            assert math.isnan(level[g])
+
+
+def test_level_and_duration_hand_evaluated_sorted_runs():
+    # groups in time order (the assessment's case): runs 0, 0 | 1 | 3, 3, 3
+    levels = [70.0, 60.0, 55.0, 40.0, 40.0, np.nan]
+    durations = [3600.0, 10800.0, 900.0, 1.0, 1.0, 5.0]
+    level, valid_s = grouped_energy_average_and_duration(levels, durations, [0, 0, 1, 3, 3, 3],
+                                                         4)
+    # hand-evaluated: group 0 = 10 lg((3600e7 + 10800e6) / 14400) = 65.119 dB; group 1 the
+    # single 55 dB; group 2 empty; group 3 two equal 40 dB levels, the NaN left out
+    np.testing.assert_allclose(level, [65.119, 55.0, np.nan, 40.0], atol=5e-4)
+    np.testing.assert_array_equal(valid_s, [14400.0, 900.0, 0.0, 2.0])
+    np.testing.assert_array_equal(grouped_max(levels, [0, 0, 1, 3, 3, 3], 4),
+                                  [70.0, 55.0, np.nan, 40.0])

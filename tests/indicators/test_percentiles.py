@@ -15,6 +15,7 @@ from surveytools.indicators.percentiles import (
     exceedance_level,
     exceedance_levels,
     grouped_exceedance_levels,
+    level_order,
     whole_db_distribution,
 )
 
@@ -195,3 +196,60 @@ def test_combine_nothing_finite_and_unknown_method():
         assert math.isnan(combine_logged_levels([np.nan], method))
     with pytest.raises(ValueError, match="median, mode, mean"):
         combine_logged_levels([40.0], "average")
+
+
+# --- a level order shared between computations ----------------------------------------
+
+def test_level_order_keeps_equal_levels_in_input_order():
+    # hand-evaluated: 44 (index 1) first, then the two 45s in input order (0, 3), then the
+    # 47s (2, 4); NaN last
+    np.testing.assert_array_equal(level_order([45.0, 44.0, 47.0, 45.0, 47.0, np.nan]),
+                                  [1, 0, 3, 2, 4, 5])
+
+
+@given(
+    st.lists(
+        st.tuples(st.one_of(level_st, st.just(math.nan)), dur_st,
+                  st.integers(min_value=-1, max_value=5), st.booleans()),
+        min_size=1,
+        max_size=80,
+    )
+)
+def test_shared_level_order_gives_the_same_levels(samples):
+    levels, durations, groups, valid = (np.array(x) for x in zip(*samples, strict=True))
+    order = level_order(levels)
+    percents = [0, 10, 50, 90, 95, 100]
+    # grouped: the same table with and without the shared order, and per group the
+    # numpy weighted inverted-CDF quantile (independent reference, design.md §5)
+    shared = grouped_exceedance_levels(levels, durations, groups, 6, percents,
+                                       level_order=order)
+    np.testing.assert_array_equal(
+        shared, grouped_exceedance_levels(levels, durations, groups, 6, percents))
+    for g in range(6):
+        sel = (groups == g) & np.isfinite(levels)
+        for k, p in enumerate(percents):
+            if sel.any():
+                assert shared[g, k] == numpy_ln(levels[sel], p, durations[sel])
+            else:
+                assert math.isnan(shared[g, k])
+    # whole set, a subset masked as NaN: the same as the subset on its own
+    masked = np.where(valid, levels, np.nan)
+    expected = exceedance_levels(levels[valid], percents, durations[valid])
+    np.testing.assert_array_equal(
+        exceedance_levels(masked, percents, durations, level_order=order), expected)
+
+
+def test_level_order_of_the_wrong_length_is_refused():
+    with pytest.raises(ValueError, match="level_order has 2 entries but there are 3"):
+        exceedance_levels([50, 60, 70], [90], level_order=[0, 1])
+    with pytest.raises(ValueError, match="level_order has 1 entries but there are 2"):
+        grouped_exceedance_levels([50, 60], [1, 1], [0, 0], 1, [90], level_order=[0])
+
+
+def test_grouped_many_groups_wide_group_numbers():
+    # more than 32767 groups: the stable group sort runs on 32-bit numbers; one sample
+    # per group, so each LN is that sample (hand-evaluated)
+    n = 40_000
+    levels = (np.arange(n) % 70 + 20).astype(float)
+    out = grouped_exceedance_levels(levels, None, np.arange(n)[::-1], n, [90])
+    np.testing.assert_array_equal(out[:, 0], levels[::-1])
