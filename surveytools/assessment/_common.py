@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -71,9 +72,9 @@ class Pieces:
     duration_ms: IntArray
     segment: IntArray
 
-    @property
+    @cached_property
     def duration_s(self) -> FloatArray:
-        """Piece durations [s]."""
+        """Piece durations (computed once) [s]."""
         return self.duration_ms / MS_PER_S
 
 
@@ -83,6 +84,35 @@ def split(start_ms: IntArray, duration_ms: IntArray, boundaries_ms: IntArray) ->
         start_ms, duration_ms, boundaries_ms
     )
     return Pieces(index, piece_start, piece_duration, segment)
+
+
+def expand_order(order: IntArray, index: IntArray, n_items: int) -> IntArray:
+    """Carry an order of items over to their pieces.
+
+    Parameters
+    ----------
+    order : numpy.ndarray of int
+        A permutation of ``0 .. n_items-1``.
+    index : numpy.ndarray of int
+        Item of each piece, non-decreasing, every item with at least one piece (the
+        ``index`` of :func:`split`).
+    n_items : int
+        Number of items.
+
+    Returns
+    -------
+    numpy.ndarray of int64
+        Piece positions: the pieces of ``order[0]`` (in piece order), then those of
+        ``order[1]``, ...
+    """
+    counts = np.bincount(index, minlength=n_items)
+    first = np.cumsum(counts) - counts
+    if index.size == n_items:  # one piece per item
+        return first[order].astype(np.int64)
+    reps = counts[order]
+    starts = np.repeat(first[order], reps)
+    within = np.arange(index.size, dtype=np.int64) - np.repeat(np.cumsum(reps) - reps, reps)
+    return (starts + within).astype(np.int64)
 
 
 def segment_groups(segment: IntArray, n_groups: int) -> IntArray:

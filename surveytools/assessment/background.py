@@ -70,12 +70,11 @@ def background_section(ctx: Context) -> dict[str, Any] | None:
     bounds, period_index = reference_bounds(ctx)
     n_groups = max(bounds.size - 1, 0)
 
-    laeq = ctx.level("LAeq")
-    assert laeq is not None
     pieces, group = ctx.pieces_in(bounds)
     valid_group = np.where(ctx.valid_background[pieces.index], group, -1)
-    levels = laeq[pieces.index]
-    valid_s = grouped_valid_duration(levels, pieces.duration_s, valid_group, n_groups)
+    levels = ctx.piece_levels(pieces)
+    kept_levels, kept_s, kept = ctx.valid_pieces(pieces, "background")
+    valid_s = grouped_valid_duration(kept_levels, kept_s, group[kept], n_groups)
     length_s = np.diff(bounds) / MS_PER_S
 
     logged = ctx.logged("LAF90")
@@ -92,7 +91,8 @@ def background_section(ctx: Context) -> dict[str, Any] | None:
     else:
         basis = BASIS_SAMPLES
         la90 = grouped_exceedance_levels(
-            levels, pieces.duration_s, valid_group, n_groups, [BACKGROUND_PERCENT]
+            levels, pieces.duration_s, valid_group, n_groups, [BACKGROUND_PERCENT],
+            level_order=ctx.piece_order(pieces),
         )[:, 0]
     la90 = np.where(valid_s > 0, la90, np.nan)
     sufficient = (length_s > 0) & (valid_s >= ctx.settings.coverage_threshold * length_s)

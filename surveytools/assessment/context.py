@@ -13,11 +13,13 @@ from surveytools.assessment._common import (
     FloatArray,
     IntArray,
     Pieces,
+    expand_order,
     modal_value,
     segment_groups,
     split,
 )
 from surveytools.assessment.timegrid import calendar_days, position_tz
+from surveytools.indicators.percentiles import level_order
 from surveytools.settings import Settings
 from surveytools.survey import Survey
 
@@ -53,19 +55,38 @@ class Context:
     valid_background: np.ndarray
     candidate_days: list[date]
     logging_interval_s: float
-    shared: dict[str, Pieces] = field(default_factory=dict)
+    shared: dict[str, Any] = field(default_factory=dict)
     #: Per-scheme results computed once and reused (days and survey averages).
-    cache: dict[tuple[str, ...], Any] = field(default_factory=dict)
+    cache: dict[tuple[Any, ...], Any] = field(default_factory=dict)
 
     def share_boundaries(self, boundaries: list[IntArray]) -> None:
         """Split the readings once at the union of every grid the sections will use.
 
         A piece of that split lies inside one interval of every grid, so each section
-        finds its groups with one ``searchsorted`` of the piece starts instead of its
-        own split (one split instead of seven for a week of 1-s readings).
+        finds its groups from the piece's interval of the union (one split instead of
+        seven for a week of 1-s readings).
         """
         union = np.unique(np.concatenate(boundaries)) if boundaries else np.zeros(0, np.int64)
+        self.shared["union"] = union
         self.shared["pieces"] = split(self.start_ms, self.duration_ms, union)
+
+    def _shared_segment(self, bounds_ms: IntArray, pieces: Pieces) -> IntArray | None:
+        """Segment of each shared piece in ``bounds_ms``, None if the bounds are not shared.
+
+        Every bound is a union instant, so the bounds at or before a piece start are the
+        bounds at or before the union instant opening the piece's union segment: one
+        ``searchsorted`` of the union instants and one look-up per piece give the same
+        segments as a ``searchsorted`` of every piece start.
+        """
+        union: IntArray = self.shared["union"]
+        at = np.searchsorted(union, bounds_ms)
+        if np.any(at >= union.size) or not np.array_equal(union[np.minimum(at, union.size - 1)],
+                                                          bounds_ms):
+            return None
+        per_union = np.concatenate(
+            ([0], np.searchsorted(bounds_ms, union, side="right"))).astype(np.int64)
+        segment: IntArray = per_union[pieces.segment]
+        return segment
 
     def pieces_in(self, bounds_ms: IntArray) -> tuple[Pieces, IntArray]:
         """Return reading pieces and their interval (between consecutive bounds; -1 outside)."""
@@ -74,8 +95,67 @@ class Context:
         if pieces is None:
             pieces = split(self.start_ms, self.duration_ms, bounds_ms)
             return pieces, segment_groups(pieces.segment, n_groups)
-        segment = np.searchsorted(bounds_ms, pieces.start_ms, side="right")
+        segment = self._shared_segment(bounds_ms, pieces)
+        if segment is None:
+            segment = np.searchsorted(bounds_ms, pieces.start_ms, side="right")
         return pieces, segment_groups(segment, n_groups)
+
+    def piece_levels(self, pieces: Pieces) -> FloatArray:
+        """LAeq of each piece (its reading's LAeq); computed once for the shared pieces."""
+        key = ("piece_laeq", id(pieces))
+        cached = self.cache.get(key)
+        if cached is None or cached[0] is not pieces:
+            laeq = self.level("LAeq")
+            assert laeq is not None  # LAeq is a required column
+            cached = (pieces, laeq[pieces.index])
+            self.cache[key] = cached
+        levels: FloatArray = cached[1]
+        return levels
+
+    def laeq_order(self) -> IntArray:
+        """Stable ascending order of the readings' LAeq (``level_order``), computed once."""
+        cached = self.cache.get(("laeq_order",))
+        if cached is None:
+            laeq = self.level("LAeq")
+            assert laeq is not None
+            cached = level_order(laeq)
+            self.cache[("laeq_order",)] = cached
+        order: IntArray = cached
+        return order
+
+    def piece_order(self, pieces: Pieces) -> IntArray:
+        """Stable ascending order of :meth:`piece_levels`, from :meth:`laeq_order`.
+
+        The pieces of a reading are consecutive and share its level, so laying out the
+        pieces of each reading in the readings' stable level order is the stable level
+        order of the pieces (equal levels stay in piece order).
+        """
+        key = ("piece_order", id(pieces))
+        cached = self.cache.get(key)
+        if cached is None or cached[0] is not pieces:
+            cached = (pieces, expand_order(self.laeq_order(), pieces.index, self.n))
+            self.cache[key] = cached
+        order: IntArray = cached[1]
+        return order
+
+    def valid_pieces(self, pieces: Pieces, scope: str = "all") -> tuple[FloatArray, FloatArray,
+                                                                         IntArray]:
+        """LAeq, duration [s] and position of the pieces that count for ``scope``.
+
+        Pieces of valid readings (``valid`` for ``"all"``, ``valid_background`` for
+        ``"background"``) with a finite LAeq and a positive length, in piece order: the
+        samples every grouped energy average of the scope keeps.
+        """
+        key = ("valid_pieces", scope, id(pieces))
+        cached = self.cache.get(key)
+        if cached is None or cached[0] is not pieces:
+            mask = self.valid if scope == "all" else self.valid_background
+            levels = self.piece_levels(pieces)
+            durations = pieces.duration_s
+            chosen = np.flatnonzero(mask[pieces.index] & np.isfinite(levels) & (durations > 0))
+            cached = (pieces, levels[chosen], durations[chosen], chosen)
+            self.cache[key] = cached
+        return cached[1], cached[2], cached[3]
 
     @property
     def n(self) -> int:

@@ -28,7 +28,11 @@ from surveytools.assessment._common import (
 )
 from surveytools.assessment.context import Context
 from surveytools.assessment.timegrid import day_offset_boundaries, hhmm_hours
-from surveytools.indicators.levels import grouped_energy_average, grouped_valid_duration
+from surveytools.indicators.levels import (
+    grouped_energy_average,
+    grouped_energy_average_and_duration,
+    grouped_valid_duration,
+)
 from surveytools.indicators.periods import penalised_day_evening_night, scheme_hours
 from surveytools.settings import PeriodScheme
 
@@ -72,13 +76,12 @@ def assess_scheme(ctx: Context, times: list[str]) -> SchemeResult:
     n_groups = n_days * N_PERIODS
     bounds = day_offset_boundaries(days, times, ctx.tz)
     pieces, group = ctx.pieces_in(bounds)
-    laeq = ctx.level("LAeq")
-    assert laeq is not None
-    levels = laeq[pieces.index]
-    valid_group = np.where(ctx.valid[pieces.index], group, -1)
-    level = grouped_energy_average(levels, pieces.duration_s, valid_group, n_groups)
-    valid_s = grouped_valid_duration(levels, pieces.duration_s, valid_group, n_groups)
-    touched_groups = np.bincount(group[group >= 0], minlength=n_groups) > 0
+    # the valid pieces with a finite LAeq, taken once for all schemes
+    levels, durations_s, chosen = ctx.valid_pieces(pieces)
+    level, valid_s = grouped_energy_average_and_duration(
+        levels, durations_s, group[chosen], n_groups)
+    touched_groups = np.zeros(n_groups, dtype=bool)
+    touched_groups[group[group >= 0]] = True
     result = SchemeResult(
         level_db=level.reshape(n_days, N_PERIODS),
         valid_s=valid_s.reshape(n_days, N_PERIODS),
@@ -162,7 +165,10 @@ def night_events(ctx: Context, bounds_ms: IntArray, n_days: int) -> tuple[IntArr
     day = (group // N_PERIODS)[in_night]
     values = lafmax[in_night]
     counts = np.bincount(day[values > events.night_lafmax_threshold_db], minlength=n_days)
-    order = np.lexsort((-values, day))
+    # only the values are kept, so the order among equal values does not matter: a quick
+    # sort of the values, then a stable sort by day (a radix sort of small integers)
+    by_value = np.argsort(-values)
+    order = by_value[np.argsort(day[by_value].astype(np.int32), kind="stable")]
     day_sorted = day[order]
     per_day = np.bincount(day_sorted, minlength=n_days)
     first = np.cumsum(per_day) - per_day

@@ -30,9 +30,8 @@ from surveytools.assessment.daily import period_of_instants
 from surveytools.assessment.timegrid import format_local, stepped_grid, wall_to_utc_ms
 from surveytools.indicators.levels import (
     energy_average,
-    grouped_energy_average,
+    grouped_energy_average_and_duration,
     grouped_max,
-    grouped_valid_duration,
 )
 from surveytools.indicators.percentiles import (
     combine_logged_levels,
@@ -117,11 +116,10 @@ def intervals_section(ctx: Context) -> tuple[list[dict[str, Any]], dict[str, Any
 
     pieces, group = ctx.pieces_in(bounds)
     valid_group = np.where(ctx.valid[pieces.index], group, -1)
-    laeq = ctx.level("LAeq")
-    assert laeq is not None  # LAeq is a required column
-    piece_levels = laeq[pieces.index]
-    leq = grouped_energy_average(piece_levels, pieces.duration_s, valid_group, n_groups)
-    valid_s = grouped_valid_duration(piece_levels, pieces.duration_s, valid_group, n_groups)
+    piece_levels = ctx.piece_levels(pieces)
+    chosen_levels, chosen_s, chosen = ctx.valid_pieces(pieces)
+    leq, valid_s = grouped_energy_average_and_duration(
+        chosen_levels, chosen_s, group[chosen], n_groups)
     lengths_s = np.diff(bounds) / 1000.0
     valid_fraction = np.divide(valid_s, lengths_s, out=np.zeros(n_groups), where=lengths_s > 0)
     lafmax_col = ctx.level("LAFmax")
@@ -134,7 +132,8 @@ def intervals_section(ctx: Context) -> tuple[list[dict[str, Any]], dict[str, Any
     sample_percents = [p for p in percents if basis[ln_key(p)] == "samples"]
     if sample_percents:
         table = grouped_exceedance_levels(
-            piece_levels, pieces.duration_s, valid_group, n_groups, sample_percents
+            piece_levels, pieces.duration_s, valid_group, n_groups, sample_percents,
+            level_order=ctx.piece_order(pieces),
         )
         for k, p in enumerate(sample_percents):
             ln[ln_key(p)] = table[:, k]
@@ -195,8 +194,10 @@ def overall_section(ctx: Context) -> dict[str, Any]:
     basis: dict[str, Any] = {}
     percents = list(settings.percentiles)
     sample_percents = [p for p in percents if ctx.logged(logged_column(p)) is None]
+    # invalid readings as NaN levels: the same samples as laeq[valid], in the shared order
     samples = (
-        exceedance_levels(laeq[valid], sample_percents, durations_s[valid])
+        exceedance_levels(np.where(valid, laeq, np.nan), sample_percents, durations_s,
+                          level_order=ctx.laeq_order())
         if sample_percents
         else np.zeros(0)
     )

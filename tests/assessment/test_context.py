@@ -1,0 +1,61 @@
+"""The assessment context: shared pieces and the arrays taken from them once."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from conftest import build_survey, local_ms
+
+from surveytools.assessment.context import build_context
+from surveytools.settings import Settings
+
+
+def _context(n: int = 600, step_s: float = 7.0):
+    rng = np.random.default_rng(11)
+    start = local_ms("2026-03-28 20:00:00") + np.arange(n, dtype=np.int64) * int(step_s * 1000)
+    laeq = np.round(rng.normal(50, 5, n))  # whole dB: many equal levels
+    laeq[::37] = np.nan
+    mask = np.zeros(n, bool)
+    mask[100:140] = True
+    survey = build_survey(start, step_s, {"LAeq": laeq},
+                          exclusions=[("wind", "all", mask), ("technician", "background",
+                                                               ~mask & (np.arange(n) % 5 == 0))])
+    return build_context(survey, Settings()), laeq
+
+
+def test_shared_pieces_find_the_same_groups_as_their_starts():
+    ctx, _ = _context()
+    hour = 3_600_000
+    grid_a = np.arange(int(ctx.start_ms[0]) - hour, int(ctx.end_ms[-1]) + hour, 900_000)
+    grid_b = grid_a[::4] + 60_000
+    ctx.share_boundaries([grid_a, grid_b])
+    for bounds in (grid_a, grid_b):
+        pieces, group = ctx.pieces_in(bounds)
+        # reference: numpy searchsorted of each piece start in the grid
+        segment = np.searchsorted(bounds, pieces.start_ms, side="right") - 1
+        expected = np.where((segment >= 0) & (segment < bounds.size - 1), segment, -1)
+        np.testing.assert_array_equal(group, expected)
+    # a grid that is not part of the union falls back to the piece starts
+    other = grid_a[1:-1] + 1234
+    pieces, group = ctx.pieces_in(other)
+    segment = np.searchsorted(other, pieces.start_ms, side="right") - 1
+    np.testing.assert_array_equal(
+        group, np.where((segment >= 0) & (segment < other.size - 1), segment, -1))
+
+
+@pytest.mark.parametrize("scope", ["all", "background"])
+def test_valid_pieces_and_orders(scope):
+    ctx, laeq = _context()
+    ctx.share_boundaries([np.arange(int(ctx.start_ms[0]), int(ctx.end_ms[-1]), 600_000)])
+    pieces, _ = ctx.pieces_in(np.zeros(0, np.int64))
+    levels = ctx.piece_levels(pieces)
+    np.testing.assert_array_equal(levels, laeq[pieces.index])
+    mask = ctx.valid if scope == "all" else ctx.valid_background
+    chosen_levels, chosen_s, chosen = ctx.valid_pieces(pieces, scope)
+    keep = mask[pieces.index] & np.isfinite(levels) & (pieces.duration_ms > 0)
+    np.testing.assert_array_equal(chosen, np.flatnonzero(keep))
+    np.testing.assert_array_equal(chosen_levels, levels[keep])
+    np.testing.assert_array_equal(chosen_s, pieces.duration_ms[keep] / 1000.0)
+    # reference: numpy stable argsort (NumPy reference, kind="stable")
+    np.testing.assert_array_equal(ctx.laeq_order(), np.argsort(laeq, kind="stable"))
+    np.testing.assert_array_equal(ctx.piece_order(pieces), np.argsort(levels, kind="stable"))
