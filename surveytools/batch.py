@@ -255,32 +255,9 @@ def prepare(path: Path, sha256: str | None) -> Any:
         return None
 
 
-def run_worker(job: dict[str, Any], timeout_s: float) -> dict[str, Any]:
-    """Run one job in its own Python process; map any crash to a located failure."""
-    import pickle
-
-    path = Path(job["path"])
-    cmd = [sys.executable, "-m", "surveytools.worker"]
-    proc = subprocess.Popen(cmd, stdin=subprocess.PIPE, stdout=subprocess.PIPE,
-                            stderr=subprocess.PIPE, start_new_session=True)
-    job = dict(job, prepared=prepare(path, job.get("sha256")))
-    try:
-        out_b, err_b = proc.communicate(pickle.dumps(job), timeout=timeout_s)
-    except subprocess.TimeoutExpired:
-        proc.kill()
-        proc.communicate()
-        return _worker_failure(path, "worker-timeout",
-                               f"processing took longer than {timeout_s:.0f} s and was stopped; "
-                               "check the file is a genuine survey export, or raise --timeout")
-    stdout = out_b.decode("utf-8", "replace")
-    if proc.returncode == 0:
-        try:
-            return dict(json.loads(stdout.strip().splitlines()[-1]))
-        except (ValueError, IndexError):
-            pass
-    err = err_b.decode("utf-8", "replace").strip()
-    tail = err.splitlines()[-1][:300] if err else ""
-    rc = proc.returncode
+def _crash_failure(path: Path, rc: int | None, err: str) -> dict[str, Any]:
+    """Map a dead worker's exit status and last words to a located failure."""
+    tail = err.strip().splitlines()[-1][:300] if err.strip() else ""
     if rc in (-6, 134) or "memory allocation" in err or "MemoryError" in err:
         code, msg = ("worker-out-of-memory",
                      "reading this file needed more memory than allowed and was stopped; the file "
@@ -294,6 +271,131 @@ def run_worker(job: dict[str, Any], timeout_s: float) -> dict[str, Any]:
     if tail:
         msg = f"{msg} [{tail}]"
     return _worker_failure(path, code, msg)
+
+
+class WorkerSlot:
+    """One worker process that handles inputs one after another.
+
+    The worker imports the heavy libraries once and then serves jobs, so a batch of many
+    small workbooks does not pay the start-up for each. Isolation is kept: when the worker
+    dies (a native reader aborting, memory or time limits), only the input it was working
+    on fails, and the next input gets a fresh worker.
+    """
+
+    def __init__(self, memory_bytes: int | None) -> None:
+        self.memory_bytes = memory_bytes
+        self.proc: subprocess.Popen[bytes] | None = None
+        self.errors: Any = None
+        self._buffer = b""
+
+    def _start(self) -> subprocess.Popen[bytes]:
+        import tempfile
+
+        if self.errors is None:
+            self.errors = tempfile.TemporaryFile()  # noqa: SIM115 - closed in close()
+        cmd = [sys.executable, "-m", "surveytools.worker", "--serve"]
+        if self.memory_bytes:
+            cmd += ["--memory-bytes", str(self.memory_bytes)]
+        self._buffer = b""
+        self.proc = subprocess.Popen(cmd, stdin=subprocess.PIPE, stdout=subprocess.PIPE,
+                                     stderr=self.errors, start_new_session=True)
+        return self.proc
+
+    def _readline(self, proc: subprocess.Popen[bytes], deadline: float) -> bytes | None:
+        """Return one output line, b"" at end of output, None when the deadline passed."""
+        import select
+
+        assert proc.stdout is not None
+        fd = proc.stdout.fileno()
+        while b"\n" not in self._buffer:
+            remaining = deadline - time.monotonic()
+            if remaining <= 0:
+                return None
+            ready, _, _ = select.select([fd], [], [], remaining)
+            if not ready:
+                return None
+            chunk = os.read(fd, 1 << 16)
+            if not chunk:
+                return b""
+            self._buffer += chunk
+        line, _, self._buffer = self._buffer.partition(b"\n")
+        return line
+
+    def _stderr_since(self, position: int) -> str:
+        if self.errors is None:
+            return ""
+        self.errors.seek(position)
+        text = self.errors.read()[-4000:].decode("utf-8", "replace")
+        self.errors.seek(0, os.SEEK_END)
+        return str(text)
+
+    def _discard(self) -> int | None:
+        proc, self.proc = self.proc, None
+        if proc is None:
+            return None
+        if proc.poll() is None:
+            proc.kill()
+        return proc.wait()
+
+    def run(self, job: dict[str, Any], timeout_s: float) -> dict[str, Any]:
+        """Run one job; never raises for a failing input."""
+        import pickle
+        import struct
+
+        path = Path(job["path"])
+        proc = self.proc if self.proc is not None and self.proc.poll() is None else self._start()
+        # The preflight runs here while a fresh worker is still importing its libraries.
+        job = dict(job, prepared=prepare(path, job.get("sha256")))
+        err_start = self.errors.seek(0, os.SEEK_END) if self.errors is not None else 0
+        deadline = time.monotonic() + timeout_s
+        data = pickle.dumps(job)
+        try:
+            assert proc.stdin is not None
+            proc.stdin.write(struct.pack(">Q", len(data)) + data)
+            proc.stdin.flush()
+        except (BrokenPipeError, OSError):
+            return _crash_failure(path, self._discard(), self._stderr_since(err_start))
+        line = self._readline(proc, deadline)
+        if line is None:
+            self._discard()
+            return _worker_failure(path, "worker-timeout",
+                                   f"processing took longer than {timeout_s:.0f} s and was "
+                                   "stopped; check the file is a genuine survey export, or "
+                                   "raise --timeout")
+        if line == b"":
+            return _crash_failure(path, self._discard(), self._stderr_since(err_start))
+        try:
+            outcome = dict(json.loads(line))
+        except ValueError:
+            return _crash_failure(path, self._discard(), self._stderr_since(err_start))
+        if "internal_error" in outcome:
+            return _crash_failure(path, 1, str(outcome["internal_error"]))
+        return outcome
+
+    def close(self) -> None:
+        """Let the worker finish (end of its input) and release its files."""
+        proc, self.proc = self.proc, None
+        if proc is not None and proc.poll() is None:
+            try:
+                assert proc.stdin is not None
+                proc.stdin.close()
+                proc.wait(timeout=10)
+            except (OSError, subprocess.TimeoutExpired):
+                proc.kill()
+                proc.wait()
+        if self.errors is not None:
+            self.errors.close()
+            self.errors = None
+
+
+def run_worker(job: dict[str, Any], timeout_s: float,
+               memory_bytes: int | None = DEFAULT_MEMORY_BYTES) -> dict[str, Any]:
+    """Run one job in a worker process of its own (used for single inputs and tests)."""
+    slot = WorkerSlot(memory_bytes)
+    try:
+        return slot.run(job, timeout_s)
+    finally:
+        slot.close()
 
 
 def load_manifest(out_dir: Path) -> dict[str, Any]:
@@ -370,23 +472,37 @@ def run_batch(options: BatchOptions, settings_key: str,
     done = 0
     lock = threading.Lock()
 
+    import queue
+
+    n_slots = max(1, min(options.jobs, len(jobs)))
+    slots: queue.Queue[WorkerSlot] = queue.Queue()
+    for _ in range(n_slots):
+        slots.put(WorkerSlot(options.memory_bytes))
+
     def one(job: dict[str, Any]) -> dict[str, Any]:
         nonlocal done
         if progress:
             with lock:
                 progress(done, total, Path(job["path"]).name)
-        outcome = run_worker(job, options.timeout_s)
+        slot = slots.get()
+        try:
+            outcome = slot.run(job, options.timeout_s)
+        finally:
+            slots.put(slot)
         with lock:
             done += 1
             if progress:
                 progress(done, total, Path(job["path"]).name)
         return outcome
 
+    outcomes: list[dict[str, Any]] = []
     if jobs:
-        with ThreadPoolExecutor(max_workers=max(1, options.jobs)) as pool:
-            outcomes = list(pool.map(one, jobs))
-    else:
-        outcomes = []
+        try:
+            with ThreadPoolExecutor(max_workers=n_slots) as pool:
+                outcomes = list(pool.map(one, jobs))
+        finally:
+            while not slots.empty():
+                slots.get().close()
 
     for job, outcome in zip(jobs, outcomes, strict=True):
         if options.mode == "run" and outcome.get("results_json") is None:

@@ -1,12 +1,13 @@
 """Worker process: runs one input's job under memory and time limits.
 
-The batch starts ``python -m surveytools.worker`` once per input. The worker first imports
-the heavy libraries (pandas, the readers, the writer) while the parent, at the same time,
-runs the stdlib-only preflight of the file; then it reads its job (a pickled dict from the
-parent, the same program) on standard input, applies the resource limits and writes one
-JSON line back on standard output. If a native reader aborts or the worker runs out of
-memory or time, only this process dies; the batch turns the exit status into a finding for
-that input and carries on with the others.
+The batch starts ``python -m surveytools.worker --serve`` for each of its job slots. The
+worker applies its memory limit, imports the heavy libraries (pandas, the readers, the
+writer) once — while the parent runs the stdlib-only preflight of the first input — and
+then serves jobs: each a length-prefixed pickled dict from the parent (the same program) on
+standard input, each answered by one JSON line on standard output. If a native reader
+aborts or the worker runs out of memory or time, only this process dies; the batch turns
+the exit status into a finding for the input it was working on, starts a fresh worker and
+carries on with the others.
 """
 
 from __future__ import annotations
@@ -58,15 +59,59 @@ def execute_job(job: dict[str, Any]) -> dict[str, Any]:
     return run_file(path, Path(job["out_dir"]), job["stem"], settings, prepared).to_json()
 
 
-def main() -> int:
-    """Warm up, read a job from stdin, run it, print the outcome as one JSON line."""
+def _read_exactly(stream: Any, n: int) -> bytes | None:
+    """Read ``n`` bytes, or None at the end of the input."""
+    data = b""
+    while len(data) < n:
+        chunk = stream.read(n - len(data))
+        if not chunk:
+            return None
+        data += chunk
+    return data
+
+
+def serve(stream_in: Any, stream_out: Any) -> int:
+    """Serve jobs until the input ends: each a length-prefixed pickle, each answered by a line.
+
+    A fault of ours while handling a job is answered as ``{"internal_error": ...}`` and the
+    worker goes on with the next job; a crash of a native library ends the process, which
+    the parent notices.
+    """
+    import struct
+
+    while True:
+        head = _read_exactly(stream_in, 8)
+        if head is None:
+            return 0
+        (length,) = struct.unpack(">Q", head)
+        payload = _read_exactly(stream_in, length)
+        if payload is None:
+            return 0
+        job = pickle.loads(payload)  # trusted: written by our own parent process
+        try:
+            outcome = execute_job(job)
+        except MemoryError:
+            raise
+        except Exception as exc:  # reported for this input only; the next job still runs
+            import traceback
+
+            traceback.print_exc(file=sys.stderr)
+            outcome = {"internal_error": f"{type(exc).__name__}: {str(exc)[:300]}"}
+        stream_out.write((json.dumps(outcome, allow_nan=False) + "\n").encode("utf-8"))
+        stream_out.flush()
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Apply the limits, warm up, then serve jobs from the parent (``--serve``)."""
+    import argparse
+
+    parser = argparse.ArgumentParser(prog="python -m surveytools.worker")
+    parser.add_argument("--serve", action="store_true", required=True)
+    parser.add_argument("--memory-bytes", type=int, default=None)
+    args = parser.parse_args(sys.argv[1:] if argv is None else argv)
+    limit_resources(args.memory_bytes, None)
     warm_up()
-    job = pickle.loads(sys.stdin.buffer.read())  # trusted: written by our own parent process
-    limit_resources(job.get("memory_bytes"), job.get("cpu_seconds"))
-    outcome = execute_job(job)
-    sys.stdout.write(json.dumps(outcome, allow_nan=False) + "\n")
-    sys.stdout.flush()
-    return 0
+    return serve(sys.stdin.buffer, sys.stdout.buffer)
 
 
 if __name__ == "__main__":

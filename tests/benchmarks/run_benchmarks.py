@@ -52,8 +52,8 @@ def generate(path: Path, n: int, step_ms: int, columns: tuple[str, ...], seed: i
     data = {"LAeq": laeq,
             "LAFmax": np.round(laeq + np.abs(rng.normal(2.5, 1.2, n)), 1),
             "LAFmin": np.round(laeq - np.abs(rng.normal(2.0, 1.0, n)), 1),
-            "LAF10": np.round(laeq + 1.5, 1), "LAF50": np.round(laeq - 0.5, 1),
-            "LAF90": np.round(laeq - 3.0, 1)}
+            "LAF50": np.round(laeq - 0.5, 1), "LAF90": np.round(laeq - 3.0, 1)}
+    data["LAF10"] = np.minimum(np.round(laeq + 1.5, 1), data["LAFmax"])
     # Excel serial days, rounded to the millisecond as the readers do.
     epoch = datetime(1899, 12, 30)
     serial0 = (START - epoch) / timedelta(days=1)
@@ -66,9 +66,10 @@ def generate(path: Path, n: int, step_ms: int, columns: tuple[str, ...], seed: i
     ws_s.write_row(0, 0, ["Field", "Value"])
     ws_s.write_row(1, 0, ["Position", f"BENCH-{seed}"])
     ws_s.write_row(2, 0, ["Time zone", "Europe/Berlin"])
-    ws_s.write_row(5, 0, ["Clock", "UTC"])  # generated instants are continuous UTC
     ws_s.write_row(3, 0, ["Calibration before (dB)", 94.0])
     ws_s.write_row(4, 0, ["Calibration after (dB)", 94.1])
+    # Rows in order (constant-memory mode). The generated instants are continuous UTC.
+    ws_s.write_row(5, 0, ["Clock", "UTC"])
     ws = wb.add_worksheet("Readings")
     ws.write_row(0, 0, ["Start", *[f"{c} (dB)" for c in columns]])
     cols = [data[c] for c in columns]
@@ -134,7 +135,7 @@ def main() -> int:
     scale = 10 if args.quick else 1
     files = {
         "week_1s": (work / f"week_1s{'_q' if args.quick else ''}.xlsx", 604_800 // scale, 1000,
-                    ("LAeq", "LAFmax", "LAFmin")),
+                    ("LAeq", "LAFmax", "LAFmin", "LAF90")),
         "day_100ms": (work / f"day_100ms{'_q' if args.quick else ''}.xlsx", 864_000 // scale,
                       100, ("LAeq",)),
         "month_15min": (work / "month_15min.xlsx", 2_880, 900_000,
