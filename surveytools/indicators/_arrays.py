@@ -54,6 +54,8 @@ def as_group_array(groups: ArrayLike, n_groups: int) -> NDArray[np.int64]:
     raw = np.asarray(groups)
     if raw.dtype.kind in "iu":
         out = raw.astype(np.int64)
+        if out.size == 0 or (int(out.min()) >= -1 and int(out.max()) < n_groups):
+            return out  # already -1 or in range
     else:
         as_float = as_float_array(raw)
         whole = np.isfinite(as_float) & (as_float == np.round(as_float))

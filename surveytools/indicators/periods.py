@@ -115,6 +115,9 @@ def split_at_boundaries(
     after_inside = np.searchsorted(bounds, ends, side="left")
     n_inside = np.maximum(after_inside - first_inside, 0)
     n_pieces = n_inside + 1
+    if not n_inside.any():  # no interval is cut: one piece each, as it is
+        return (np.arange(starts.size, dtype=np.int64), starts.copy(), durations.copy(),
+                first_inside.astype(np.int64))
 
     index = np.repeat(np.arange(starts.size, dtype=np.int64), n_pieces)
     offsets = np.cumsum(n_pieces) - n_pieces

@@ -253,3 +253,60 @@ def test_grouped_many_groups_wide_group_numbers():
     levels = (np.arange(n) % 70 + 20).astype(float)
     out = grouped_exceedance_levels(levels, None, np.arange(n)[::-1], n, [90])
     np.testing.assert_array_equal(out[:, 0], levels[::-1])
+
+
+@given(
+    st.lists(st.one_of(st.integers(min_value=-2000, max_value=2000), st.just(None)),
+             min_size=1, max_size=300),
+    st.sampled_from([10.0, 100.0, 3.0]),
+    st.booleans(),
+)
+def test_level_order_on_level_grids_is_numpy_stable_order(steps, per_db, add_infinity):
+    # 0.1 dB and 0.01 dB grids take the 16-bit path, 1/3 dB levels the general sort; NaN
+    # (None), -0.0 and infinities must land where numpy's stable argsort puts them
+    # (NumPy reference, numpy.argsort kind="stable", NaN sorted last)
+    levels = np.array([np.nan if k is None else k / per_db for k in steps])
+    levels[::7] = np.where(levels[::7] == 0, -0.0, levels[::7])
+    if add_infinity:
+        levels = np.concatenate([levels, [np.inf, -np.inf, 0.0]])
+    np.testing.assert_array_equal(level_order(levels), np.argsort(levels, kind="stable"))
+
+
+def test_level_order_grid_checked_beyond_the_first_values():
+    # the first 1024 levels are on the 0.1 dB grid, a later one is not (hand-made)
+    levels = np.r_[np.full(1500, 45.5), 45.55, np.full(10, 45.5), 45.45]
+    np.testing.assert_array_equal(level_order(levels), np.argsort(levels, kind="stable"))
+
+
+@given(
+    st.lists(
+        st.tuples(level_st, st.integers(min_value=1, max_value=600),
+                  st.integers(min_value=-1, max_value=5)),
+        min_size=1,
+        max_size=80,
+    )
+)
+def test_grouped_equals_per_group_with_inexact_durations(samples):
+    # tenths of a second are not exact binary fractions: the cumulative weights are
+    # restarted per group (padded path), still equal to the per-group function
+    levels, tenths, groups = (np.array(x) for x in zip(*samples, strict=True))
+    durations = tenths * 0.1
+    percents = [0, 10, 50, 90, 100]
+    out = grouped_exceedance_levels(levels, durations, groups, 6, percents)
+    for g in range(6):
+        sel = groups == g
+        np.testing.assert_array_equal(out[g],
+                                      exceedance_levels(levels[sel], percents, durations[sel]))
+
+
+def test_grouped_uneven_groups_inexact_durations_loop_path():
+    # one huge group and many one-sample groups with durations in tenths of a second:
+    # the per-group cumsum loop; the big group equals the per-group function
+    rng = np.random.default_rng(5)
+    big = rng.integers(30, 80, size=3000).astype(float)
+    levels = np.concatenate([big, np.arange(2000, dtype=float)])
+    groups = np.concatenate([np.zeros(3000, dtype=int), np.arange(1, 2001)])
+    durations = rng.integers(1, 600, size=levels.size) * 0.1
+    out = grouped_exceedance_levels(levels, durations, groups, 2001, [10, 90])
+    np.testing.assert_array_equal(out[0], exceedance_levels(big, [10, 90], durations[:3000]))
+    np.testing.assert_array_equal(out[1:, 0], np.arange(2000, dtype=float))

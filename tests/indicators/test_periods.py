@@ -230,3 +230,14 @@ def test_general_function_programming_errors():
 def test_no_overflow():
     # hand-evaluated: Lden(L, L-5, L-10) = L also at 4000 dB (naive 10**400 overflows).
     assert lden(4000.0, 3995.0, 3990.0) == pytest.approx(4000.0, abs=1e-9)
+
+
+def test_no_interval_cut_gives_one_piece_each():
+    # boundaries only on interval edges (or outside): nothing is cut; hand-evaluated
+    # segments = number of boundaries <= each start (numpy searchsorted side="right")
+    index, start, duration, segment = split_at_boundaries([0, 10, 20], [10, 10, 5],
+                                                          [-5, 10, 20, 40])
+    np.testing.assert_array_equal(index, [0, 1, 2])
+    np.testing.assert_array_equal(start, [0, 10, 20])
+    np.testing.assert_array_equal(duration, [10, 10, 5])
+    np.testing.assert_array_equal(segment, [1, 2, 3])
