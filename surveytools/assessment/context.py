@@ -70,23 +70,30 @@ class Context:
         self.shared["union"] = union
         self.shared["pieces"] = split(self.start_ms, self.duration_ms, union)
 
-    def _shared_segment(self, bounds_ms: IntArray, pieces: Pieces) -> IntArray | None:
-        """Segment of each shared piece in ``bounds_ms``, None if the bounds are not shared.
+    def _in_union(self, bounds_ms: IntArray) -> bool:
+        """Whether every bound is an instant of the shared union grid."""
+        union: IntArray | None = self.shared.get("union")
+        if union is None or union.size == 0:
+            return bounds_ms.size == 0 and union is not None
+        at = np.minimum(np.searchsorted(union, bounds_ms), union.size - 1)
+        return bool(np.array_equal(union[at], bounds_ms))
+
+    def _shared_group(self, bounds_ms: IntArray, pieces: Pieces) -> IntArray | None:
+        """Group of each shared piece in ``bounds_ms``, None if the bounds are not shared.
 
         Every bound is a union instant, so the bounds at or before a piece start are the
         bounds at or before the union instant opening the piece's union segment: one
         ``searchsorted`` of the union instants and one look-up per piece give the same
         segments as a ``searchsorted`` of every piece start.
         """
-        union: IntArray = self.shared["union"]
-        at = np.searchsorted(union, bounds_ms)
-        if np.any(at >= union.size) or not np.array_equal(union[np.minimum(at, union.size - 1)],
-                                                          bounds_ms):
+        if not self._in_union(bounds_ms):
             return None
+        union: IntArray = self.shared["union"]
         per_union = np.concatenate(
             ([0], np.searchsorted(bounds_ms, union, side="right"))).astype(np.int64)
-        segment: IntArray = per_union[pieces.segment]
-        return segment
+        # groups of the union segments, then one look-up per piece
+        group: IntArray = segment_groups(per_union, max(bounds_ms.size - 1, 0))[pieces.segment]
+        return group
 
     def pieces_in(self, bounds_ms: IntArray) -> tuple[Pieces, IntArray]:
         """Return reading pieces and their interval (between consecutive bounds; -1 outside)."""
@@ -95,10 +102,35 @@ class Context:
         if pieces is None:
             pieces = split(self.start_ms, self.duration_ms, bounds_ms)
             return pieces, segment_groups(pieces.segment, n_groups)
-        segment = self._shared_segment(bounds_ms, pieces)
-        if segment is None:
-            segment = np.searchsorted(bounds_ms, pieces.start_ms, side="right")
-        return pieces, segment_groups(segment, n_groups)
+        group = self._shared_group(bounds_ms, pieces)
+        if group is None:
+            group = segment_groups(np.searchsorted(bounds_ms, pieces.start_ms, side="right"),
+                                   n_groups)
+        return pieces, group
+
+    def touched_groups(self, bounds_ms: IntArray, pieces: Pieces, group: IntArray
+                       ) -> np.ndarray:
+        """Which intervals of ``bounds_ms`` hold at least one piece (``pieces_in`` output).
+
+        For the shared pieces and a grid of union instants the group is a function of the
+        union segment, so the groups of one piece per occupied union segment are enough.
+        """
+        touched = np.zeros(max(bounds_ms.size - 1, 0), dtype=bool)
+        if pieces is self.shared.get("pieces") and self._in_union(bounds_ms):
+            key = ("segment_first_piece", id(pieces))
+            cached = self.cache.get(key)
+            if cached is None or cached[0] is not pieces:
+                segment = pieces.segment
+                # pieces come in time order, so a segment's pieces mostly run together
+                change = np.flatnonzero(np.r_[True, segment[1:] != segment[:-1]])
+                _, first = np.unique(segment[change], return_index=True)
+                cached = (pieces, change[first])
+                self.cache[key] = cached
+            sample = group[cached[1]]
+        else:
+            sample = group
+        touched[sample[sample >= 0]] = True
+        return touched
 
     def piece_levels(self, pieces: Pieces) -> FloatArray:
         """LAeq of each piece (its reading's LAeq); computed once for the shared pieces."""

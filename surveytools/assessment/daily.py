@@ -80,8 +80,7 @@ def assess_scheme(ctx: Context, times: list[str]) -> SchemeResult:
     levels, durations_s, chosen = ctx.valid_pieces(pieces)
     level, valid_s = grouped_energy_average_and_duration(
         levels, durations_s, group[chosen], n_groups)
-    touched_groups = np.zeros(n_groups, dtype=bool)
-    touched_groups[group[group >= 0]] = True
+    touched_groups = ctx.touched_groups(bounds, pieces, group)
     result = SchemeResult(
         level_db=level.reshape(n_days, N_PERIODS),
         valid_s=valid_s.reshape(n_days, N_PERIODS),
@@ -168,7 +167,8 @@ def night_events(ctx: Context, bounds_ms: IntArray, n_days: int) -> tuple[IntArr
     # only the values are kept, so the order among equal values does not matter: a quick
     # sort of the values, then a stable sort by day (a radix sort of small integers)
     by_value = np.argsort(-values)
-    order = by_value[np.argsort(day[by_value].astype(np.int32), kind="stable")]
+    small = np.int16 if n_days <= np.iinfo(np.int16).max else np.int64
+    order = by_value[np.argsort(day[by_value].astype(small), kind="stable")]
     day_sorted = day[order]
     per_day = np.bincount(day_sorted, minlength=n_days)
     first = np.cumsum(per_day) - per_day

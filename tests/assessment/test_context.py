@@ -59,3 +59,17 @@ def test_valid_pieces_and_orders(scope):
     # reference: numpy stable argsort (NumPy reference, kind="stable")
     np.testing.assert_array_equal(ctx.laeq_order(), np.argsort(laeq, kind="stable"))
     np.testing.assert_array_equal(ctx.piece_order(pieces), np.argsort(levels, kind="stable"))
+
+
+def test_touched_groups_are_the_groups_holding_pieces():
+    ctx, _ = _context()
+    day = 86_400_000
+    grid = np.arange(int(ctx.start_ms[0]) // day * day, int(ctx.end_ms[-1]) + day, 1_800_000)
+    ctx.share_boundaries([grid])
+    sub = grid[::5]  # a coarser grid made of union instants
+    for bounds in (grid, sub, sub + 1):  # the last one is not shared
+        pieces, group = ctx.pieces_in(bounds)
+        n_groups = bounds.size - 1
+        expected = np.zeros(n_groups, bool)
+        expected[np.unique(group[group >= 0])] = True  # reference: numpy unique
+        np.testing.assert_array_equal(ctx.touched_groups(bounds, pieces, group), expected)
