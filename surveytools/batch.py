@@ -258,7 +258,7 @@ def prepare(path: Path, sha256: str | None) -> Any:
 def _crash_failure(path: Path, rc: int | None, err: str) -> dict[str, Any]:
     """Map a dead worker's exit status and last words to a located failure."""
     tail = err.strip().splitlines()[-1][:300] if err.strip() else ""
-    if rc in (-6, 134) or "memory allocation" in err or "MemoryError" in err:
+    if rc in (-6, 134) or any(sign in err for sign in OUT_OF_MEMORY_SIGNS):
         code, msg = ("worker-out-of-memory",
                      "reading this file needed more memory than allowed and was stopped; the file "
                      "may be damaged or hostile (a huge sparse sheet)")
@@ -271,6 +271,21 @@ def _crash_failure(path: Path, rc: int | None, err: str) -> dict[str, Any]:
     if tail:
         msg = f"{msg} [{tail}]"
     return _worker_failure(path, code, msg)
+
+
+def _close_pipes(proc: subprocess.Popen[bytes]) -> None:
+    import contextlib
+
+    for stream in (proc.stdin, proc.stdout):
+        if stream is not None:
+            with contextlib.suppress(OSError):
+                stream.close()
+
+
+#: What a worker's last words say when it ran out of memory (Python, Rust, the C library).
+OUT_OF_MEMORY_SIGNS = ("MemoryError", "memory allocation", "Cannot allocate memory",
+                       "cannot allocate memory", "[Errno 12]", "std::bad_alloc",
+                       "failed to map segment")
 
 
 class WorkerSlot:
@@ -335,7 +350,9 @@ class WorkerSlot:
             return None
         if proc.poll() is None:
             proc.kill()
-        return proc.wait()
+        rc = proc.wait()
+        _close_pipes(proc)
+        return rc
 
     def run(self, job: dict[str, Any], timeout_s: float) -> dict[str, Any]:
         """Run one job; never raises for a failing input."""
@@ -375,14 +392,15 @@ class WorkerSlot:
     def close(self) -> None:
         """Let the worker finish (end of its input) and release its files."""
         proc, self.proc = self.proc, None
-        if proc is not None and proc.poll() is None:
+        if proc is not None:
             try:
-                assert proc.stdin is not None
-                proc.stdin.close()
+                if proc.stdin is not None:
+                    proc.stdin.close()
                 proc.wait(timeout=10)
             except (OSError, subprocess.TimeoutExpired):
                 proc.kill()
                 proc.wait()
+            _close_pipes(proc)
         if self.errors is not None:
             self.errors.close()
             self.errors = None

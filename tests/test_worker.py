@@ -1,0 +1,78 @@
+"""Worker isolation: a worker that dies or stalls fails only the input it was working on."""
+
+from __future__ import annotations
+
+import os
+import signal
+import threading
+import time
+from pathlib import Path
+
+import pytest
+
+from surveytools.batch import WorkerSlot
+from surveytools.demo import POSITIONS, write_demo
+from tests.workbooks import survey_workbook
+
+pytestmark = pytest.mark.slow
+
+
+def job(path: Path, out: Path) -> dict[str, object]:
+    out.mkdir(exist_ok=True)
+    return {"mode": "run", "path": str(path), "out_dir": str(out), "stem": path.stem,
+            "settings_path": None, "include_readings": False, "sha256": None}
+
+
+@pytest.fixture(scope="module")
+def long_log(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    # The demo's 1-s position: a day of 86,400 readings, long enough to stop mid-way.
+    folder = tmp_path_factory.mktemp("demo")
+    write_demo(folder)
+    return folder / next(p.file for p in POSITIONS if p.step_s == 1.0)
+
+
+def test_a_stalled_input_times_out_and_the_next_input_still_runs(tmp_path: Path,
+                                                                 long_log: Path) -> None:
+    good = survey_workbook(tmp_path / "good.xlsx")
+    slot = WorkerSlot(memory_bytes=None)
+    try:
+        slow = slot.run(job(long_log, tmp_path / "o"), timeout_s=0.2)
+        assert [f["code"] for f in slow["findings"]] == ["worker-timeout"]
+        assert slow["status"] == "unreadable"
+        after = slot.run(job(good, tmp_path / "o"), timeout_s=120)
+        assert after["status"] == "ok"
+    finally:
+        slot.close()
+
+
+def test_a_worker_killed_mid_input_fails_that_input_only(tmp_path: Path, long_log: Path) -> None:
+    good = survey_workbook(tmp_path / "good.xlsx")
+    slot = WorkerSlot(memory_bytes=None)
+    try:
+        warm = slot.run(job(good, tmp_path / "o"), timeout_s=120)  # the worker is now warm
+        assert warm["status"] == "ok"
+        assert slot.proc is not None
+        pid = slot.proc.pid
+
+        def kill_soon() -> None:
+            time.sleep(0.5)
+            os.kill(pid, signal.SIGKILL)
+
+        threading.Thread(target=kill_soon).start()
+        killed = slot.run(job(long_log, tmp_path / "o"), timeout_s=120)
+        assert [f["code"] for f in killed["findings"]] == ["worker-killed"]
+        again = slot.run(job(good, tmp_path / "o"), timeout_s=120)
+        assert again["status"] == "ok"
+    finally:
+        slot.close()
+
+
+def test_a_worker_over_its_memory_limit_is_reported_as_such(tmp_path: Path) -> None:
+    good = survey_workbook(tmp_path / "good.xlsx")
+    # 150 MiB of address space cannot even hold the imported libraries.
+    slot = WorkerSlot(memory_bytes=150 * 1024**2)
+    try:
+        outcome = slot.run(job(good, tmp_path / "o"), timeout_s=120)
+    finally:
+        slot.close()
+    assert [f["code"] for f in outcome["findings"]] == ["worker-out-of-memory"]
