@@ -173,12 +173,32 @@ def test_demo_then_run_exits_0_with_warnings_only(tmp_path: Path) -> None:
     assert "warnings" in statuses
 
 
-def test_template_writes_a_workbook_the_checker_reads(tmp_path: Path) -> None:
+def test_template_filled_in_as_a_technician_would_checks_clean(tmp_path: Path) -> None:
+    from datetime import datetime, timedelta
+
     proc = run_cli("template", "blank.xlsx", cwd=tmp_path)
     assert proc.returncode == 0
     wb = openpyxl.load_workbook(tmp_path / "blank.xlsx")
     assert {"Guidance", "Survey", "Readings", "Weather", "Exclusions"} <= set(wb.sheetnames)
     assert wb["Survey"].data_validations.dataValidation  # drop-down lists present
+    # Fill in the Survey values and six readings; leave Weather and Exclusions empty.
+    survey = wb["Survey"]
+    values = {"Position": "T1", "Site": "Template test (invented)", "Time zone": "UTC",
+              "Clock": "UTC", "Calibration before (dB)": 94.0,
+              "Calibration after (dB)": 94.1, "Calibrator level (dB)": 94.0}
+    for row in survey.iter_rows(min_row=2):
+        if row[0].value in values:
+            row[1].value = values[row[0].value]
+    readings = wb["Readings"]
+    start = datetime(2026, 5, 4, 8, 0)
+    for i in range(6):
+        readings.cell(row=2 + i, column=1, value=start + timedelta(minutes=15 * i))
+        readings.cell(row=2 + i, column=2, value=900)
+        readings.cell(row=2 + i, column=3, value=55.0 + i)
+    wb.save(tmp_path / "filled.xlsx")
+    checked = run_cli("check", "filled.xlsx", "--settle", "0", cwd=tmp_path)
+    assert checked.returncode == 0, checked.stdout + checked.stderr
+    assert "filled.xlsx: ok" in checked.stdout
 
 
 def test_version_is_fast_to_start(tmp_path: Path) -> None:

@@ -422,7 +422,8 @@ def _weather(table: RawTable, settings: Settings, clock: tb.Clock, collector: Fi
     ck.check_time_order(rows, start, times.letter, cols.where, collector)
     order = np.argsort(start, kind="stable")
     start, rows, placed = start[order], rows[order], placed[order]
-    dup = np.r_[False, start[1:] == start[:-1]]
+    dup = np.zeros(start.size, dtype=bool)  # also right for a sheet with no weather rows
+    dup[1:] = start[1:] == start[:-1]
     if dup.any():
         collector.add_rows("timestamp-duplicate", Severity.ERROR, table.sheet, rows[dup],
                            times.letter,
