@@ -129,6 +129,23 @@ STATUS_WORDS = {"ok": "ok", "warnings": "ok with warnings", "errors": "has error
                 "unreadable": "could not be read", "skipped": "skipped", "deferred": "deferred"}
 
 
+def _headline(outcome: dict[str, Any]) -> str:
+    """One line of figures for a processed input: position, Lden, coverage, criteria."""
+    row = outcome.get("overview") or {}
+    parts = []
+    if row.get("position"):
+        parts.append(str(row["position"]))
+    lden = (row.get("survey_average") or {}).get("Lden")
+    if lden is not None:
+        parts.append(f"Lden {lden:.1f} dB (survey average)")
+    fraction = (row.get("coverage") or {}).get("valid_fraction")
+    if fraction is not None and row.get("measured_s"):
+        parts.append(f"{100 * fraction:.1f} % of {row['measured_s'] / 3600:.1f} h valid")
+    if row.get("criteria_checked"):
+        parts.append(f"criteria: {row['criteria_not_met']} of {row['criteria_checked']} not met")
+    return "; ".join(parts)
+
+
 def _render_findings(out: TextIO, outcome: dict[str, Any], limit: int | None) -> None:
     from surveytools.validation.findings import Finding, Severity
 
@@ -189,7 +206,9 @@ def execute_run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
                 if args.watch and (o["path"] in seen):
                     continue
                 reused = " (unchanged since the last run; results kept)" if o.get("reused") else ""
-                out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}{reused}\n")
+                headline = _headline(o)
+                out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}{reused}"
+                          + (f" - {headline}" if headline else "") + "\n")
                 if not o.get("reused"):
                     _render_findings(out, o, limit=5)
             for s in result.skipped:

@@ -171,6 +171,10 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
                        "night": (background.get("night") or {}).get("LA90")},
         "worst_excess_over_background": max(excesses) if excesses else None,
         "criteria_failed": sum(int(c.get("failed") or 0) for c in doc.get("criteria") or []),
+        "criteria_not_met": sum(1 for c in doc.get("criteria") or [] if c.get("passed") is False),
+        "criteria_checked": sum(1 for c in doc.get("criteria") or []
+                                if c.get("passed") is not None),
+        "measured_s": measured,
         "findings": _totals(doc.get("findings") or []),
         "reason": reason,
     }
