@@ -171,6 +171,14 @@ def test_demo_then_run_exits_0_with_warnings_only(tmp_path: Path) -> None:
     statuses = sorted(r["status"] for r in overview["inputs"])
     assert statuses and set(statuses) <= {"ok", "warnings"}
     assert "warnings" in statuses
+    # Every file written validates against the published schemas (the JSON contract).
+    from surveytools.io.results_json import validate_overview, validate_results
+
+    assert validate_overview(overview) == []
+    for path in sorted((tmp_path / "res").glob("*.results.json")):
+        assert validate_results(json.loads(path.read_text())) == [], path.name
+    # Each input's line carries its headline figures.
+    assert run.stdout.count("Lden ") == len(statuses) and "criteria:" in run.stdout
 
 
 def test_template_filled_in_as_a_technician_would_checks_clean(tmp_path: Path) -> None:
