@@ -195,10 +195,17 @@ class Context:
         return int(self.start_ms.size)
 
     def level(self, column: str) -> FloatArray | None:
-        """Level column as float array, None when the survey has no such column."""
+        """Level column as float array (read-only, taken once), None without such column."""
         if column not in self.survey.readings.columns:
             return None
-        return self.survey.readings[column].to_numpy(dtype=np.float64, na_value=np.nan)
+        key = ("level", column)
+        values: FloatArray | None = self.cache.get(key)
+        if values is None:
+            values = self.survey.readings[column].to_numpy(dtype=np.float64, na_value=np.nan,
+                                                           copy=True)
+            values.setflags(write=False)
+            self.cache[key] = values
+        return values
 
     def logged(self, column: str) -> FloatArray | None:
         """Level column if it holds at least one finite value, else None."""
