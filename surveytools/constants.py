@@ -280,3 +280,8 @@ CELL_MAX_CHARS = 32_767
 #: Tolerance when checking LAFmax >= LAeq >= LAF90 >= LAFmin on one logged interval [dB].
 #: Common practice: meters print levels to 0.1 dB, so half a display step is rounding.
 LEVEL_ORDER_TOLERANCE_DB = 0.05
+
+#: Decimals to which levels are reported, and at which criteria are judged: a figure
+#: fails when its reported value (rounded half up) is above the limit. Common practice
+#: (compliance is judged on the reported figure; reports give levels to 0.1 dB).
+REPORTED_LEVEL_DECIMALS = 1

@@ -67,6 +67,13 @@ indicator = "Lden"
 limit_db = 55.0
 
 [[criteria]]
+name = "Daytime hourly level"
+indicator = "LAeq"
+period = "day"
+interval = "1h"
+limit_db = 60.0
+
+[[criteria]]
 name = "Plant rating over background"
 indicator = "excess_over_background"
 limit_db = 5.0

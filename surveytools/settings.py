@@ -159,7 +159,9 @@ class Criterion:
     ``indicator``: ``Lday``, ``Levening``, ``Lnight``, ``Lden``, ``Ldn``, ``CNEL``,
     ``LAeq_16h``, ``LAeq_8h`` (per assessment day), ``LAeq`` or ``LAFmax`` per reporting
     interval (``period`` chooses ``day``/``evening``/``night``/``any``), or
-    ``excess_over_background`` / ``rating_level`` (per assessment).
+    ``excess_over_background`` / ``rating_level`` (per assessment). ``interval_s`` checks
+    LAeq or LAFmax over a longer interval than the reporting one (e.g. LAeq,1h with 15-min
+    reporting): a whole multiple of the reporting interval that divides a day.
     """
 
     indicator: str
@@ -167,6 +169,7 @@ class Criterion:
     period: str = "any"
     name: str | None = None
     position: str | None = None
+    interval_s: float | None = None
 
 
 @dataclass(frozen=True)
@@ -601,9 +604,16 @@ def _build(data: Mapping[str, Any]) -> tuple[Settings, list[tuple[str, str]]]:
     criteria = tuple(
         Criterion(indicator=str(k["indicator"]), limit_db=float(k["limit_db"]),
                   period=str(k.get("period", "any")), name=k.get("name"),
-                  position=k.get("position"))
+                  position=k.get("position"),
+                  interval_s=(_duration_s(k["interval"]) if "interval" in k
+                              else None if k.get("interval_s") is None
+                              else float(k["interval_s"])))
         for k in data.get("criteria", [])
     )
+    for i, k in enumerate(data.get("criteria", []), start=1):
+        if "interval" in k and k.get("interval_s") is not None:
+            problems.append((f"criteria[{i}].interval",
+                             "give the interval once: 'interval' or 'interval_s', not both"))
 
     problems += _column_map_problems(data.get("columns", {}))
 

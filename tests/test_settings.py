@@ -351,3 +351,18 @@ def test_settings_sha256_is_hash_of_canonical_json():
     assert settings_sha256(changed) != settings_sha256(s)
     assert settings_sha256(settings_from_dict(s.to_dict())) == settings_sha256(s)
 
+
+
+def test_criterion_over_a_longer_interval(tmp_path: Path) -> None:
+    # ISO 80000-3: 1 h = 3600 s. The example of the issue: "LAeq,1h day <= 55".
+    path = tmp_path / "c.toml"
+    path.write_text('[[criteria]]\nindicator = "LAeq"\nlimit_db = 55\nperiod = "day"\n'
+                    'interval = "1h"\n', encoding="utf-8")
+    settings = load_settings(path)
+    (criterion,) = settings.criteria
+    assert criterion.interval_s == 3600.0
+    assert settings_from_mapping(settings_to_mapping(settings)) == settings
+    path.write_text('[[criteria]]\nindicator = "LAeq"\nlimit_db = 55\ninterval = "1h"\n'
+                    'interval_s = 3600\n', encoding="utf-8")
+    with pytest.raises(SettingsError, match=r"criteria\[1\]\.interval: give the interval once"):
+        load_settings(path)

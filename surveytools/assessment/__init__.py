@@ -74,7 +74,7 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
     assessments = assessments_section(ctx, background)
     criteria = criteria_section(
         settings.criteria, survey.metadata.get("position"), days, intervals, assessments,
-        settings.percentiles,
+        settings.percentiles, settings.reporting_interval_s, settings.coverage_threshold,
     )
     return {
         "survey": survey_section(survey),

@@ -405,8 +405,15 @@ def _write_summary(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
         for c in criteria[:_SUMMARY_MAX_LIST]:
             failed = c.get("passed") is False
             sw.text(row, 0, c.get("name") or c.get("indicator"), "text", measure=False)
-            sw.text(row, 1, f"{c.get('indicator')}, {c.get('period')}", "text",
-                    measure=False)
+            indicator = str(c.get("indicator"))
+            shown_name = dict(DAY_INDICATORS).get(indicator, indicator.replace("_", " "))
+            interval_s = finite_number(c.get("interval_s"))
+            if interval_s:
+                shown_name += "," + (f"{interval_s / 3600:g}h" if interval_s % 3600 == 0
+                                     else f"{interval_s / 60:g}min")
+            period = c.get("period")
+            sw.text(row, 1, shown_name if period in (None, "any") else f"{shown_name}, {period}",
+                    "text", measure=False)
             sw.number(row, 2, c.get("limit_db"), "level")
             sw.text(row, 3, f"{c.get('checked')} / {c.get('failed')}", "text", measure=False)
             outcome = {True: "pass", False: "FAIL"}.get(c.get("passed"), "not checked")
@@ -425,6 +432,8 @@ def _write_summary(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
                             "Provenance sheet settings", "note", measure=False)
             row += 1
     row += 1
+
+    row = _write_summary_days(sw, doc, row)
 
     # findings
     counts = severity_counts(doc.get("findings") or [], doc.get("finding_counts"))
@@ -448,6 +457,48 @@ def _write_summary(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
 
 
 _STATUS_STYLES = {"st_ok", "st_warnings", "st_errors", "st_unreadable"}
+
+#: Assessment days listed on the Summary (the Days sheet has them all).
+_SUMMARY_MAX_DAYS = 10
+
+
+def _write_summary_days(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
+    """Per-day period levels on the Summary: the four EU indicators, then the rest as text."""
+    days = list(doc.get("days") or [])
+    sw.text(row, 0, "Day by day", "subtitle", measure=False)
+    row += 1
+    if not days:
+        sw.text(row, 0, "no assessment days", "note", measure=False)
+        return row + 2
+    sw.header(row, 0, ["Assessment day", "Lday [dB]", "Levening [dB]", "Lnight [dB]",
+                       "Lden [dB]", "Ldn, LAeq,16h, LAeq,8h [dB]; valid time day / evening / "
+                       "night"])
+    row += 1
+    threshold = finite_number(_get(doc, "settings", "coverage_threshold"))
+    for day in days[:_SUMMARY_MAX_DAYS]:
+        sufficient = day.get("sufficient") or {}
+        sw.text(row, 0, day.get("date"), "text", measure=False)
+        for col, key in enumerate(("Lday", "Levening", "Lnight", "Lden"), start=1):
+            style = "level" if sufficient.get(key, True) else "level_grey"
+            sw.number(row, col, _round1(day.get(key)), style)
+        cov = day.get("coverage") or {}
+        others = ", ".join(f"{name} {_db_text(day.get(key)).removesuffix(' dB')}"
+                           for key, name in (("Ldn", "Ldn"), ("LAeq_16h", "LAeq,16h"),
+                                             ("LAeq_8h", "LAeq,8h")))
+        shares = " / ".join("n/a" if finite_number(cov.get(k)) is None
+                            else f"{100 * float(cov[k]):.0f} %"
+                            for k in ("day", "evening", "night"))
+        text = f"{others}; {shares}"
+        if not all(sufficient.get(k, True) for k in ("Lday", "Levening", "Lnight", "Lden")):
+            limit = f" {100 * threshold:.0f} %" if threshold is not None else ""
+            text += f" (grey: below the{limit} coverage threshold, indicative only)"
+        sw.text(row, 5, text, "text", measure=False)
+        row += 1
+    if len(days) > _SUMMARY_MAX_DAYS:
+        sw.text(row, 0, f"... and {len(days) - _SUMMARY_MAX_DAYS} more days: see the Days "
+                        "sheet", "note", measure=False)
+        row += 1
+    return row + 1
 
 
 def _round1(value: object) -> float | None:

@@ -26,7 +26,45 @@ def test_day_criterion_counts() -> None:
     result = assess(two_days(), Settings(criteria=(Criterion("Lday", 55.0, name="WHO"),)))
     (c,) = result["criteria"]
     assert (c["applies_to"], c["checked"], c["failed"], c["passed"]) == ("day", 2, 1, False)
-    assert c["failures"] == [{"when": "2026-06-11", "value": 58.0, "sufficient": True}]
+    assert c["failures"] == [{"when": "2026-06-11", "value": 58.0, "reported": 58.0,
+                              "sufficient": True}]
+
+
+@pytest.mark.parametrize(("level", "fails"), [(45.04, False), (45.05, True), (45.1, True)])
+def test_a_figure_is_judged_at_its_reported_precision(level: float, fails: bool) -> None:
+    # Common practice: compliance is judged on the figure as reported (0.1 dB, rounded half
+    # up): 45.04 -> 45.0 meets a 45 dB limit, 45.05 -> 45.1 does not.
+    t = local_ms("2026-06-10 23:00")
+    survey = build_survey([t + h * HOUR_MS for h in range(8)], 3600, {"LAeq": [level] * 8})
+    (c,) = assess(survey, Settings(criteria=(Criterion("Lnight", 45.0),)))["criteria"]
+    assert c["failed"] == (1 if fails else 0)
+
+
+def test_laeq_over_one_hour_from_quarter_hours() -> None:
+    # An LAeq,1h criterion with 15-min reporting: each hour is the energy average of its four
+    # quarters. Hand-evaluated: quarters 50, 50, 50, 62 dB -> 10 lg((3*10^5 + 10^6.2)/4)
+    # = 10 lg(1 884 893 / 4) = 56.73 dB > 55 (fails), though only one quarter is above 55.
+    t = local_ms("2026-06-10 10:00")
+    starts = [t + k * 900_000 for k in range(8)]
+    survey = build_survey(starts, 900, {"LAeq": [50.0, 50.0, 50.0, 62.0] + [50.0] * 4})
+    crit = Criterion("LAeq", 55.0, period="day", interval_s=3600.0, name="LAeq,1h day")
+    (c,) = assess(survey, Settings(criteria=(crit,)))["criteria"]
+    assert (c["checked"], c["failed"], c["interval_s"]) == (2, 1, 3600.0)
+    (failure,) = c["failures"]
+    assert failure["when"].startswith("2026-06-10T10:00:00")
+    assert failure["value"] == pytest.approx(56.73, abs=0.005)
+
+
+def test_longer_interval_must_be_a_multiple_of_the_reporting_interval() -> None:
+    crit = Criterion("LAeq", 55.0, interval_s=1000.0, name="odd")
+    with pytest.raises(SettingsError, match="whole multiple of the reporting interval"):
+        assess(two_days(), Settings(criteria=(crit,)))
+
+
+def test_percentile_criteria_cannot_use_a_longer_interval() -> None:
+    crit = Criterion("LA90", 40.0, interval_s=3600.0, name="bg")
+    with pytest.raises(SettingsError, match="only LAeq and LAFmax"):
+        assess(two_days(), Settings(criteria=(crit,)))
 
 
 def test_interval_criterion_with_period_filter_and_pass() -> None:
