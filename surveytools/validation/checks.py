@@ -137,7 +137,7 @@ def read_numbers(
         rejected[pos[~is_marker]] = True
         marker[pos[is_marker]] = True
         if is_marker.any():
-            tm = t[is_marker].tolist()
+            tm = t[is_marker].iloc[:collector.room(f"{code_prefix}-overload-marker")].tolist()
             collector.add_rows(
                 f"{code_prefix}-overload-marker", Severity.WARNING, where.sheet,
                 pos[is_marker] + rows0, col.letter,
@@ -145,8 +145,9 @@ def read_numbers(
                  "the cell counts as empty" for v in tm])
         bad = ~is_marker
         if bad.any():
-            tb = t[bad].tolist()
-            cb = comma[bad]
+            room = collector.room(f"{code_prefix}-not-a-number")
+            tb = t[bad].iloc[:room].tolist()
+            cb = comma[bad][:room]
             msgs = [
                 (f"'{_clip(v)}' is not {what} in {unit} — a decimal comma was found: write "
                  f"{v.strip().replace(',', '.')} (decimal point) or set the column's cells "
@@ -276,7 +277,8 @@ def read_flags(col: RawColumn, n: int, where: Where, collector: FindingCollector
                 "flag-not-yes-no", Severity.WARNING, where.sheet, pos[unknown] + where.first_row,
                 col.letter,
                 [f"'{_clip(v)}' is not yes or no — write yes/no (or 1/0, true/false, x for "
-                 "yes); the cell is treated as not stated" for v in texts[unknown].tolist()])
+                 "yes); the cell is treated as not stated"
+                 for v in texts[unknown].iloc[:collector.room("flag-not-yes-no")].tolist()])
     if col.error_cells:
         pos = _positions(col.error_cells)
         collector.add_rows("cell-error-value", Severity.ERROR, where.sheet,

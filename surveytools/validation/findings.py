@@ -154,8 +154,10 @@ class FindingCollector:
         rows : array-like of int
             Spreadsheet row numbers that failed the check.
         messages : str or sequence of str
-            One message for all rows, or one per row (only the first ``max_per_code`` are
-            formatted by callers that build them lazily).
+            One message for all rows, or one per row. Only the first :meth:`room` rows are
+            stored, so a per-row sequence need hold only that many messages (build them for
+            ``rows[:collector.room(code)]``: a column of 600,000 bad cells must not cost
+            600,000 formatted messages).
         """
         import numpy as np
 
@@ -169,6 +171,10 @@ class FindingCollector:
             msg = messages if isinstance(messages, str) else messages[i]
             self._items.append(Finding(code, severity, msg, sheet, int(rows_arr[i]), column))
         self._counts[code] += n
+
+    def room(self, code: str) -> int:
+        """Return how many more findings of ``code`` will be stored (the rest are counted)."""
+        return max(self.max_per_code - self._counts[code], 0)
 
     @property
     def counts(self) -> dict[str, int]:

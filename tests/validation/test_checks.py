@@ -80,3 +80,17 @@ def test_calibration_checks():
                                      "calibrator_level_db": 100.0}, loc, rules, c)
     # 100 dB is 4 dB from 104 and 6 dB from 94: beyond the 0.5 dB tolerance (common practice)
     assert [(f.row, f.code) for f in c.findings()] == [(9, "calibrator-level-unusual")]
+
+
+def test_messages_are_built_only_for_the_findings_that_are_kept():
+    # A whole column of text: every cell is counted, only the first max_per_code are listed,
+    # and the per-row messages handed over need cover only those.
+    from surveytools.validation.findings import FindingCollector
+
+    c = FindingCollector(max_per_code=3)
+    col = text_col("LAeq", "B", ["n/a"] * 1000)
+    ck.read_numbers(col, 1000, WHERE, c, what="a level", unit="dB", code_prefix="level")
+    assert c.counts["level-not-a-number"] == 1000
+    assert c.room("level-not-a-number") == 0
+    kept = [f for f in c.findings() if f.code == "level-not-a-number"]
+    assert [f.row for f in kept] == [WHERE.first_row, WHERE.first_row + 1, WHERE.first_row + 2]
