@@ -178,7 +178,7 @@ class Output:
 
     #: Annotated readings are written to the results workbook up to this many rows
     #: (larger logs: exclusion spans only, unless ``--readings`` is given).
-    readings_row_limit: int = 50_000
+    readings_row_limit: int = C.READINGS_ROW_LIMIT
     include_readings: bool = False
 
 

@@ -41,7 +41,7 @@ class Finding:
     Parameters
     ----------
     code : str
-        Stable kebab-case code, documented in :data:`CODES`.
+        Stable kebab-case code, documented in :data:`surveytools.codes.CODES`.
     severity : Severity
         error, warning or info.
     message : str
