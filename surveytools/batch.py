@@ -285,7 +285,18 @@ def _close_pipes(proc: subprocess.Popen[bytes]) -> None:
 #: What a worker's last words say when it ran out of memory (Python, Rust, the C library).
 OUT_OF_MEMORY_SIGNS = ("MemoryError", "memory allocation", "Cannot allocate memory",
                        "cannot allocate memory", "[Errno 12]", "std::bad_alloc",
-                       "failed to map segment")
+                       "failed to map segment", "Memory allocation still failed")
+
+
+#: glibc malloc tuning for the workers: keep freed memory for reuse instead of returning it
+#: to the system and faulting fresh pages in for every large numpy array (on the project's
+#: virtual machines a 7 MB temporary cost ~15 ms in page faults; validation of 864,000 rows
+#: went from 0.55 s to 0.33 s). Ignored by other C libraries.
+WORKER_MALLOC_ENV = {
+    "MALLOC_MMAP_THRESHOLD_": str(32 * 1024 * 1024),
+    "MALLOC_TRIM_THRESHOLD_": str(1024 * 1024 * 1024),
+    "MALLOC_TOP_PAD_": str(64 * 1024 * 1024),
+}
 
 
 class WorkerSlot:
@@ -302,6 +313,7 @@ class WorkerSlot:
         self.proc: subprocess.Popen[bytes] | None = None
         self.errors: Any = None
         self._buffer = b""
+        self.used = False
 
     def _start(self) -> subprocess.Popen[bytes]:
         import tempfile
@@ -312,9 +324,15 @@ class WorkerSlot:
         if self.memory_bytes:
             cmd += ["--memory-bytes", str(self.memory_bytes)]
         self._buffer = b""
+        env = {**WORKER_MALLOC_ENV, **os.environ}  # a user's own malloc settings win
         self.proc = subprocess.Popen(cmd, stdin=subprocess.PIPE, stdout=subprocess.PIPE,
-                                     stderr=self.errors, start_new_session=True)
+                                     stderr=self.errors, start_new_session=True, env=env)
         return self.proc
+
+    def start_early(self) -> None:
+        """Start the worker now, so its imports overlap the parent's own preparations."""
+        if self.proc is None:
+            self._start()
 
     def _readline(self, proc: subprocess.Popen[bytes], deadline: float) -> bytes | None:
         """Return one output line, b"" at end of output, None when the deadline passed."""
@@ -360,6 +378,7 @@ class WorkerSlot:
         import struct
 
         path = Path(job["path"])
+        self.used = True
         proc = self.proc if self.proc is not None and self.proc.poll() is None else self._start()
         # The preflight runs here while a fresh worker is still importing its libraries.
         job = dict(job, prepared=prepare(path, job.get("sha256")))
@@ -392,6 +411,8 @@ class WorkerSlot:
     def close(self) -> None:
         """Let the worker finish (end of its input) and release its files."""
         proc, self.proc = self.proc, None
+        if proc is not None and not self.used:  # started early but never needed
+            proc.kill()
         if proc is not None:
             try:
                 if proc.stdin is not None:
@@ -446,6 +467,17 @@ def run_batch(options: BatchOptions, settings_key: str,
               progress: Callable[[int, int, str], None] | None = None) -> BatchResult:
     """Process every input of ``options``; never raises for a bad input."""
     result = BatchResult()
+    first_slot = WorkerSlot(options.memory_bytes)
+    first_slot.start_early()  # its imports overlap discovery, settling, hashing, preflight
+    try:
+        return _run_batch(options, settings_key, progress, result, first_slot)
+    finally:
+        first_slot.close()
+
+
+def _run_batch(options: BatchOptions, settings_key: str,
+               progress: Callable[[int, int, str], None] | None, result: BatchResult,
+               first_slot: WorkerSlot) -> BatchResult:
     candidates, skipped = discover(options.paths)
     result.skipped.extend(skipped)
     ready, deferred = settle(candidates, options.settle_s)
@@ -494,7 +526,8 @@ def run_batch(options: BatchOptions, settings_key: str,
 
     n_slots = max(1, min(options.jobs, len(jobs)))
     slots: queue.Queue[WorkerSlot] = queue.Queue()
-    for _ in range(n_slots):
+    slots.put(first_slot)
+    for _ in range(n_slots - 1):
         slots.put(WorkerSlot(options.memory_bytes))
 
     def one(job: dict[str, Any]) -> dict[str, Any]:
@@ -520,7 +553,9 @@ def run_batch(options: BatchOptions, settings_key: str,
                 outcomes = list(pool.map(one, jobs))
         finally:
             while not slots.empty():
-                slots.get().close()
+                slot = slots.get()
+                if slot is not first_slot:  # the caller closes the first one
+                    slot.close()
 
     for job, outcome in zip(jobs, outcomes, strict=True):
         if options.mode == "run" and outcome.get("results_json") is None:
