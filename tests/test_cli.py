@@ -11,6 +11,7 @@ import os
 import shutil
 import subprocess
 import sys
+import time
 from pathlib import Path
 
 import openpyxl
@@ -230,3 +231,53 @@ def test_an_internal_fault_is_a_plain_message_not_a_traceback(tmp_path: Path,
     assert code == 2
     assert "internal error (RuntimeError: simulated fault)" in captured.err
     assert "Traceback" not in captured.err
+
+
+def test_run_format_json_prints_only_the_overview_document(tmp_path: Path) -> None:
+    src = survey_workbook(tmp_path / "a.xlsx")
+    proc = run_cli("run", str(src), "-o", str(tmp_path / "o"), "--settle", "0",
+                   "--format", "json", cwd=tmp_path)
+    assert proc.returncode == 0
+    payload = json.loads(proc.stdout)  # nothing but the JSON document on stdout
+    from surveytools.io.results_json import validate_overview
+
+    assert validate_overview(payload) == []
+    assert [r["status"] for r in payload["inputs"]] == ["ok"]
+
+
+def test_watch_processes_each_new_completed_file_once(tmp_path: Path) -> None:
+    drop = tmp_path / "drop"
+    drop.mkdir()
+    survey_workbook(drop / "first.xlsx")
+    proc = subprocess.Popen([sys.executable, "-m", "surveytools", "run", str(drop), "-o",
+                             str(tmp_path / "o"), "--watch", "--interval", "0.5",
+                             "--max-cycles", "20", "--settle", "0", "--quiet"],
+                            cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            text=True)
+    try:
+        deadline = time.monotonic() + 120
+        while not (tmp_path / "o" / "first.results.json").exists():
+            assert time.monotonic() < deadline, "first file never processed"
+            time.sleep(0.2)
+        # Arrives complete, as a finished copy does (written aside, then moved in).
+        survey_workbook(tmp_path / "second.xlsx", position="P2").rename(drop / "second.xlsx")
+        while not (tmp_path / "o" / "second.results.json").exists():
+            assert time.monotonic() < deadline, "new file never processed"
+            time.sleep(0.2)
+    finally:
+        out, err = proc.communicate(timeout=300)
+    assert proc.returncode == 0, err
+    # Each file is reported once, however many polling cycles ran.
+    assert out.count("first.xlsx: ok") == 1
+    assert out.count("second.xlsx: ok") == 1
+
+
+def test_a_symlinked_input_is_skipped_with_a_note(tmp_path: Path) -> None:
+    drop = tmp_path / "drop"
+    drop.mkdir()
+    real = survey_workbook(tmp_path / "real.xlsx")
+    (drop / "link.xlsx").symlink_to(real)
+    proc = run_cli("run", str(drop), "-o", str(tmp_path / "o"), "--settle", "0", "--quiet",
+                   cwd=tmp_path)
+    assert proc.returncode == 0
+    assert "link.xlsx: skipped - a symbolic link" in proc.stdout
