@@ -118,6 +118,13 @@ class SurveyDefaults:
     clock: str = "local"
     #: Whether timestamps mark interval "start" or "end".
     timestamps: str = "start"
+    #: Survey facts a CSV input (which has no Survey sheet) can only get from here. [dB] [m]
+    meter_class: int | None = None
+    calibration_before_db: float | None = None
+    calibration_after_db: float | None = None
+    calibrator_level_db: float | None = None
+    microphone: str | None = None
+    height_m: float | None = None
 
 
 @dataclass(frozen=True)
@@ -527,8 +534,12 @@ def _build(data: Mapping[str, Any]) -> tuple[Settings, list[tuple[str, str]]]:
 
     s = _section(data, ("survey",))
     survey = replace(base.survey, **{k: str(s[k]) for k in
-                                     ("position", "site", "time_zone", "clock", "timestamps")
-                                     if k in s})
+                                     ("position", "site", "time_zone", "clock", "timestamps",
+                                      "microphone")
+                                     if k in s},
+                     **{k: float(s[k]) for k in ("calibration_before_db", "calibration_after_db",
+                                                 "calibrator_level_db", "height_m") if k in s},
+                     **({"meter_class": int(s["meter_class"])} if "meter_class" in s else {}))
     if not _valid_time_zone(survey.time_zone):
         problems.append(("survey.time_zone", "expected an IANA time zone name such as "
                                              "'Europe/Berlin', or 'UTC+hh:mm', found "

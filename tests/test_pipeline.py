@@ -113,3 +113,22 @@ def test_the_parents_preflight_refusal_reaches_the_document(day_workbook: Path) 
     assert prepared is not None and prepared.fatal is not None
     doc, _ = build_document(hostile, Settings(), prepared=prepared)
     assert [f["code"] for f in doc["findings"]] == ["xml-doctype"]
+
+
+def test_a_csv_log_takes_its_survey_facts_from_the_settings(tmp_path: Path) -> None:
+    from dataclasses import replace
+
+    from surveytools.settings import SurveyDefaults
+
+    lines = ["Start,LAeq (dB)"] + [f"2026-06-01T{h:02d}:00:00,{50 + h % 3}" for h in range(24)]
+    path = tmp_path / "long_log.csv"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    # ISO 1996-2 (from memory): before/after checks 0.6 dB apart exceed the 0.5 dB limit.
+    survey = SurveyDefaults(position="CSV-1", clock="UTC", calibration_before_db=94.0,
+                            calibration_after_db=93.4, calibrator_level_db=94.0)
+    doc, _ = build_document(path, replace(Settings(), survey=survey))
+    assert validate_results(doc) == []
+    assert doc["survey"]["position"] == "CSV-1"
+    codes = {f["code"] for f in doc["findings"]}
+    assert "calibration-drift" in codes and "calibration-missing" not in codes
+    assert doc["coverage"]["measured_s"] == pytest.approx(24 * 3600.0)

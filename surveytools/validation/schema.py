@@ -35,7 +35,9 @@ SURVEY_SCHEMA = "survey.schema.json"
 _NUMBER_KEYS = ("calibration_before_db", "calibration_after_db", "calibrator_level_db",
                 "height_m", "meter_class")
 #: Keys filled from ``settings.survey`` when the sheet does not give them.
-_DEFAULT_KEYS = ("position", "site", "time_zone", "clock")
+_DEFAULT_KEYS = ("position", "site", "time_zone", "clock", "meter_class",
+                 "calibration_before_db", "calibration_after_db", "calibrator_level_db",
+                 "microphone", "height_m")
 
 _FIXED_OFFSET = re.compile(r"^UTC[+-]\d{2}:\d{2}$")
 
