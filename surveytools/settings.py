@@ -533,13 +533,16 @@ def _build(data: Mapping[str, Any]) -> tuple[Settings, list[tuple[str, str]]]:
     )
 
     s = _section(data, ("survey",))
-    survey = replace(base.survey, **{k: str(s[k]) for k in
-                                     ("position", "site", "time_zone", "clock", "timestamps",
-                                      "microphone")
-                                     if k in s},
-                     **{k: float(s[k]) for k in ("calibration_before_db", "calibration_after_db",
-                                                 "calibrator_level_db", "height_m") if k in s},
-                     **({"meter_class": int(s["meter_class"])} if "meter_class" in s else {}))
+    survey_changes: dict[str, Any] = {
+        k: str(s[k]) for k in ("position", "site", "time_zone", "clock", "timestamps",
+                               "microphone") if k in s}
+    survey_changes.update({k: float(s[k]) for k in ("calibration_before_db",
+                                                    "calibration_after_db",
+                                                    "calibrator_level_db", "height_m")
+                           if k in s})
+    if "meter_class" in s:
+        survey_changes["meter_class"] = int(s["meter_class"])
+    survey = replace(base.survey, **survey_changes)
     if not _valid_time_zone(survey.time_zone):
         problems.append(("survey.time_zone", "expected an IANA time zone name such as "
                                              "'Europe/Berlin', or 'UTC+hh:mm', found "
