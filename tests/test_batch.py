@@ -84,3 +84,10 @@ def test_output_stems_are_unique_and_safe(tmp_path: Path, names: list[str]) -> N
     values = list(stems.values())
     assert len({v.lower() for v in values}) == len(values)
     assert all("/" not in v and " " not in v for v in values)
+
+
+def test_an_explicit_file_of_another_kind_is_reported(tmp_path: Path) -> None:
+    notes = _touch(tmp_path / "notes.txt", b"not a survey")
+    found, skipped = discover([notes])
+    assert found == []
+    assert [(Path(s.path).name, s.code) for s in skipped] == [("notes.txt", "not-a-survey-file")]
