@@ -132,3 +132,23 @@ def test_a_csv_log_takes_its_survey_facts_from_the_settings(tmp_path: Path) -> N
     codes = {f["code"] for f in doc["findings"]}
     assert "calibration-drift" in codes and "calibration-missing" not in codes
     assert doc["coverage"]["measured_s"] == pytest.approx(24 * 3600.0)
+
+
+def test_the_summary_sheet_shows_the_figures_of_the_json(day_workbook: Path,
+                                                         tmp_path: Path) -> None:
+    # Consistency of the two outputs of one run (not a reference check): every headline
+    # figure on the Summary equals the results JSON rounded to 0.1 dB.
+    import openpyxl
+
+    out = tmp_path / "o"
+    out.mkdir()
+    run_file(day_workbook, out, "day", Settings())
+    doc = json.loads((out / "day.results.json").read_text())
+    ws = openpyxl.load_workbook(out / "day.results.xlsx", read_only=True)["Summary"]
+    shown = {str(row[0]): row[1] for row in ws.iter_rows(values_only=True)
+             if row and isinstance(row[0], str) and row[0].endswith("[dB]")}
+    names = {"Lden": "Lden [dB]", "Lday": "Lday [dB]", "Levening": "Levening [dB]",
+             "Lnight": "Lnight [dB]", "Ldn": "Ldn [dB]", "CNEL": "CNEL [dB]",
+             "LAeq_16h": "LAeq,16h [dB]", "LAeq_8h": "LAeq,8h [dB]"}
+    for key, label in names.items():
+        assert shown[label] == pytest.approx(round(doc["survey_average"][key], 1), abs=1e-9)
