@@ -47,6 +47,9 @@ class Candidate:
     path: Path
     size: int
     mtime_ns: int
+    #: Found by scanning a folder (a drop folder, where copies may still be arriving), as
+    #: opposed to named on the command line.
+    from_folder: bool = False
 
 
 @dataclass
@@ -145,7 +148,7 @@ def discover(paths: list[Path]) -> tuple[list[Candidate], list[Skipped]]:
                 skipped.append(Skipped(str(p), "not-a-survey-file",
                                        "not an .xlsx, .xlsm or .csv file"))
             return
-        found.append(Candidate(p, st.st_size, st.st_mtime_ns))
+        found.append(Candidate(p, st.st_size, st.st_mtime_ns, from_folder=not explicit))
 
     for root in paths:
         try:
@@ -182,8 +185,12 @@ def _zip_complete(path: Path) -> bool:
 
 
 def settle(candidates: list[Candidate], settle_s: float) -> tuple[list[Candidate], list[Skipped]]:
-    """Defer files whose size or modification time changes across ``settle_s`` seconds."""
-    if settle_s > 0 and candidates:
+    """Defer files whose size or modification time changes across ``settle_s`` seconds.
+
+    Only files found in folders are watched this way (a drop folder may hold a copy still
+    arriving); a file named on the command line is taken as it is, without waiting.
+    """
+    if settle_s > 0 and any(c.from_folder for c in candidates):
         time.sleep(settle_s)
     ready: list[Candidate] = []
     deferred: list[Skipped] = []

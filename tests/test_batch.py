@@ -49,7 +49,7 @@ def test_discover_reports_a_missing_explicit_path(tmp_path: Path) -> None:
 def test_a_file_still_growing_is_deferred_not_failed(tmp_path: Path) -> None:
     path = _touch(tmp_path / "copying.xlsx", b"PK\x03\x04" + b"x" * 100)
     st = path.stat()
-    candidate = Candidate(path, st.st_size, st.st_mtime_ns)
+    candidate = Candidate(path, st.st_size, st.st_mtime_ns, from_folder=True)
     stop = threading.Event()
 
     def grow() -> None:
@@ -91,3 +91,14 @@ def test_an_explicit_file_of_another_kind_is_reported(tmp_path: Path) -> None:
     found, skipped = discover([notes])
     assert found == []
     assert [(Path(s.path).name, s.code) for s in skipped] == [("notes.txt", "not-a-survey-file")]
+
+
+def test_only_files_found_in_folders_wait_to_settle(tmp_path: Path) -> None:
+    path = _touch(tmp_path / "named.xlsx")
+    st = path.stat()
+    t0 = time.monotonic()
+    ready, deferred = settle([Candidate(path, st.st_size, st.st_mtime_ns)], 5.0)
+    assert time.monotonic() - t0 < 2.0  # a file named on the command line is not waited on
+    assert [c.path for c in ready] == [path] and deferred == []
+    found, _ = discover([tmp_path])
+    assert [c.from_folder for c in found] == [True]
