@@ -475,7 +475,6 @@ def run_batch(options: BatchOptions, settings_key: str,
     """Process every input of ``options``; never raises for a bad input."""
     result = BatchResult()
     first_slot = WorkerSlot(options.memory_bytes)
-    first_slot.start_early()  # its imports overlap discovery, settling, hashing, preflight
     try:
         return _run_batch(options, settings_key, progress, result, first_slot)
     finally:
@@ -531,6 +530,8 @@ def _run_batch(options: BatchOptions, settings_key: str,
 
     import queue
 
+    if jobs:
+        first_slot.start_early()  # its imports overlap the first input's preflight
     n_slots = max(1, min(options.jobs, len(jobs)))
     slots: queue.Queue[WorkerSlot] = queue.Queue()
     slots.put(first_slot)
