@@ -179,9 +179,14 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
     def finish(readings: pd.DataFrame, level_columns: dict[str, str],
                exclusions: list[Exclusion], unplaced: pd.DataFrame | None,
                weather: pd.DataFrame | None) -> Survey:
-        findings = sorted(collector.findings() + list(raw.findings), key=Finding.sort_key)
+        own = collector.findings()
+        # A problem both the reader and validation saw (a formula cell without a stored
+        # value) is reported once, with validation's message (it says what happens next).
+        seen = {(f.code, f.sheet, f.row, f.column) for f in own}
+        extra = [f for f in raw.findings if (f.code, f.sheet, f.row, f.column) not in seen]
+        findings = sorted(own + extra, key=Finding.sort_key)
         counts = collector.counts
-        for f in raw.findings:
+        for f in extra:
             counts[f.code] = counts.get(f.code, 0) + 1
         kw: dict[str, Any] = {}
         if unplaced is not None:
