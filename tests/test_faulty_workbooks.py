@@ -25,7 +25,8 @@ START = datetime(2026, 6, 1, 10, 0)
 def workbook(path: Path, *, survey: dict[str, Any] | None = None,
              rows: list[list[Any]] | None = None,
              header: tuple[str, ...] = ("Start", "Duration (s)", "LAeq (dB)", "LAFmax (dB)"),
-             edit: Callable[[Any], None] | None = None) -> Path:
+             edit: Callable[[Any], None] | None = None,
+             sheets: dict[str, list[list[Any]]] | None = None) -> Path:
     wb = openpyxl.Workbook()
     ws = wb.active
     assert ws is not None
@@ -46,6 +47,10 @@ def workbook(path: Path, *, survey: dict[str, Any] | None = None,
         rd.append(r)
     if edit is not None:
         edit(rd)
+    for name, table in (sheets or {}).items():
+        extra = wb.create_sheet(name)
+        for r in table:
+            extra.append(r)
     wb.save(path)
     return path
 
@@ -91,6 +96,23 @@ CASES: list[tuple[str, dict[str, Any], list[tuple[str | None, int | None, str | 
      [("Survey", 8, "B", "survey-enum")]),
     ("calibration drift", {"survey": {"Calibration after (dB)": 94.7}},
      [("Survey", 6, "B", "calibration-drift")]),
+    ("exclusion ending before it starts",
+     {"sheets": {"Exclusions": [["From", "To", "Reason", "Applies to"],
+                                [START + timedelta(hours=1), START, "mower", "all"]]}},
+     [("Exclusions", 2, "B", "exclusion-span-invalid")]),  # located at the To cell
+    ("exclusion scope not all/background",
+     {"sheets": {"Exclusions": [["From", "To", "Reason", "Applies to"],
+                                [START, START + timedelta(hours=1), "mower", "some"]]}},
+     [("Exclusions", 2, "D", "exclusion-scope-unknown")]),
+    ("negative rain",
+     {"sheets": {"Weather": [["Start", "Wind speed (m/s)", "Rain (mm)"],
+                             [START, 2.0, -1.0]]}},
+     [("Weather", 2, "C", "weather-out-of-range")]),
+    ("overload flag that is not yes/no",
+     {"header": ("Start", "Duration (s)", "LAeq (dB)", "LAFmax (dB)", "Overload"),
+      "rows": [[START + timedelta(minutes=15 * i), 900, 50.0, 60.0,
+                "maybe" if i == 2 else "no"] for i in range(6)]},
+     [("Readings", 4, "E", "flag-not-yes-no")]),
     ("formula without a stored value",
      {"edit": lambda ws: ws.__setitem__("C3", "=50+1")},
      [("Readings", 3, "C", "formula-without-value")]),
