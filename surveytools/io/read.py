@@ -330,6 +330,8 @@ class _Reader:
         n = batch.num_rows
         raw_cols: list[RawColumn] = []
         text_needed: dict[int, tuple[RawColumn, list[int]]] = {}
+        # Positions of text cells that may need cleaning, by index in raw_cols.
+        suspects: dict[int, np.ndarray] = {}
         for k in range(batch.num_columns):
             j = abs_index[k]
             header = headers[j] if j < len(headers) else ""
@@ -340,6 +342,8 @@ class _Reader:
                                       column_letters(j + 1))
             col = _arrow_to_column(arr, header_text, column_letters(j + 1),
                                    self.report.date_system)
+            if col.kind == "text":
+                suspects[len(raw_cols)] = _suspect_texts(arr)
             for pos, detail in cell_errors.get(k, []):
                 m = _ERROR_DETAIL_RE.search(detail)
                 if m:
@@ -361,7 +365,7 @@ class _Reader:
             c.error_cells = {p: t for p, t in c.error_cells.items() if p < n}
             c.formula_without_value = {p for p in c.formula_without_value if p < n}
         table = RawTable(info.name, header_row, raw_cols, n)
-        self._clean_texts(table)
+        self._clean_texts(table, suspects)
         return table
 
     def _recover_text(self, info: SheetInfo, header_row: int, abs_index: list[int],
@@ -381,17 +385,21 @@ class _Reader:
                 text = values[pos].as_py() if pos < len(values) else None
                 col.text_cells[pos] = "" if text is None else str(text)
 
-    def _clean_texts(self, table: RawTable) -> None:
-        for c in table.columns:
-            if c.kind == "text":
-                values = c.values
-                mask = values.map(lambda v: isinstance(v, str)
-                                  and (len(v) > const.CELL_MAX_CHARS or has_illegal_characters(v)),
-                                  na_action="ignore")
-                for flagged in np.flatnonzero(mask.fillna(False).to_numpy(dtype=bool)):
+    def _clean_texts(self, table: RawTable, suspects: Mapping[int, np.ndarray]) -> None:
+        """Clean the text cells that are too long or hold XML-illegal characters.
+
+        ``suspects`` gives, by column index, the positions found by a vectorised pre-check
+        (:func:`_suspect_texts`); each is checked again here with the exact rule.
+        """
+        for k, c in enumerate(table.columns):
+            if c.kind == "text" and k in suspects:
+                for flagged in suspects[k][suspects[k] < table.n_rows]:
                     i = int(flagged)
-                    c.values.iat[i] = self._clean(str(c.values.iat[i]), table.sheet,
-                                                  table.first_data_row + i, c.letter)
+                    v = c.values.iat[i]
+                    if isinstance(v, str) and (len(v) > const.CELL_MAX_CHARS
+                                               or has_illegal_characters(v)):
+                        c.values.iat[i] = self._clean(v, table.sheet,
+                                                      table.first_data_row + i, c.letter)
             for pos, text in list(c.text_cells.items()):
                 c.text_cells[pos] = self._clean(text, table.sheet, table.first_data_row + pos,
                                                 c.letter)
@@ -545,8 +553,8 @@ def _arrow_to_column(arr: Any, header: str, letter: str, date_system: int) -> Ra
 
     typ = arr.type
     if pa.types.is_timestamp(typ) or pa.types.is_date(typ):
-        values = pd.Series(arr.cast(pa.timestamp("ms")).to_numpy(zero_copy_only=False),
-                           dtype="datetime64[ms]")
+        values = _series(arr.cast(pa.timestamp("ms")).to_numpy(zero_copy_only=False),
+                         "datetime64[ms]")
         if date_system == 1904:
             values = _shift_1904_times(values)
         return RawColumn(header, letter, "datetime", values)
@@ -555,16 +563,44 @@ def _arrow_to_column(arr: Any, header: str, letter: str, date_system: int) -> Ra
         values = pd.Series(TIME_ONLY_EPOCH + ms.astype("timedelta64[ms]"), dtype="datetime64[ms]")
         return RawColumn(header, letter, "datetime", values)
     if pa.types.is_floating(typ) or pa.types.is_integer(typ):
-        values = pd.Series(arr.cast(pa.float64()).to_numpy(zero_copy_only=False), dtype="float64")
+        values = _series(arr.cast(pa.float64()).to_numpy(zero_copy_only=False), "float64")
         return RawColumn(header, letter, "number", values)
     if pa.types.is_boolean(typ):
         values = pd.Series(arr.to_pylist(), dtype="boolean")
         return RawColumn(header, letter, "bool", values)
     if pa.types.is_null(typ):
         return RawColumn(header, letter, "empty", pd.Series([None] * len(arr), dtype=object))
-    values = pd.Series(arr.cast(pa.string()).to_numpy(zero_copy_only=False), dtype=object)
-    values = values.where(values.notna(), None)
+    # pyarrow gives None for a null string: no NaN to replace.
+    values = _series(arr.cast(pa.string()).to_numpy(zero_copy_only=False), object)
     return RawColumn(header, letter, "text", values)
+
+
+def _series(values: np.ndarray, dtype: Any) -> pd.Series:
+    """Wrap a converted column in a Series, copying only a read-only (zero-copy) array."""
+    return pd.Series(values, dtype=dtype, copy=not values.flags.writeable)
+
+
+#: XML-illegal characters (as :data:`surveytools.io.safetext._XML_ILLEGAL_RE`) in RE2
+#: syntax; surrogates need no check because Arrow strings are UTF-8, which cannot hold them.
+_ARROW_ILLEGAL_RE = r"[\x00-\x08\x0b\x0c\x0e-\x1f\x{FFFE}\x{FFFF}]"
+
+
+def _suspect_texts(arr: Any) -> np.ndarray:
+    """Return the positions of text cells too long to keep or holding XML-illegal characters.
+
+    A vectorised pre-check in Arrow (no Python call per cell); the reader re-checks each
+    position found with :func:`surveytools.io.safetext.has_illegal_characters`.
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    text = arr.cast(pa.string())
+    if text.null_count == len(text):
+        return np.empty(0, dtype=np.int64)
+    flags = pc.or_(pc.greater(pc.utf8_length(text), const.CELL_MAX_CHARS),
+                   pc.match_substring_regex(text, _ARROW_ILLEGAL_RE))
+    return np.asarray(pc.indices_nonzero(pc.fill_null(flags, False)).to_numpy(),
+                      dtype=np.int64)
 
 
 def _shift_1904_times(values: pd.Series) -> pd.Series:
@@ -581,20 +617,32 @@ def _used_length(columns: Sequence[RawColumn], n: int) -> int:
     """Return the number of rows up to the last one holding anything (trailing empties cut)."""
     last = -1
     for c in columns:
-        v = c.values
-        present: np.ndarray
-        if c.kind == "text":
-            flags = v.map(lambda x: x is not None and x != "", na_action="ignore")
-            present = flags.fillna(False).to_numpy(dtype=bool)
-        else:
-            present = v.notna().to_numpy(dtype=bool)
-        idx = np.flatnonzero(present)
-        if idx.size:
-            last = max(last, int(idx[-1]))
+        last = max(last, _last_present(c))
         for store in (c.text_cells, c.error_cells, c.formula_without_value):
             if store:
                 last = max(last, max(store))
     return min(n, last + 1)
+
+
+def _last_present(column: RawColumn) -> int:
+    """Return the position of the column's last non-empty value (-1 when there is none).
+
+    Looks at a block at the end first, then at blocks growing eightfold towards the start:
+    a column that is full to its end costs one small block, not a pass over all rows.
+    """
+    v = column.values
+    end, block = len(v), 4096
+    while end > 0:
+        start = max(0, end - block)
+        part = v.iloc[start:end]
+        present = part.notna().to_numpy(dtype=bool)
+        if column.kind == "text":
+            present = present & (part.to_numpy(dtype=object) != "")
+        idx = np.flatnonzero(present)
+        if idx.size:
+            return start + int(idx[-1])
+        end, block = start, block * 8
+    return -1
 
 
 class _StopParsingError(Exception):
