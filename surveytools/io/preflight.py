@@ -554,6 +554,12 @@ def column_letters(number: int) -> str:
 
 
 @functools.lru_cache(maxsize=1024)
+def _unusual_cell_re(max_col: int, digits: int) -> re.Pattern[bytes]:
+    """Compiled :func:`_unusual_cell_pattern` (cached: looked up once per piece)."""
+    return re.compile(_unusual_cell_pattern(max_col, digits))
+
+
+@functools.lru_cache(maxsize=1024)
 def _unusual_cell_pattern(max_col: int, digits: int) -> bytes:
     """Regex for a cell start tag that is not ``<c r="REF"`` with REF inside the bounds.
 
@@ -679,17 +685,44 @@ def _scan_sheet(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
         return _scan_exact(zf, info, sheet, lim)
 
 
+def _last_row_start(buf: bytes | bytearray, lo: int, hi: int) -> int:
+    """Return the last start of a ``<row `` or ``<row>`` tag in ``buf[lo:hi]``, or -1.
+
+    One backward search for ``<row`` (it stops at the first hit instead of scanning the
+    whole range for a form that is absent), then a look at the byte after it.
+    """
+    while True:
+        i = buf.rfind(b"<row", lo, hi)
+        if i < 0:
+            return -1
+        if i + 5 <= hi and buf[i + 4:i + 5] in (b" ", b">"):
+            return i
+        hi = i + 3
+
+
+def _first_row_start(buf: bytes | bytearray, lo: int, hi: int) -> int:
+    """Return the first start of a ``<row `` or ``<row>`` tag in ``buf[lo:hi]``, or -1."""
+    while True:
+        i = buf.find(b"<row", lo, hi)
+        if i < 0 or i + 5 > hi:
+            return -1
+        if buf[i + 4:i + 5] in (b" ", b">"):
+            return i
+        lo = i + 1
+
+
 def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
                lim: PreflightLimits, exact_rows: bool = False) -> SheetInfo:
     max_row = 0
     max_col = 0
     row_bound = 0
     formulas: list[str] = []
-    buf = bytearray()
+    merged: list[str] = []
+    carry = bytearray()
     head = b""
     first = True
 
-    def scan(start: int, end: int) -> None:
+    def scan(buf: bytes | bytearray, start: int, end: int) -> None:
         """Check ``buf[start:end]`` (whole rows) without copying it."""
         nonlocal max_row, max_col, row_bound
         last = buf.rfind(b'<c r="', start, end)
@@ -704,11 +737,10 @@ def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
         bound = 10**digits - 1
         loose_area = max(row_bound, bound) * max(max_col, 1)
         if (exact_rows or digits >= 7 or loose_area > lim.max_cells_area
-                or re.search(_unusual_cell_pattern(max_col, digits),
-                             memoryview(buf)[start:end])):
+                or _unusual_cell_re(max_col, digits).search(buf, start, end)):
             piece = bytes(buf[start:end])
             max_row, max_col = _exact_max(piece, max_row, max_col)
-            if re.search(_unusual_cell_pattern(max_col, 7), piece):
+            if _unusual_cell_re(max_col, 7).search(piece):
                 raise _NeedExactError  # a cell without r=, or a malformed reference
             row_bound = max(row_bound, max_row)
         else:
@@ -716,14 +748,25 @@ def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
         if row_bound * max(max_col, 1) > lim.max_cells_area and not exact_rows:
             raise _NeedExactRowsError  # earlier pieces were bounded loosely: redo exactly
         _check_extent(sheet.name, max_row, max_col, lim)
-        if buf.find(b":c", start, end) >= 0 and _PREFIXED_CELL_RE.search(buf, start, end):
+        # Single-byte look-ups (memchr) first: ':' and 'f' and 'm' are absent from the
+        # rows of most sheets, so the slower two-byte searches and regexes rarely run.
+        if (buf.find(b":", start, end) >= 0 and buf.find(b":c", start, end) >= 0
+                and _PREFIXED_CELL_RE.search(buf, start, end)):
             raise _NeedExactError
-        if buf.find(b"<f", start, end) >= 0:
+        f = buf.find(b"f", start, end)
+        if f >= 0 and buf.find(b"<f", max(f - 1, start), end) >= 0:
             formulas.extend(ref.decode()
                             for ref in _FORMULA_NO_VALUE_RE.findall(buf, start, end))
+        k = buf.find(b"m", start, end)
+        if k >= 0 and buf.find(b"<mergeCell", max(k - 9, start), end) >= 0:
+            found = _MERGE_RE.findall(buf, start, end)
+            if not found:
+                raise _NeedExactError
+            merged.extend(r.decode() for r in found)
 
-    def row_start(lo: int, hi: int) -> int:
-        return max(buf.rfind(b"<row ", lo, hi), buf.rfind(b"<row>", lo, hi))
+    def row_start(buf: bytes | bytearray, lo: int, hi: int) -> int:
+        """Last start of a ``<row`` element in ``buf[lo:hi]`` (-1 if none)."""
+        return _last_row_start(buf, lo, hi)
 
     for chunk in _inflate(zf, info):
         if len(head) < HEAD_KEEP_BYTES:
@@ -737,25 +780,35 @@ def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
                 raise _NeedExactError
             # Widest column among the first cells: later pieces are probed against it.
             max_row, max_col = _exact_max(chunk[:_SAMPLE_BYTES], 0, 0)
-        buf += chunk
-        start, n = 0, len(buf)
-        # Scan in windows of about _WINDOW bytes (cache-friendly), each ending at a row start.
-        while n - start > _WINDOW:
-            cut = row_start(start + 1, start + _WINDOW)
+        # The chunk is scanned in place: the rows pending from earlier chunks are completed
+        # by the chunk's bytes up to its first row start; the chunk's tail from its last
+        # row start waits for the next chunk.
+        n = len(chunk)
+        lo = _first_row_start(chunk, 0, n)
+        hi = row_start(chunk, max(lo, 0) + 1, n) if lo >= 0 else -1
+        if lo < 0 or hi <= lo:
+            carry += chunk
+            if len(carry) > _MAX_PENDING:
+                raise _NeedExactError
+            continue
+        if carry:
+            carry += chunk[:lo]
+            scan(carry, 0, len(carry))
+        elif lo:
+            scan(chunk, 0, lo)
+        # Windows of about _WINDOW bytes (cache-friendly), each ending at a row start.
+        start = lo
+        while hi - start > _WINDOW:
+            cut = row_start(chunk, start + 1, start + _WINDOW)
             if cut <= start:
-                cut = row_start(start + 1, n)
+                cut = row_start(chunk, start + 1, hi)
                 if cut <= start:
                     break
-            scan(start, cut)
+            scan(chunk, start, cut)
             start = cut
-        del buf[:start]
-        if len(buf) > _MAX_PENDING:
-            raise _NeedExactError
-    scan(0, len(buf))
-    tail = bytes(buf)
-    merged = [r.decode() for r in _MERGE_RE.findall(tail)]
-    if b"<mergeCell" in tail and not merged:
-        raise _NeedExactError
+        scan(chunk, start, hi)
+        carry = bytearray(memoryview(chunk)[hi:])
+    scan(carry, 0, len(carry))
     _check_extent(sheet.name, max_row, max_col, lim)
     return SheetInfo(sheet.name, sheet.part, sheet.visibility, max_row, max_col,
                      tuple(formulas), tuple(merged), head)
