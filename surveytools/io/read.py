@@ -157,21 +157,30 @@ def read_workbook(
 class _Reader:
     def __init__(self, path: Path, report: PreflightReport, source: SourceInfo,
                  column_map: Mapping[str, str]) -> None:
-        from python_calamine import CalamineWorkbook
-
         self.path = path
         self.report = report
         self.source = source
         self.column_map = dict(column_map)
         self.findings: list[Finding] = []
-        self.calamine = CalamineWorkbook.from_path(str(path))
+        # Opened on first use (key/value sheets, heads the kept bytes cannot give): opening
+        # loads every shared string, which fastexcel does again for the table read.
+        self._calamine: Any = None
         self._fastexcel: Any = None
         self._parts: _WorkbookParts | None = None
 
     def close(self) -> None:
         if self._parts is not None:
             self._parts.close()
-        self.calamine.close()
+        if self._calamine is not None:
+            self._calamine.close()
+
+    def calamine(self) -> Any:
+        """Return the python-calamine workbook, opening it on first use."""
+        if self._calamine is None:
+            from python_calamine import CalamineWorkbook
+
+            self._calamine = CalamineWorkbook.from_path(str(self.path))
+        return self._calamine
 
     # -- sheets -------------------------------------------------------------------------
 
@@ -257,13 +266,13 @@ class _Reader:
             self._parts = _WorkbookParts(self.path, self.report.date_system)
         rows = self._parts.head_rows(info, n)
         if rows is None:
-            sheet = self.calamine.get_sheet_by_name(info.name)
+            sheet = self.calamine().get_sheet_by_name(info.name)
             rows = [list(r) for r in sheet.to_python(skip_empty_area=False, nrows=n)]
         return rows
 
     def _all_rows(self, info: SheetInfo, n: int) -> list[list[Any]]:
         """Return the first ``n`` rows with python-calamine (exact values; small sheets)."""
-        sheet = self.calamine.get_sheet_by_name(info.name)
+        sheet = self.calamine().get_sheet_by_name(info.name)
         return [list(r) for r in sheet.to_python(skip_empty_area=False, nrows=n)]
 
     # -- tables -------------------------------------------------------------------------

@@ -468,3 +468,30 @@ def test_readings_sheet_by_other_name_noted(tmp_path: Path) -> None:
     raw = read_workbook(p)
     assert raw.readings is not None and raw.readings.sheet == "Data"
     assert _codes(raw) == [("readings-sheet-chosen", "Data", None, None)]
+
+
+def test_text_cells_cleaned_and_counted_far_down_a_long_column(tmp_path: Path) -> None:
+    # Text cells far below the first rows: an ESC escaped as _x001B_ (ECMA-376 §22.9.2.19
+    # ST_Xstring; XML 1.0 §2.2 Char production excludes U+001B), a text longer than a cell
+    # may hold (32,767 characters: Microsoft "Excel specifications and limits") and a last
+    # row holding only text, 1,500 rows below the last level, which must still count (rows
+    # are cut only after the last non-empty cell, not after a styled empty one).
+    def text(ref: str, value: str) -> str:
+        return f'<c r="{ref}" t="inlineStr"><is><t>{value}</t></is></c>'
+
+    notes = {4002: text("B4002", "odd_x001B_char"), 5002: text("B5002", "y" * 40_000)}
+    rows = f'<row r="1">{text("A1", "LAeq")}{text("B1", "Note")}</row>'
+    rows += "".join(f'<row r="{r}"><c r="A{r}"><v>50</v></c>{notes.get(r, "")}</row>'
+                    for r in range(2, 6002))
+    rows += f'<row r="7501">{text("B7501", "last")}</row>'
+    rows += '<row r="14000"><c r="B14000" s="0"/></row>'  # styled but empty: not a row
+    p = build_xlsx(tmp_path / "long.xlsx", {"Readings": sheet_xml(rows)})
+    raw = read_workbook(p)
+    t = raw.readings
+    assert t is not None and t.n_rows == 7500  # spreadsheet rows 2..7501
+    note = _col(t, "Note")
+    assert note.values.iloc[4000] == "odd\ufffdchar"
+    assert note.values.iloc[5000] == "y" * 32_767
+    assert note.values.iloc[7499] == "last" and note.values.iloc[7498] is None
+    assert [(f.code, f.row, f.column) for f in raw.findings] == [
+        ("text-control-characters", 4002, "B"), ("text-truncated", 5002, "B")]
