@@ -490,11 +490,13 @@ def _describe(zf: zipfile.ZipFile, path: str, names: set[str]) -> PreflightRepor
 # --------------------------------------------------------------------------------------
 
 _CHUNK = 1 << 20
-#: Bytes of sheet XML checked per regex pass in the fast path.
-_WINDOW = 1 << 19
-#: Compressed bytes inflated per step by the helper thread (few, large hand-overs keep the
-#: two threads from waiting on each other).
-_RAW_STEP = 1 << 20
+#: Bytes of sheet XML checked per regex pass in the fast path. A regex call holds the GIL
+#: throughout, and the inflating thread needs it between output blocks: short calls keep
+#: that thread from waiting (measured on a week of 1-s rows: 128 KiB beats 512 KiB).
+_WINDOW = 1 << 17
+#: Compressed bytes inflated per step by the helper thread (~1.7 MB of XML out, which stays
+#: in cache for the CRC and the scan; 256 KiB measured faster than 1 MiB or 4 MiB).
+_RAW_STEP = 1 << 18
 #: Thread switch interval while a sheet is inflated in the helper thread [s].
 _SWITCH_INTERVAL_S = 1e-4
 #: Bytes of each sheet's XML kept in :attr:`SheetInfo.head`.
@@ -554,30 +556,35 @@ def column_letters(number: int) -> str:
 
 
 @functools.lru_cache(maxsize=1024)
-def _unusual_cell_re(max_col: int, digits: int) -> re.Pattern[bytes]:
+def _unusual_cell_re(max_col: int, digits: int, probe: bool = False) -> re.Pattern[bytes]:
     """Compiled :func:`_unusual_cell_pattern` (cached: looked up once per piece)."""
-    return re.compile(_unusual_cell_pattern(max_col, digits))
+    return re.compile(_unusual_cell_pattern(max_col, digits, probe))
 
 
-@functools.lru_cache(maxsize=1024)
-def _unusual_cell_pattern(max_col: int, digits: int) -> bytes:
+def _unusual_cell_pattern(max_col: int, digits: int, probe: bool = False) -> bytes:
     """Regex for a cell start tag that is not ``<c r="REF"`` with REF inside the bounds.
 
     REF must be upper-case letters no later than column ``max_col`` followed by a row
     number of 1 to ``digits`` digits (no leading zero) and a closing quote.
+
+    With ``probe``, the pattern leaves out the check that ``<c`` is a whole element name,
+    so it also matches ``<col``, ``<cfRule`` and the like (outside the rows): it finds
+    every piece the full pattern finds, ~15 % faster, and the full pattern then decides.
     """
+    start = "<c" if probe else "<c(?=[\\s/>])"
     if max_col < 1:
-        return b"<c(?=[\\s/>])"  # no cell seen yet: every cell is news
+        return start.encode()  # no cell seen yet: every cell is news
     letters = column_letters(max_col)
     n = len(letters)
     alts = [f"[A-Z]{{1,{n - 1}}}"] if n > 1 else []
-    for i, ch in enumerate(letters):
+    for i, ch in enumerate(letters[:-1]):
         if ch != "A":
-            tail = f"[A-Z]{{{n - i - 1}}}" if n - i - 1 else ""
-            alts.append(letters[:i] + f"[A-{chr(ord(ch) - 1)}]" + tail)
-    alts.append(letters)
-    ok = "(?:" + "|".join(alts) + ")" + f"[1-9][0-9]{{0,{digits - 1}}}" + '"'
-    return ('<c(?=[\\s/>])(?! r="' + ok + ")").encode()
+            alts.append(letters[:i] + f"[A-{chr(ord(ch) - 1)}]" + f"[A-Z]{{{n - i - 1}}}")
+    alts.append(letters[:-1] + f"[A-{letters[-1]}]")
+    # Possessive digits (no backtracking): the same matches as the greedy form, since a
+    # shorter run of digits is followed by a digit, never by the closing quote.
+    ok = "(?:" + "|".join(alts) + ")" + f"[1-9][0-9]{{0,{digits - 1}}}+" + '"'
+    return (start + '(?! r="' + ok + ")").encode()
 
 
 def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
@@ -737,7 +744,8 @@ def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
         bound = 10**digits - 1
         loose_area = max(row_bound, bound) * max(max_col, 1)
         if (exact_rows or digits >= 7 or loose_area > lim.max_cells_area
-                or _unusual_cell_re(max_col, digits).search(buf, start, end)):
+                or (_unusual_cell_re(max_col, digits, probe=True).search(buf, start, end)
+                    and _unusual_cell_re(max_col, digits).search(buf, start, end))):
             piece = bytes(buf[start:end])
             max_row, max_col = _exact_max(piece, max_row, max_col)
             if _unusual_cell_re(max_col, 7).search(piece):

@@ -13,7 +13,7 @@ import zipfile
 from pathlib import Path
 
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from surveytools.errors import WorkbookError
@@ -482,3 +482,173 @@ def test_extent_matches_generator(tmp_path: Path, monkeypatch: pytest.MonkeyPatc
     s = preflight(p).sheets[0]
     assert s.max_row == max(by_row)
     assert s.max_col == max(max(c) for c in by_row.values())
+
+
+# ---- fast-path rules against plain references ---------------------------------------------
+
+
+def _column_of(letters: str) -> int:
+    # A1 notation: column letters are bijective base 26, A = 1 ... Z = 26, AA = 27
+    # (ECMA-376 Part 1 §18.17.2.2 "A1-style cell reference"; XFD = 16,384, Microsoft "Excel
+    # specifications and limits").
+    n = 0
+    for ch in letters:
+        n = n * 26 + ord(ch) - ord("A") + 1
+    return n
+
+
+_REF_TEXT = st.one_of(
+    st.builds(lambda c, r: f"{column_letters(c)}{r}", st.integers(1, 16_384),
+              st.integers(1, 9_999_999)),
+    st.text(alphabet="ABCXYZaxz0123456789$:", min_size=0, max_size=10),
+)
+
+
+@settings(max_examples=400, deadline=None)
+@given(max_col=st.integers(1, 16_384), digits=st.integers(1, 7), ref=_REF_TEXT,
+       after=st.sampled_from(['"', '">', '" s="1">', '"/>', "", " ", "0"]))
+def test_unusual_cell_pattern_matches_definition(max_col: int, digits: int, ref: str,
+                                                 after: str) -> None:
+    # Reference: the definition in the docstring, evaluated directly: a cell start tag is
+    # usual iff it reads '<c r="' + upper-case letters of a column <= max_col + a row number
+    # of 1..digits digits without a leading zero + '"'.
+    import re
+
+    from surveytools.io.preflight import _unusual_cell_re
+
+    m = re.fullmatch(r"([A-Z]+)([1-9][0-9]*)", ref)
+    usual = (m is not None and _column_of(m.group(1)) <= max_col
+             and len(m.group(2)) <= digits and after.startswith('"'))
+    tag = f'<c r="{ref}{after}'.encode()
+    full = _unusual_cell_re(max_col, digits).search(tag) is not None
+    probe = _unusual_cell_re(max_col, digits, probe=True).search(tag) is not None
+    assert full == (not usual)
+    assert probe == full  # on a real cell tag the probe says the same
+
+
+@pytest.mark.parametrize("text", [b'<col min="1" max="9"/>', b"<cols>", b"<cfRule/>",
+                                  b"<c>", b"<c/>", b'<c\tr="A1">'])
+def test_probe_never_misses_what_the_full_pattern_finds(text: bytes) -> None:
+    # The probe may flag other elements starting "<c" (col, cfRule: the full pattern then
+    # decides), but every cell the full pattern flags, the probe flags too.
+    from surveytools.io.preflight import _unusual_cell_re
+
+    for max_col, digits in ((0, 1), (5, 6), (16_384, 7)):
+        full = _unusual_cell_re(max_col, digits).search(text) is not None
+        probe = _unusual_cell_re(max_col, digits, probe=True).search(text) is not None
+        assert probe or not full
+        # '<c>', '<c/>' and '<c\t' are cells (ECMA-376 element c); col/cols/cfRule are not.
+        assert full == text.startswith((b"<c>", b"<c/", b"<c\t"))
+
+
+@settings(max_examples=200, deadline=None)
+@given(parts=st.lists(st.sampled_from(["<row ", "<row>", "<row/", "<rows", "<ro", "w ",
+                                       "<c r=\"A1\">", "x", "<", ">"]), max_size=30),
+       lo=st.integers(0, 40), span=st.integers(0, 200))
+@example(parts=["x", "<row "], lo=0, span=5)  # '<row' ends at hi, its ' ' lies past hi
+@example(parts=["<row ", "<row"], lo=0, span=9)
+@example(parts=["<row>", "<rows", "<row "], lo=1, span=14)
+def test_row_start_search_matches_regex(parts: list[str], lo: int, span: int) -> None:
+    # Reference: re.finditer over the same slice, a '<row' followed by ' ' or '>'.
+    import re
+
+    from surveytools.io.preflight import _first_row_start, _last_row_start
+
+    buf = "".join(parts).encode()
+    hi = min(len(buf), lo + span)
+    starts = [m.start() + lo for m in re.finditer(rb"<row[ >]", buf[lo:hi])] if lo < hi else []
+    assert _first_row_start(buf, lo, hi) == (starts[0] if starts else -1)
+    assert _last_row_start(buf, lo, hi) == (starts[-1] if starts else -1)
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(
+    rows=st.lists(st.lists(st.tuples(st.integers(1, 40),
+                                     st.sampled_from(["v", "f", "fv", "s", "is", "empty"])),
+                           max_size=8), min_size=1, max_size=60),
+    first_row=st.integers(1, 200_000),
+    raw_step=st.sampled_from([7, 61, 500, 4096]),
+    window=st.sampled_from([64, 300, 1 << 17]),
+    merges=st.booleans(),
+)
+def test_fast_scan_equals_exact_scan(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+                                     rows: list[list[tuple[int, str]]], first_row: int,
+                                     raw_step: int, window: int, merges: bool) -> None:
+    # Reference: the exact Expat scan (OOXML rules, ECMA-376 Part 1 §18.3.1.4 c, §18.3.1.73
+    # row, §18.3.1.40 f, §18.3.1.96 v) over the same part. Tiny inflate steps and windows cut
+    # the sheet at every kind of place (inside tags, between chunks without a row start),
+    # and inline text with ':', 'f' and 'm' exercises the single-byte pre-checks.
+    import zipfile
+
+    import surveytools.io.preflight as pf
+
+    monkeypatch.setattr(pf, "_SAMPLE_BYTES", 64)
+    monkeypatch.setattr(pf, "_WINDOW", window)
+    monkeypatch.setattr(pf, "_RAW_STEP", raw_step)
+    body = []
+    for i, cells in enumerate(rows):
+        r = first_row + 3 * i
+        out = []
+        for col in sorted({c for c, _ in cells}):
+            kind = dict(cells)[col]
+            ref = f"{column_letters(col)}{r}"
+            content = {"v": "<v>1</v>", "f": "<f>SUM(A1:A2)</f>", "fv": "<f>1+1</f><v>2</v>",
+                       "s": "<v>0</v>", "is": "<is><t>of mat: 5:c</t></is>", "empty": ""}[kind]
+            typ = {"s": ' t="s"', "is": ' t="inlineStr"'}.get(kind, "")
+            out.append(f'<c r="{ref}"{typ}/>' if kind == "empty"
+                       else f'<c r="{ref}"{typ}>{content}</c>')
+        body.append(f'<row r="{r}">' + "".join(out) + "</row>")
+    xml = sheet_xml("".join(body))
+    if merges:
+        xml = xml.replace("</sheetData>", '</sheetData><mergeCells count="2"><mergeCell '
+                          'ref="A1:B2"/><mergeCell ref="C3:C9"/></mergeCells>')
+    p = build_xlsx(tmp_path / "fx.xlsx", {"Readings": xml})
+    fast = preflight(p).sheets[0]
+    with zipfile.ZipFile(p) as zf:
+        info = zf.getinfo(fast.part)
+        exact = pf._scan_exact(zf, info, fast, PreflightLimits())
+    has_cells = any(rows)
+    assert fast.max_col == exact.max_col
+    # Without any cell the fast path reports row 1 (its extent starts at A1), the exact
+    # scan the last <row> element: only sheets with cells are compared on rows.
+    if has_cells and any(c for c in rows[-1]):
+        assert fast.max_row == exact.max_row
+    assert fast.formulas_without_value == exact.formulas_without_value
+    assert fast.merged_ranges == exact.merged_ranges
+    assert fast.head == exact.head
+
+
+def test_fast_scan_equals_exact_scan_at_every_cut(tmp_path: Path,
+                                                  monkeypatch: pytest.MonkeyPatch) -> None:
+    # A stored (uncompressed) sheet is read in pieces of exactly _CHUNK bytes, so trying
+    # every piece size puts a chunk boundary at every byte of the rows: the widest cell
+    # (D), a formula without value and a merge must be found wherever the cuts fall.
+    # Reference: the exact Expat scan of the same part.
+    import zipfile
+
+    import surveytools.io.preflight as pf
+
+    rows = ('<row r="1"><c r="A1"><v>1</v></c></row>'
+            '<row r="2"><c r="A2"><v>2</v></c><c r="D2"><f>A1*2</f></c></row>'
+            '<row r="3"><c r="B3" t="inlineStr"><is><t>of: m</t></is></c></row>'
+            '<row r="4"><c r="C4"><v>3</v></c></row>')
+    xml = sheet_xml(rows).replace("</sheetData>", '</sheetData><mergeCells count="1">'
+                                  '<mergeCell ref="A3:A5"/></mergeCells>')
+    p = build_xlsx(tmp_path / "cuts.xlsx", {"Readings": xml}, compression=zipfile.ZIP_STORED)
+    monkeypatch.setattr(pf, "_SAMPLE_BYTES", 16)
+    with zipfile.ZipFile(p) as zf:
+        info = zf.getinfo("xl/worksheets/sheet1.xml")
+        exact = pf._scan_exact(zf, info, pf.SheetInfo("Readings", info.filename, "visible"),
+                               PreflightLimits())
+    assert (exact.max_row, exact.max_col) == (4, 4)  # hand-read from the rows above
+    assert exact.formulas_without_value == ("D2",)
+    for size in range(1, len(xml) + 2):
+        monkeypatch.setattr(pf, "_CHUNK", size)
+        for window in (32, 1 << 17):
+            monkeypatch.setattr(pf, "_WINDOW", window)
+            fast = preflight(p).sheets[0]
+            got = (fast.max_row, fast.max_col, fast.formulas_without_value,
+                   fast.merged_ranges, fast.head)
+            assert got == (exact.max_row, exact.max_col, exact.formulas_without_value,
+                           exact.merged_ranges, exact.head), (size, window)
