@@ -588,7 +588,12 @@ def _unusual_cell_pattern(max_col: int, digits: int, probe: bool = False) -> byt
 
 
 def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
-    """Yield the member's bytes in chunks, inflated in a helper thread, CRC checked."""
+    """Yield the member's bytes in chunks, inflated in a helper thread, CRC checked.
+
+    The helper thread inflates and checks the size; this thread computes the CRC of each
+    chunk as it takes it (zlib releases the GIL for it), which balances the two threads:
+    inflating is the longer task.
+    """
     if info.compress_type != zipfile.ZIP_DEFLATED or zf.fp is None:
         with zf.open(info) as fh:
             while chunk := fh.read(_CHUNK):
@@ -609,7 +614,6 @@ def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
     def produce() -> None:
         try:
             d = zlib.decompressobj(-15)
-            crc = 0
             size = 0
             with Path(path).open("rb") as fh:
                 fh.seek(data_start)
@@ -624,18 +628,16 @@ def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
                         raise zipfile.BadZipFile(
                             f"{info.filename} is larger than its declared size")
                     size += len(out)
-                    crc = zlib.crc32(out, crc)
                     if out:
                         q.put(out)
                 out = d.flush()
                 size += len(out)
-                crc = zlib.crc32(out, crc)
                 if out:
                     q.put(out)
             if not stop.is_set():
                 if not d.eof:
                     raise EOFError(f"{info.filename} is truncated")
-                if size != info.file_size or crc != info.CRC:
+                if size != info.file_size:
                     raise zipfile.BadZipFile(f"Bad CRC-32 or size for {info.filename}")
             q.put(None)
         except BaseException as exc:  # handed to the consumer thread
@@ -647,13 +649,17 @@ def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
     interval = sys.getswitchinterval()
     sys.setswitchinterval(_SWITCH_INTERVAL_S)
     worker.start()
+    crc = 0
     try:
         while True:
             item = q.get()
             if item is None:
+                if crc != info.CRC:
+                    raise zipfile.BadZipFile(f"Bad CRC-32 or size for {info.filename}")
                 return
             if isinstance(item, BaseException):
                 raise item
+            crc = zlib.crc32(item, crc)
             yield item
     finally:
         stop.set()

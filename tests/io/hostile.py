@@ -162,3 +162,21 @@ def patch_declared_size(path: Path, member: str, size: int) -> Path:
         pos += 4
     path.write_bytes(bytes(data))
     return path
+
+
+def patch_crc(path: Path, member: str, crc: int) -> Path:
+    """Rewrite the CRC-32 of one member (local and central headers), sizes unchanged."""
+    import struct
+
+    data = bytearray(path.read_bytes())
+    name = member.encode()
+    pos = 0
+    while (pos := data.find(b"PK\x01\x02", pos)) >= 0:  # central directory entries
+        n = struct.unpack_from("<H", data, pos + 28)[0]
+        if bytes(data[pos + 46:pos + 46 + n]) == name:
+            struct.pack_into("<I", data, pos + 16, crc)
+            local = struct.unpack_from("<I", data, pos + 42)[0]
+            struct.pack_into("<I", data, local + 14, crc)
+        pos += 4
+    path.write_bytes(bytes(data))
+    return path

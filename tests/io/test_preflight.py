@@ -29,6 +29,7 @@ from tests.io.hostile import (
     build_xlsx,
     deflate_bomb_member,
     insert_dtd,
+    patch_crc,
     patch_declared_size,
     patch_member,
     reencode,
@@ -652,3 +653,29 @@ def test_fast_scan_equals_exact_scan_at_every_cut(tmp_path: Path,
                    fast.merged_ranges, fast.head)
             assert got == (exact.max_row, exact.max_col, exact.formulas_without_value,
                            exact.merged_ranges, exact.head), (size, window)
+
+
+@pytest.mark.parametrize("compression", ["deflated", "stored"])
+def test_sheet_crc_mismatch_refused(tmp_path: Path, compression: str) -> None:
+    # PKWARE APPNOTE.TXT 4.4.7: the CRC-32 of the uncompressed data is stored in the headers;
+    # a mismatch means the part is damaged (reliability.md Z3: zip-corrupt, not a crash).
+    # The sheet is read by the threaded inflater (deflated) or by zipfile (stored), both in
+    # the fast and in the exact scan.
+    import zipfile
+    import zlib
+
+    import surveytools.io.preflight as pf
+
+    xml = sheet_xml("".join(f'<row r="{i}"><c r="A{i}"><v>{i}</v></c></row>'
+                            for i in range(1, 3000)))
+    kind = zipfile.ZIP_DEFLATED if compression == "deflated" else zipfile.ZIP_STORED
+    p = build_xlsx(tmp_path / "crc.xlsx", {"Readings": xml}, compression=kind)
+    member = "xl/worksheets/sheet1.xml"
+    patch_crc(p, member, zlib.crc32(xml.encode()) ^ 1)
+    assert "CRC" in _code(p, "zip-corrupt").message
+    with zipfile.ZipFile(p) as zf:
+        info = zf.getinfo(member)
+        s = pf.SheetInfo("Readings", member, "visible")
+        for scan in (pf._scan_fast, pf._scan_exact):
+            with pytest.raises(zipfile.BadZipFile, match="CRC"):
+                scan(zf, info, s, PreflightLimits())
