@@ -494,9 +494,9 @@ _CHUNK = 1 << 20
 #: throughout, and the inflating thread needs it between output blocks: short calls keep
 #: that thread from waiting (measured on a week of 1-s rows: 128 KiB beats 512 KiB).
 _WINDOW = 1 << 17
-#: Compressed bytes inflated per step by the helper thread (~1.7 MB of XML out, which stays
-#: in cache for the CRC and the scan; 256 KiB measured faster than 1 MiB or 4 MiB).
-_RAW_STEP = 1 << 18
+#: Compressed bytes inflated per step by the helper thread (~0.9 MB of XML out, which stays
+#: in cache for the CRC and the scan; 128-256 KiB measured faster than 1 MiB or 4 MiB).
+_RAW_STEP = 1 << 17
 #: Thread switch interval while a sheet is inflated in the helper thread [s].
 _SWITCH_INTERVAL_S = 1e-4
 #: Bytes of each sheet's XML kept in :attr:`SheetInfo.head`.
