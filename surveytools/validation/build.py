@@ -332,7 +332,7 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
     data["overload"] = pd.Series(overload[order], dtype="bool")
     data["operating"] = operating.iloc[order].reset_index(drop=True).astype("boolean")
     data["note"] = pd.Series(note[order], dtype="object")
-    readings = pd.DataFrame(data)
+    readings = pd.DataFrame(data, copy=False)  # fresh columns of our own: no copy needed
 
     # ---- exclusions --------------------------------------------------------------------
     exclusions: list[Exclusion] = []

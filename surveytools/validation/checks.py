@@ -383,10 +383,9 @@ def check_sorted_times(
     if n < 2:
         return TimeChecks(dup, overlap)
     dup[1:] = start_ms[1:] == start_ms[:-1]
-    idx = np.arange(n)
-    first_of = np.maximum.accumulate(np.where(dup, 0, idx))
     d = np.flatnonzero(dup)
     if d.size:
+        first_of = np.maximum.accumulate(np.where(dup, 0, np.arange(n)))
         collector.add_rows(
             "timestamp-duplicate", Severity.ERROR, where.sheet, rows[d], letter,
             [f"row {rows[i]} has the same start ({t}) as row {rows[first_of[i]]}; row "
@@ -394,15 +393,21 @@ def check_sorted_times(
              for i, t in zip(d, _local_text(start_ms[d[:collector.max_per_code]],
                                             offset_s[d[:collector.max_per_code]]),
                              strict=False)])
-    keep = np.flatnonzero(~dup)
-    s = start_ms[keep]
-    e = s + duration_ms[keep]
+    if d.size:
+        keep = np.flatnonzero(~dup)
+        s = start_ms[keep]
+        kept_duration = duration_ms[keep]
+    else:  # the usual case: every reading kept, no copies
+        keep = np.arange(n)
+        s = start_ms
+        kept_duration = duration_ms
+    e = s + kept_duration
     runmax = np.maximum.accumulate(e)
-    owner = np.maximum.accumulate(np.where(e == runmax, np.arange(keep.size), 0))
     ov = np.zeros(keep.size, bool)
     ov[1:] = s[1:] < runmax[:-1]
     o = np.flatnonzero(ov)
     if o.size:
+        owner = np.maximum.accumulate(np.where(e == runmax, np.arange(keep.size), 0))
         overlap[keep[o]] = True
         prev = keep[owner[o - 1]]
         collector.add_rows(
@@ -413,7 +418,7 @@ def check_sorted_times(
              for k, p in zip(o[:collector.max_per_code], prev[:collector.max_per_code],
                              strict=True)])
     step = s[1:] - s[:-1]
-    prev_len = duration_ms[keep][:-1]
+    prev_len = kept_duration[:-1]
     gap = np.flatnonzero(step > gap_factor * prev_len) + 1
     if gap.size:
         g = gap[:collector.max_per_code]

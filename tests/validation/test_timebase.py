@@ -11,6 +11,8 @@ from zoneinfo import ZoneInfo
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 from validation_builders import build, canon, dt_col, located, readings, survey_with, text_col
 
 from surveytools.validation import timebase as tb
@@ -278,3 +280,23 @@ def test_number_in_start_column_is_not_guessed():
     assert canon(located(s)) == canon([("Readings", 2, "A", "timestamp-invalid"),
                                        ("Readings", 3, "A", "timestamp-invalid")])
     assert s.readings.empty and len(s.unplaced) == 2
+
+
+@given(st.lists(st.integers(min_value=0, max_value=50), min_size=0, max_size=60),
+       st.booleans())
+def test_modal_step_matches_a_counter_reference(gaps, shuffle):
+    # Reference: collections.Counter over the positive steps between sorted distinct
+    # instants, most common first, ties to the shortest (the documented rule).
+    from collections import Counter
+
+    instants = np.cumsum(np.asarray([0, *gaps], dtype=np.int64) * 100)
+    if shuffle:
+        instants = instants[::-1].copy()
+    ordered = np.sort(instants)
+    steps = [int(x) for x in np.diff(ordered) if x > 0]
+    if not steps:
+        assert tb.modal_step_ms(instants) is None
+        return
+    counts = Counter(steps)
+    top = max(counts.values())
+    assert tb.modal_step_ms(instants) == min(s for s, c in counts.items() if c == top)
