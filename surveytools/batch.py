@@ -471,14 +471,26 @@ def _file_sha256(path: Path) -> str | None:
 
 
 def run_batch(options: BatchOptions, settings_key: str,
-              progress: Callable[[int, int, str], None] | None = None) -> BatchResult:
-    """Process every input of ``options``; never raises for a bad input."""
+              progress: Callable[[int, int, str], None] | None = None,
+              first_slot: WorkerSlot | None = None) -> BatchResult:
+    """Process every input of ``options``; never raises for a bad input.
+
+    ``first_slot`` may be a worker the caller started already (so that its imports overlap
+    the caller's own preparations); it is used for the first input and closed at the end.
+    """
     result = BatchResult()
-    first_slot = WorkerSlot(options.memory_bytes)
+    first_slot = first_slot or WorkerSlot(options.memory_bytes)
+    threading.Thread(target=_prepare_parent_imports, daemon=True).start()
     try:
         return _run_batch(options, settings_key, progress, result, first_slot)
     finally:
         first_slot.close()
+
+
+def _prepare_parent_imports() -> None:
+    """Import what the parent needs at the end (overview writer) while it waits on workers."""
+    import surveytools.io.overview
+    import surveytools.io.results_json  # noqa: F401
 
 
 def _run_batch(options: BatchOptions, settings_key: str,

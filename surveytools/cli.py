@@ -188,15 +188,32 @@ def _batch_options(args: argparse.Namespace, mode: str) -> Any:
 
 def execute_run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """Run the batch (optionally watching the folders)."""
+    from surveytools.batch import WorkerSlot
+
+    options = _batch_options(args, "run")
+    # The first worker starts importing its libraries while the settings load and the
+    # inputs are found; it is ended at once if there turns out to be nothing to do.
+    early: WorkerSlot | None = WorkerSlot(options.memory_bytes)
+    assert early is not None
+    early.start_early()
+    try:
+        return _run_cycles(args, out, err, options, early)
+    finally:
+        early.close()  # a no-op once the batch has used and closed it
+
+
+def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any,
+                early: Any) -> int:
+    """Run one batch, or keep polling with ``--watch``; return the exit code."""
     from surveytools.batch import overview_document, run_batch
 
     _settings, key = _load_settings(args.settings)
-    options = _batch_options(args, "run")
     cycles = 0
     seen: set[str] = set()
     while True:
         progress = Progress(err, not args.quiet and args.format == "text")
-        result = run_batch(options, key, progress)
+        result = run_batch(options, key, progress, first_slot=early)
+        early = None
         progress.finish()
         cycles += 1
         if args.format == "json":
