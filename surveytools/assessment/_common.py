@@ -77,6 +77,15 @@ class Pieces:
         """Piece durations (computed once) [s]."""
         return self.duration_ms / MS_PER_S
 
+    @cached_property
+    def weights_ms(self) -> FloatArray:
+        """Piece durations as exact whole-millisecond weights (for LN: only ratios count) [ms].
+
+        Sums of these are exact in double precision, so "exceeded for N % of the time" is
+        decided without rounding error even for 100 ms logs (0.1 s is not a binary fraction).
+        """
+        return self.duration_ms.astype(np.float64)
+
 
 def split(start_ms: IntArray, duration_ms: IntArray, boundaries_ms: IntArray) -> Pieces:
     """Split readings at ``boundaries_ms`` (sorted UTC instants)."""

@@ -91,7 +91,7 @@ def background_section(ctx: Context) -> dict[str, Any] | None:
     else:
         basis = BASIS_SAMPLES
         la90 = grouped_exceedance_levels(
-            levels, pieces.duration_s, valid_group, n_groups, [BACKGROUND_PERCENT],
+            levels, pieces.weights_ms, valid_group, n_groups, [BACKGROUND_PERCENT],
             level_order=ctx.piece_order(pieces),
         )[:, 0]
     la90 = np.where(valid_s > 0, la90, np.nan)

@@ -132,7 +132,7 @@ def intervals_section(ctx: Context) -> tuple[list[dict[str, Any]], dict[str, Any
     sample_percents = [p for p in percents if basis[ln_key(p)] == "samples"]
     if sample_percents:
         table = grouped_exceedance_levels(
-            piece_levels, pieces.duration_s, valid_group, n_groups, sample_percents,
+            piece_levels, pieces.weights_ms, valid_group, n_groups, sample_percents,
             level_order=ctx.piece_order(pieces),
         )
         for k, p in enumerate(sample_percents):
@@ -196,7 +196,8 @@ def overall_section(ctx: Context) -> dict[str, Any]:
     sample_percents = [p for p in percents if ctx.logged(logged_column(p)) is None]
     # invalid readings as NaN levels: the same samples as laeq[valid], in the shared order
     samples = (
-        exceedance_levels(np.where(valid, laeq, np.nan), sample_percents, durations_s,
+        exceedance_levels(np.where(valid, laeq, np.nan), sample_percents,
+                          ctx.duration_ms.astype(np.float64),  # exact ms weights
                           level_order=ctx.laeq_order())
         if sample_percents
         else np.zeros(0)
