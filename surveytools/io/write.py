@@ -21,6 +21,7 @@ import importlib.metadata
 import json
 import re
 from collections.abc import Iterable, Mapping
+from datetime import datetime
 from pathlib import Path
 from typing import Any
 
@@ -458,6 +459,14 @@ def _write_summary(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
 
 _STATUS_STYLES = {"st_ok", "st_warnings", "st_errors", "st_unreadable"}
 
+#: Day 0 of spreadsheet date serials (1900 date system, as written by xlsxwriter).
+_SERIAL_EPOCH = datetime(1899, 12, 30)
+
+
+def _excel_serial(stamp: datetime) -> float:
+    """Spreadsheet date serial (days) of a naive local date-time, for chart axis limits."""
+    return (stamp - _SERIAL_EPOCH).total_seconds() / 86_400
+
 #: Assessment days listed on the Summary (the Days sheet has them all).
 _SUMMARY_MAX_DAYS = 10
 
@@ -666,7 +675,9 @@ def _write_intervals(sw: SheetWriter, wb: Any, doc: Mapping[str, Any]) -> None:
                 "type": "cell", "criteria": ">", "value": limit, "format": fail_fmt,
             })
 
-    chart = wb.add_chart({"type": "line"})
+    # A scatter chart with lines: its x axis is continuous time. (A line chart's date axis
+    # counts whole days only, which stacks every interval of a day onto its midnight.)
+    chart = wb.add_chart({"type": "scatter", "subtype": "straight"})
     for key in ("LAeq", "LAFmax", "LA90"):
         if key not in level_cols:
             continue
@@ -675,11 +686,23 @@ def _write_intervals(sw: SheetWriter, wb: Any, doc: Mapping[str, Any]) -> None:
             "name": key,
             "categories": [ws.name, 2, 0, last, 0],
             "values": [ws.name, 2, col, last, col],
-            "line": {"width": 1.25},
+            "line": {"width": 1.0},
+            "marker": {"type": "none"},
         })
     chart.set_title({"name": "Time history"})
-    chart.set_x_axis({"name": "Local time", "date_axis": True,
-                      "num_format": "yyyy-mm-dd hh:mm", "num_font": {"rotation": -45}})
+    x_axis: dict[str, Any] = {"name": "Local time", "num_format": "dd mmm hh:mm",
+                              "num_font": {"rotation": -45},
+                              "major_gridlines": {"visible": True,
+                                                  "line": {"color": "#D9D9D9"}}}
+    first_t, _ = parse_local_timestamp(intervals[0].get("start")) if intervals else (None, "")
+    last_t, _ = parse_local_timestamp(intervals[-1].get("end")) if intervals else (None, "")
+    if first_t is not None and last_t is not None and last_t > first_t:
+        days = (last_t - first_t).total_seconds() / 86_400
+        start = first_t.replace(minute=0, second=0, microsecond=0)
+        x_axis["min"] = _excel_serial(start.replace(hour=0) if days > 2 else start)
+        x_axis["max"] = _excel_serial(last_t)
+        x_axis["major_unit"] = 1 / 6 if days <= 2 else 1.0 if days <= 14 else 7.0
+    chart.set_x_axis(x_axis)
     chart.set_y_axis({"name": "Level [dB]", "num_format": "0"})
     chart.set_legend({"position": "bottom"})
     chart.set_size({"width": 960, "height": 420})

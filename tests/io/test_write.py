@@ -231,8 +231,11 @@ def test_chart_parts_exist_for_time_history_and_daily_levels(tmp_path: Path) -> 
         names = zf.namelist()
         assert "xl/charts/chart1.xml" in names
         charts = [zf.read(n).decode() for n in names if n.startswith("xl/charts/chart")]
-    line = [c for c in charts if "<c:lineChart>" in c]
-    assert line and "<c:dateAx>" in line[0] and "Intervals!" in line[0]
+    # The time history is a scatter chart with lines: a continuous time axis (a line chart's
+    # date axis has whole-day resolution and would stack each day's intervals on midnight).
+    history = [c for c in charts if "<c:scatterChart>" in c and "Intervals!" in c]
+    assert history and "<c:valAx>" in history[0]
+    assert 'formatCode="dd mmm hh:mm"' in history[0]
     bars = [c for c in charts if "<c:barChart>" in c and "Days!" in c]
     assert bars
     assert any("<c:barChart>" in c and "Background!" in c for c in charts)
