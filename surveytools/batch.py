@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import stat
 import subprocess
 import sys
@@ -264,7 +265,10 @@ def prepare(path: Path, sha256: str | None) -> Any:
 
 def _crash_failure(path: Path, rc: int | None, err: str) -> dict[str, Any]:
     """Map a dead worker's exit status and last words to a located failure."""
-    tail = err.strip().splitlines()[-1][:300] if err.strip() else ""
+    lines = [line.strip() for line in err.strip().splitlines() if line.strip()]
+    # The most telling line: the last "SomethingError: ..." of a traceback, else the last.
+    errors = [line for line in lines if re.match(r"^[\w.]*(Error|Exception)\b", line)]
+    tail = (errors or lines or [""])[-1][:300]
     if rc in (-6, 134) or any(sign in err for sign in OUT_OF_MEMORY_SIGNS):
         code, msg = ("worker-out-of-memory",
                      "reading this file needed more memory than allowed and was stopped; the file "
@@ -412,7 +416,8 @@ class WorkerSlot:
         except ValueError:
             return _crash_failure(path, self._discard(), self._stderr_since(err_start))
         if "internal_error" in outcome:
-            return _crash_failure(path, 1, str(outcome["internal_error"]))
+            return _crash_failure(path, 1, self._stderr_since(err_start) + "\n"
+                                  + str(outcome["internal_error"]))
         return outcome
 
     def close(self) -> None:

@@ -106,23 +106,49 @@ def _totals(findings: list[dict[str, Any]]) -> dict[str, int]:
     return totals
 
 
-def build_document(path: Path, settings: Settings, source: SourceInfo | None = None,
-                   prepared: Prepared | None = None) -> tuple[dict[str, Any], Any]:
-    """Read, validate and assess one input; return (results document, annotations or None).
+@dataclass
+class ReadResult:
+    """The read phase of one input: its identity and what was read, or why it could not be."""
 
-    Never raises for a bad input: an unreadable file gives a document with status
-    ``"unreadable"`` and the fatal finding.
+    source: SourceInfo
+    raw: Any = None
+    error: WorkbookError | None = None
+
+
+def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
+               prepared: Prepared | None = None) -> ReadResult:
+    """Hash and read one input (the read phase); never raises for a bad input.
+
+    The batch worker runs this while it is still importing what the later phases need:
+    the typed parse releases the interpreter lock, so both go on at once.
     """
-    from surveytools.io.results_json import document_header, unreadable_document
-
     if source is None:
         source, prepared = _checked_source(path, prepared)
     prepared = prepared or Prepared()
     try:
         if prepared.fatal is not None:
             raise prepared.fatal
-        raw = _read_raw(path, settings, source, prepared.report)
+        return ReadResult(source, _read_raw(path, settings, source, prepared.report))
     except WorkbookError as exc:
+        return ReadResult(source, None, exc)
+
+
+def build_document(path: Path, settings: Settings, source: SourceInfo | None = None,
+                   prepared: Prepared | None = None, read: ReadResult | None = None
+                   ) -> tuple[dict[str, Any], Any]:
+    """Read, validate and assess one input; return (results document, annotations or None).
+
+    Never raises for a bad input: an unreadable file gives a document with status
+    ``"unreadable"`` and the fatal finding. ``read`` is the read phase when already done.
+    """
+    from surveytools.io.results_json import document_header, unreadable_document
+
+    if read is None:
+        read = read_input(path, settings, source, prepared)
+    source = read.source
+    raw = read.raw
+    if read.error is not None:
+        exc = read.error
         fatal = Finding(exc.code, Severity.ERROR, exc.message, exc.sheet)
         doc = unreadable_document(source, [fatal], settings)
         doc["provenance"] = library_versions()
@@ -181,7 +207,7 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
 
 
 def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
-             prepared: Prepared | None = None) -> FileOutcome:
+             prepared: Prepared | None = None, read: ReadResult | None = None) -> FileOutcome:
     """Process one input and write ``<stem>.results.xlsx`` then ``<stem>.results.json``.
 
     Outputs are written to temporary names and renamed into place; the JSON goes last, as
@@ -191,7 +217,7 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
     from surveytools.io.results_json import dumps_results
     from surveytools.io.write import write_results_workbook
 
-    doc, annotations = build_document(path, settings, prepared=prepared)
+    doc, annotations = build_document(path, settings, prepared=prepared, read=read)
     xlsx = out_dir / f"{stem}.results.xlsx"
     js = out_dir / f"{stem}.results.json"
     with atomic_path(xlsx) as tmp:
@@ -205,17 +231,16 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
                        overview=overview_row(doc, js.name, xlsx.name))
 
 
-def check_file(path: Path, settings: Settings, prepared: Prepared | None = None
-               ) -> FileOutcome:
+def check_file(path: Path, settings: Settings, prepared: Prepared | None = None,
+               read: ReadResult | None = None) -> FileOutcome:
     """Validate one input without computing or writing anything."""
     from surveytools.io.results_json import status_from_findings
 
-    source, prepared = _checked_source(path, prepared)
-    try:
-        if prepared.fatal is not None:
-            raise prepared.fatal
-        raw = _read_raw(path, settings, source, prepared.report)
-    except WorkbookError as exc:
+    if read is None:
+        read = read_input(path, settings, None, prepared)
+    source, raw = read.source, read.raw
+    if read.error is not None:
+        exc = read.error
         fatal = Finding(exc.code, Severity.ERROR, exc.message, exc.sheet)
         findings = _findings_json([fatal])
         return FileOutcome(path=str(path), file=path.name, status="unreadable",

@@ -15,6 +15,7 @@ from __future__ import annotations
 import json
 import pickle
 import sys
+import threading
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
@@ -32,19 +33,40 @@ def limit_resources(memory_bytes: int | None, cpu_seconds: int | None) -> None:
         resource.setrlimit(resource.RLIMIT_CPU, (cpu_seconds, cpu_seconds + 5))
 
 
-def warm_up() -> None:
-    """Import everything a job needs, before the job arrives (overlaps the parent's preflight)."""
-    import surveytools.assessment
+def import_for_reading() -> None:
+    """Import what the read phase needs (light: no pandas), in the main thread, first."""
+    import fastexcel  # noqa: F401
+
     import surveytools.io.read
+    import surveytools.pipeline
+    import surveytools.settings
+    import surveytools.validation.schema  # noqa: F401
+
+
+def warm_up() -> None:
+    """Import everything the later phases need (pandas, validation, assessment, writer).
+
+    Run in a background thread while the main thread waits for its first job and reads it:
+    the typed parse releases the interpreter lock, so the imports cost no wall time. Only
+    third-party libraries are imported lazily by the read phase meanwhile (numpy, pandas,
+    pyarrow), which never import our modules, so the two threads cannot wait on each other
+    in a cycle.
+    """
+    import jsonschema  # noqa: F401
+    import numpy  # noqa: F401
+    import pandas  # noqa: F401
+    import xlsxwriter  # noqa: F401
+
+    import surveytools.assessment
     import surveytools.io.results_json
     import surveytools.io.write
-    import surveytools.pipeline
     import surveytools.validation.build  # noqa: F401
 
 
-def execute_job(job: dict[str, Any]) -> dict[str, Any]:
+def execute_job(job: dict[str, Any], importer: threading.Thread | None = None
+                ) -> dict[str, Any]:
     """Run one job (``mode`` = ``run`` or ``check``) and return the outcome as JSON data."""
-    from surveytools.pipeline import Prepared, check_file, run_file
+    from surveytools.pipeline import Prepared, check_file, read_input, run_file
     from surveytools.settings import load_settings
 
     settings = load_settings(job.get("settings_path"))
@@ -54,9 +76,12 @@ def execute_job(job: dict[str, Any]) -> dict[str, Any]:
     prepared = job.get("prepared")
     if prepared is not None and not isinstance(prepared, Prepared):
         prepared = None
+    read = read_input(path, settings, None, prepared)
+    if importer is not None:
+        importer.join()
     if job["mode"] == "check":
-        return check_file(path, settings, prepared).to_json()
-    return run_file(path, Path(job["out_dir"]), job["stem"], settings, prepared).to_json()
+        return check_file(path, settings, read=read).to_json()
+    return run_file(path, Path(job["out_dir"]), job["stem"], settings, read=read).to_json()
 
 
 def _read_exactly(stream: Any, n: int) -> bytes | None:
@@ -70,7 +95,7 @@ def _read_exactly(stream: Any, n: int) -> bytes | None:
     return data
 
 
-def serve(stream_in: Any, stream_out: Any) -> int:
+def serve(stream_in: Any, stream_out: Any, importer: threading.Thread | None = None) -> int:
     """Serve jobs until the input ends: each a length-prefixed pickle, each answered by a line.
 
     A fault of ours while handling a job is answered as ``{"internal_error": ...}`` and the
@@ -89,7 +114,8 @@ def serve(stream_in: Any, stream_out: Any) -> int:
             return 0
         job = pickle.loads(payload)  # trusted: written by our own parent process
         try:
-            outcome = execute_job(job)
+            outcome = execute_job(job, importer)
+            importer = None
         except MemoryError:
             raise
         except Exception as exc:  # reported for this input only; the next job still runs
@@ -110,8 +136,10 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--memory-bytes", type=int, default=None)
     args = parser.parse_args(sys.argv[1:] if argv is None else argv)
     limit_resources(args.memory_bytes, None)
-    warm_up()
-    return serve(sys.stdin.buffer, sys.stdout.buffer)
+    import_for_reading()
+    importer = threading.Thread(target=warm_up, name="warm-up", daemon=True)
+    importer.start()
+    return serve(sys.stdin.buffer, sys.stdout.buffer, importer)
 
 
 if __name__ == "__main__":

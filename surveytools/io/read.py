@@ -27,10 +27,7 @@ import datetime as dt
 import re
 from collections.abc import Mapping, Sequence
 from pathlib import Path
-from typing import Any
-
-import numpy as np
-import pandas as pd
+from typing import TYPE_CHECKING, Any
 
 from surveytools import constants as const
 from surveytools.errors import WorkbookError
@@ -57,6 +54,11 @@ from surveytools.io.source import source_info
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
 
+if TYPE_CHECKING:  # numpy and pandas are imported where values are converted, after the
+    # fast parse has started: the batch worker imports them meanwhile (see worker.py)
+    import numpy as np
+    import pandas as pd
+
 #: Rows searched for the header row (title rows above a table are common).
 HEADER_SEARCH_ROWS = 30
 #: Data rows sampled (below the header) to choose the type of columns whose name gives none.
@@ -77,8 +79,12 @@ _EXCEL_ERRORS = {
 }
 _ERROR_DETAIL_RE = re.compile(r"Error\((\w+)\)")
 #: Day 0 of the 1900 date system: time-of-day and duration cells are placed on it.
-TIME_ONLY_EPOCH = np.datetime64("1899-12-31T00:00:00", "ms")
-_EPOCH_1904 = np.datetime64("1904-01-01T00:00:00", "ms")
+def _epochs() -> tuple[np.datetime64, np.datetime64]:
+    """(time-only epoch 1899-12-31, 1904 epoch) as datetime64[ms] (numpy imported lazily)."""
+    import numpy as np
+
+    return (np.datetime64("1899-12-31T00:00:00", "ms"),
+            np.datetime64("1904-01-01T00:00:00", "ms"))
 
 
 def sheet_key(name: str) -> str:
@@ -311,6 +317,8 @@ class _Reader:
 
     def _load(self, info: SheetInfo, header_row: int, first_col: int, headers: list[Any],
               dtypes: dict[int, str]) -> RawTable:
+        import pandas as pd
+
         n_cols = max(len(headers), info.max_col)
         if info.max_row <= header_row:  # header only
             columns = [RawColumn(_header_text(headers[j] if j < len(headers) else ""),
@@ -558,6 +566,7 @@ def _choose_dtype(header: Any, sample: Sequence[Any], vocabulary: Mapping[str, S
 
 
 def _arrow_to_column(arr: Any, header: str, letter: str, date_system: int) -> RawColumn:
+    import pandas as pd
     import pyarrow as pa
 
     typ = arr.type
@@ -569,7 +578,7 @@ def _arrow_to_column(arr: Any, header: str, letter: str, date_system: int) -> Ra
         return RawColumn(header, letter, "datetime", values)
     if pa.types.is_duration(typ):
         ms = arr.cast(pa.duration("ms")).to_numpy(zero_copy_only=False)
-        values = pd.Series(TIME_ONLY_EPOCH + ms.astype("timedelta64[ms]"), dtype="datetime64[ms]")
+        values = pd.Series(_epochs()[0] + ms.astype("timedelta64[ms]"), dtype="datetime64[ms]")
         return RawColumn(header, letter, "datetime", values)
     if pa.types.is_floating(typ) or pa.types.is_integer(typ):
         values = _series(arr.cast(pa.float64()).to_numpy(zero_copy_only=False), "float64")
@@ -586,6 +595,8 @@ def _arrow_to_column(arr: Any, header: str, letter: str, date_system: int) -> Ra
 
 def _series(values: np.ndarray, dtype: Any) -> pd.Series:
     """Wrap a converted column in a Series, copying only a read-only (zero-copy) array."""
+    import pandas as pd
+
     return pd.Series(values, dtype=dtype, copy=not values.flags.writeable)
 
 
@@ -600,6 +611,7 @@ def _suspect_texts(arr: Any) -> np.ndarray:
     A vectorised pre-check in Arrow (no Python call per cell); the reader re-checks each
     position found with :func:`surveytools.io.safetext.has_illegal_characters`.
     """
+    import numpy as np
     import pyarrow as pa
     import pyarrow.compute as pc
 
@@ -614,10 +626,14 @@ def _suspect_texts(arr: Any) -> np.ndarray:
 
 def _shift_1904_times(values: pd.Series) -> pd.Series:
     """Place 1904-system time-of-day / duration cells on the 1900 day 0, like the rest."""
+    import numpy as np
+    import pandas as pd
+
     arr = values.to_numpy()
     valid = ~np.isnat(arr)
-    if valid.any() and (arr[valid] < _EPOCH_1904 + np.timedelta64(366, "D")).all():
-        arr = np.where(valid, arr - (_EPOCH_1904 - TIME_ONLY_EPOCH), arr)
+    time_only, epoch_1904 = _epochs()
+    if valid.any() and (arr[valid] < epoch_1904 + np.timedelta64(366, "D")).all():
+        arr = np.where(valid, arr - (epoch_1904 - time_only), arr)
         return pd.Series(arr, dtype="datetime64[ms]")
     return values
 
@@ -639,6 +655,8 @@ def _last_present(column: RawColumn) -> int:
     Looks at a block at the end first, then at blocks growing eightfold towards the start:
     a column that is full to its end costs one small block, not a pass over all rows.
     """
+    import numpy as np
+
     v = column.values
     end, block = len(v), 4096
     while end > 0:
