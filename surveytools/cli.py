@@ -52,8 +52,8 @@ def build_parser() -> argparse.ArgumentParser:
                        help="report format on standard output (default: text)")
         p.add_argument("--quiet", action="store_true", help="no progress display")
         p.add_argument("--settle", type=float, default=1.0, metavar="SECONDS",
-                       help="wait this long to see whether a file is still being copied "
-                            "(default: 1)")
+                       help="wait this long to see whether a file found in a folder is "
+                            "still being copied (default: 1)")
         p.add_argument("--timeout", type=float, default=900.0, metavar="SECONDS",
                        help="time limit per input (default: 900)")
         p.add_argument("--memory-limit", type=float, default=4.0, metavar="GIB",
