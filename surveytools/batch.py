@@ -324,7 +324,6 @@ class WorkerSlot:
         self.proc: subprocess.Popen[bytes] | None = None
         self.errors: Any = None
         self._buffer = b""
-        self.used = False
 
     def _start(self) -> subprocess.Popen[bytes]:
         import tempfile
@@ -389,7 +388,6 @@ class WorkerSlot:
         import struct
 
         path = Path(job["path"])
-        self.used = True
         proc = self.proc if self.proc is not None and self.proc.poll() is None else self._start()
         # The preflight runs here while a fresh worker is still importing its libraries.
         job = dict(job, prepared=prepare(path, job.get("sha256")))
@@ -421,9 +419,14 @@ class WorkerSlot:
         return outcome
 
     def close(self) -> None:
-        """Let the worker finish (end of its input) and release its files."""
+        """End the worker and release its files.
+
+        Between jobs a worker holds nothing unwritten (each job's outputs are renamed into
+        place before it answers), so it is simply stopped: waiting for the interpreter to
+        tear down its libraries and free its heap would only delay the end of the run.
+        """
         proc, self.proc = self.proc, None
-        if proc is not None and not self.used:  # started early but never needed
+        if proc is not None and proc.poll() is None:
             proc.kill()
         if proc is not None:
             try:
