@@ -235,6 +235,9 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
             out.write(_summary_line(result.counts(), "Processed")
                       + f". Results in {options.out_dir}/ (overview.xlsx).\n")
         out.flush()
+        if os.environ.get("SURVEYTOOLS_TIMINGS"):  # for developers measuring the pipeline
+            for o in result.outcomes:
+                err.write(f"timings {o['file']}: {json.dumps(o.get('timings'))}\n")
         seen.update(o["path"] for o in result.outcomes)
         seen.update(s.path for s in result.skipped if s.status == "skipped")
         if not args.watch or (args.max_cycles and cycles >= args.max_cycles):

@@ -66,9 +66,12 @@ def warm_up() -> None:
 def execute_job(job: dict[str, Any], importer: threading.Thread | None = None
                 ) -> dict[str, Any]:
     """Run one job (``mode`` = ``run`` or ``check``) and return the outcome as JSON data."""
+    import time
+
     from surveytools.pipeline import Prepared, check_file, read_input, run_file
     from surveytools.settings import load_settings
 
+    t0 = time.perf_counter()
     settings = load_settings(job.get("settings_path"))
     if job.get("include_readings"):
         settings = replace(settings, output=replace(settings.output, include_readings=True))
@@ -77,11 +80,20 @@ def execute_job(job: dict[str, Any], importer: threading.Thread | None = None
     if prepared is not None and not isinstance(prepared, Prepared):
         prepared = None
     read = read_input(path, settings, None, prepared)
+    t_read = time.perf_counter()
     if importer is not None:
         importer.join()
+    t_ready = time.perf_counter()
     if job["mode"] == "check":
-        return check_file(path, settings, read=read).to_json()
-    return run_file(path, Path(job["out_dir"]), job["stem"], settings, read=read).to_json()
+        outcome = check_file(path, settings, read=read).to_json()
+    else:
+        outcome = run_file(path, Path(job["out_dir"]), job["stem"], settings,
+                           read=read).to_json()
+    # Where a worker's time went, for `SURVEYTOOLS_TIMINGS=1 surveytools run ...` [s].
+    outcome["timings"] = {"read_s": round(t_read - t0, 3),
+                          "wait_for_imports_s": round(t_ready - t_read, 3),
+                          "rest_s": round(time.perf_counter() - t_ready, 3)}
+    return outcome
 
 
 def _read_exactly(stream: Any, n: int) -> bytes | None:

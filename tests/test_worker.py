@@ -41,6 +41,7 @@ def test_a_stalled_input_times_out_and_the_next_input_still_runs(tmp_path: Path,
         assert slow["status"] == "unreadable"
         after = slot.run(job(good, tmp_path / "o"), timeout_s=120)
         assert after["status"] == "ok"
+        assert set(after["timings"]) == {"read_s", "wait_for_imports_s", "rest_s"}
     finally:
         slot.close()
 
