@@ -11,8 +11,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Iterable, Sequence
-from datetime import UTC, date, datetime, timedelta, timezone, tzinfo
-from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+from datetime import date, datetime, timedelta, tzinfo
 
 import numpy as np
 import pandas as pd
@@ -29,23 +28,8 @@ MS_PER_S = 1000
 MINUTES_PER_HOUR = 60
 SECONDS_PER_MINUTE = 60
 
-_FIXED_OFFSET = re.compile(r"^\s*(?:UTC|GMT)?\s*([+-])(\d{1,2})(?::?(\d{2}))?\s*$", re.I)
-
-
-def fixed_offset(text: str) -> timezone | None:
-    """Return the fixed UTC offset of ``"UTC+01:00"`` / ``"+0530"`` style text, else None."""
-    if text.strip().upper() in ("UTC", "GMT", "Z"):
-        return UTC
-    match = _FIXED_OFFSET.match(text)
-    if not match:
-        return None
-    sign = -1 if match.group(1) == "-" else 1
-    minutes = int(match.group(2)) * MINUTES_PER_HOUR + int(match.group(3) or 0)
-    return timezone(sign * timedelta(minutes=minutes))
-
-
 def position_tz(metadata: dict[str, object]) -> tzinfo:
-    """Return the time zone of the position's clock.
+    """Return the time zone of the position's clock (the rule of validation's ``parse_clock``).
 
     ``clock`` ``"UTC"`` -> UTC; ``"UTC+hh:mm"`` -> that fixed offset; ``"local"`` (or
     missing) -> ``ZoneInfo(time_zone)`` (``time_zone`` may itself be a fixed offset).
@@ -53,25 +37,21 @@ def position_tz(metadata: dict[str, object]) -> tzinfo:
     Raises
     ------
     SettingsError
-        If the zone name is unknown (validation reports it for the Survey sheet first;
-        reaching here means the default from the settings is wrong).
+        If the clock or zone is not one of those forms (validation reports it for the Survey
+        sheet first; reaching here means the default from the settings is wrong).
     """
+    from surveytools.validation.timebase import parse_clock
+
     clock = str(metadata.get("clock") or "local").strip()
-    if clock.lower() != "local":
-        fixed = fixed_offset(clock)
-        if fixed is not None:
-            return fixed
+    clock = {"local": "local", "utc": "UTC"}.get(clock.lower(), clock)
     zone = str(metadata.get("time_zone") or "UTC").strip()
-    fixed = fixed_offset(zone)
-    if fixed is not None:
-        return fixed
     try:
-        return ZoneInfo(zone)
-    except (ZoneInfoNotFoundError, ValueError) as exc:
-        raise SettingsError(
-            f"time zone {zone!r} is not an IANA zone name; give e.g. 'Europe/Berlin' "
-            "or a fixed offset such as 'UTC+01:00'"
-        ) from exc
+        return parse_clock(clock, zone).tzinfo()
+    except ValueError as exc:
+        what = (f"clock {clock!r} is not 'local', 'UTC' or 'UTC+hh:mm'" if "clock" in str(exc)
+                else f"time zone {zone!r} is not an IANA zone name; give e.g. "
+                     "'Europe/Berlin' or a fixed offset such as 'UTC+01:00'")
+        raise SettingsError(what) from exc
 
 
 def parse_hhmm(text: str) -> tuple[int, int]:

@@ -22,6 +22,7 @@ from __future__ import annotations
 import re
 import zoneinfo
 from dataclasses import dataclass, field
+from datetime import UTC, timedelta, timezone, tzinfo
 from typing import Literal
 
 import numpy as np
@@ -70,6 +71,12 @@ class Clock:
     kind: Literal["utc", "fixed", "local"]
     offset_s: int = 0
     zone: str | None = None
+
+    def tzinfo(self) -> tzinfo:
+        """Return the clock as a :class:`datetime.tzinfo` (UTC, a fixed offset or the zone)."""
+        if self.kind == "local":
+            return zoneinfo.ZoneInfo(str(self.zone))
+        return timezone(timedelta(seconds=self.offset_s)) if self.offset_s else UTC
 
     @property
     def label(self) -> str:
