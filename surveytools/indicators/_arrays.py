@@ -68,3 +68,27 @@ def scalar_or_array(values: FloatArray) -> float | FloatArray:
     if values.ndim == 0:
         return float(values)
     return values
+
+
+def grouped_arrays(levels_db: ArrayLike, durations_s: ArrayLike | None, groups: ArrayLike,
+                   n_groups: int) -> tuple[FloatArray, FloatArray, NDArray[np.int64]]:
+    """Flatten grouped inputs into (levels, weights, group index), unfiltered.
+
+    Durations default to 1 each. [dB] [s]
+
+    Raises
+    ------
+    ValueError
+        If the three inputs differ in length (a programming error).
+    """
+    levels = as_float_array(levels_db).ravel()
+    weights = (
+        np.ones(levels.shape) if durations_s is None else as_float_array(durations_s).ravel()
+    )
+    group_index = as_group_array(groups, n_groups).ravel()
+    if not (levels.shape == weights.shape == group_index.shape):
+        raise ValueError(
+            f"levels_db, durations_s and groups must have the same length; got "
+            f"{levels.size}, {weights.size} and {group_index.size}"
+        )
+    return levels, weights, group_index

@@ -15,7 +15,7 @@ from surveytools.constants import DB_PER_DECADE_POWER, LN10_OVER_10
 from surveytools.indicators._arrays import (
     FloatArray,
     as_float_array,
-    as_group_array,
+    grouped_arrays,
     scalar_or_array,
 )
 
@@ -205,16 +205,7 @@ def _grouped_inputs(
     levels_db: ArrayLike, durations_s: ArrayLike | None, groups: ArrayLike, n_groups: int
 ) -> tuple[FloatArray, FloatArray, NDArray[np.int64]]:
     """Flatten and filter grouped inputs: finite level, duration >= 0, group in range."""
-    levels = as_float_array(levels_db).ravel()
-    weights = (
-        np.ones(levels.shape) if durations_s is None else as_float_array(durations_s).ravel()
-    )
-    group_index = as_group_array(groups, n_groups).ravel()
-    if not (levels.shape == weights.shape == group_index.shape):
-        raise ValueError(
-            f"levels_db, durations_s and groups must have the same length; got "
-            f"{levels.size}, {weights.size} and {group_index.size}"
-        )
+    levels, weights, group_index = grouped_arrays(levels_db, durations_s, groups, n_groups)
     keep = np.isfinite(levels) & np.isfinite(weights) & (weights >= 0) & (group_index >= 0)
     if keep.all():  # already filtered by the caller: skip three copies
         return levels, weights, group_index

@@ -25,7 +25,11 @@ from surveytools.constants import (
     WHOLE_DB_HALF_STEP_DB,
     WHOLE_DB_STEP_DB,
 )
-from surveytools.indicators._arrays import FloatArray, as_float_array, as_group_array
+from surveytools.indicators._arrays import (
+    FloatArray,
+    as_float_array,
+    grouped_arrays,
+)
 
 __all__ = [
     "COMBINE_METHODS",
@@ -293,16 +297,7 @@ def grouped_exceedance_levels(
     .. [2] design.md §5.
     """
     targets = _cdf_targets(percents)
-    levels = as_float_array(levels_db).ravel()
-    weights = (
-        np.ones(levels.shape) if durations_s is None else as_float_array(durations_s).ravel()
-    )
-    group_index = as_group_array(groups, n_groups).ravel()
-    if not (levels.shape == weights.shape == group_index.shape):
-        raise ValueError(
-            f"levels_db, durations_s and groups must have the same length; got "
-            f"{levels.size}, {weights.size} and {group_index.size}"
-        )
+    levels, weights, group_index = grouped_arrays(levels_db, durations_s, groups, n_groups)
     out = np.full((n_groups, targets.size), np.nan)
     keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0) & (group_index >= 0)
     by_level = (_stable_order(levels) if level_order is None
