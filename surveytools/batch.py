@@ -240,27 +240,26 @@ def _worker_failure(path: Path, code: str, message: str) -> dict[str, Any]:
             "finding_totals": {"error": 1, "warning": 0, "info": 0}, "overview": {}}
 
 
-def prepare(path: Path, sha256: str | None) -> Any:
-    """Run the stdlib-only preflight of one input in this (parent) process.
+def refusal_of(path: Path) -> dict[str, Any] | None:
+    """Run the preflight in this (parent) process; return its refusal as a failure, or None.
 
-    It runs while the input's worker is still starting (importing pandas and the readers),
-    so on two cores its cost disappears from the run time. The worker re-hashes the file and
-    refuses it if it changed since. Any failure of the preflight itself is left to the
-    worker, which runs it again under its limits.
+    Used when a worker died or ran out of time: the worker starts reading while its own
+    preflight still scans the sheets, so a hostile file (a sheet far larger than it claims,
+    a zip member larger than declared) may kill the worker before that preflight could
+    refuse it. The refusal, when there is one, is the message the user should see.
     """
-    from surveytools.errors import WorkbookError
-    from surveytools.pipeline import Prepared
-
-    if path.suffix.lower() not in WORKBOOK_SUFFIXES or sha256 is None:
+    if path.suffix.lower() not in WORKBOOK_SUFFIXES:
         return None
+    from surveytools.errors import WorkbookError
     from surveytools.io.preflight import preflight
 
     try:
-        return Prepared(sha256, preflight(path), None)
+        preflight(path)
     except WorkbookError as exc:
-        return Prepared(sha256, None, exc)
-    except Exception:  # a fault of ours: the worker repeats the preflight and reports it
+        return _worker_failure(path, exc.code, exc.message)
+    except Exception:  # a fault of ours in the preflight: report the worker's failure
         return None
+    return None
 
 
 def _crash_failure(path: Path, rc: int | None, err: str) -> dict[str, Any]:
@@ -382,15 +381,18 @@ class WorkerSlot:
         _close_pipes(proc)
         return rc
 
-    def run(self, job: dict[str, Any], timeout_s: float) -> dict[str, Any]:
-        """Run one job; never raises for a failing input."""
+    def run(self, job: dict[str, Any], timeout_s: float,
+            on_sent: Callable[[], None] | None = None) -> dict[str, Any]:
+        """Run one job; never raises for a failing input.
+
+        ``on_sent`` is called once the job is handed to the worker (the parent is then idle
+        until the answer comes).
+        """
         import pickle
         import struct
 
         path = Path(job["path"])
         proc = self.proc if self.proc is not None and self.proc.poll() is None else self._start()
-        # The preflight runs here while a fresh worker is still importing its libraries.
-        job = dict(job, prepared=prepare(path, job.get("sha256")))
         err_start = self.errors.seek(0, os.SEEK_END) if self.errors is not None else 0
         deadline = time.monotonic() + timeout_s
         data = pickle.dumps(job)
@@ -400,23 +402,29 @@ class WorkerSlot:
             proc.stdin.flush()
         except (BrokenPipeError, OSError):
             return _crash_failure(path, self._discard(), self._stderr_since(err_start))
+        if on_sent is not None:
+            on_sent()
         line = self._readline(proc, deadline)
         if line is None:
             self._discard()
-            return _worker_failure(path, "worker-timeout",
-                                   f"processing took longer than {timeout_s:.0f} s and was "
-                                   "stopped; check the file is a genuine survey export, or "
-                                   "raise --timeout")
+            return refusal_of(path) or _worker_failure(
+                path, "worker-timeout", f"processing took longer than {timeout_s:.0f} s and "
+                "was stopped; check the file is a genuine survey export, or raise --timeout")
         if line == b"":
-            return _crash_failure(path, self._discard(), self._stderr_since(err_start))
+            return self._died(path, err_start)
         try:
             outcome = dict(json.loads(line))
         except ValueError:
-            return _crash_failure(path, self._discard(), self._stderr_since(err_start))
+            return self._died(path, err_start)
         if "internal_error" in outcome:
             return _crash_failure(path, 1, self._stderr_since(err_start) + "\n"
                                   + str(outcome["internal_error"]))
         return outcome
+
+    def _died(self, path: Path, err_start: int) -> dict[str, Any]:
+        """Return the failure to report for the input of a worker that died or answered garbage."""
+        rc = self._discard()
+        return refusal_of(path) or _crash_failure(path, rc, self._stderr_since(err_start))
 
     def close(self) -> None:
         """End the worker and release its files.
@@ -488,7 +496,6 @@ def run_batch(options: BatchOptions, settings_key: str,
     """
     result = BatchResult()
     first_slot = first_slot or WorkerSlot(options.memory_bytes)
-    threading.Thread(target=_prepare_parent_imports, daemon=True).start()
     try:
         return _run_batch(options, settings_key, progress, result, first_slot)
     finally:
@@ -499,6 +506,21 @@ def _prepare_parent_imports() -> None:
     """Import what the parent needs at the end (overview writer) while it waits on workers."""
     import surveytools.io.overview
     import surveytools.io.results_json  # noqa: F401
+
+
+class _OnceInBackground:
+    """Run a function once, in a background thread, on the first call."""
+
+    def __init__(self, target: Callable[[], None]) -> None:
+        self.target = target
+        self.lock = threading.Lock()
+        self.started = False
+
+    def __call__(self) -> None:
+        with self.lock:
+            if not self.started:
+                self.started = True
+                threading.Thread(target=self.target, daemon=True).start()
 
 
 def _run_batch(options: BatchOptions, settings_key: str,
@@ -558,6 +580,10 @@ def _run_batch(options: BatchOptions, settings_key: str,
     for _ in range(n_slots - 1):
         slots.put(WorkerSlot(options.memory_bytes))
 
+    # Started once the first job is handed over, not before: until then this process runs
+    # the preflight, which should not share the interpreter lock with imports.
+    parent_imports = _OnceInBackground(_prepare_parent_imports)
+
     def one(job: dict[str, Any]) -> dict[str, Any]:
         nonlocal done
         if progress:
@@ -565,7 +591,7 @@ def _run_batch(options: BatchOptions, settings_key: str,
                 progress(done, total, Path(job["path"]).name)
         slot = slots.get()
         try:
-            outcome = slot.run(job, options.timeout_s)
+            outcome = slot.run(job, options.timeout_s, on_sent=parent_imports)
         finally:
             slots.put(slot)
         with lock:

@@ -7,6 +7,7 @@ reader ends only that input. Nothing here prints; outcomes are returned as plain
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -38,46 +39,28 @@ class FileOutcome:
         return dict(self.__dict__)
 
 
-def _read_raw(path: Path, settings: Settings, source: SourceInfo | None = None,
-              report: Any = None) -> Any:
+def _read_raw(path: Path, settings: Settings, source: SourceInfo,
+              overlap_scan: bool = False, after_scan: Callable[[], None] | None = None
+              ) -> Any:
+    if (path.suffix.lower() in CSV_SUFFIXES or not overlap_scan) and after_scan is not None:
+        after_scan()  # no sheet scan runs beside this read
     if path.suffix.lower() in CSV_SUFFIXES:
         from surveytools.io.csv_input import read_csv_table
 
         return read_csv_table(path, settings)
     from surveytools.io.read import read_workbook
 
-    return read_workbook(path, settings, report=report, source=source)
+    return read_workbook(path, settings, source=source, overlap_scan=overlap_scan,
+                         after_scan=after_scan)
 
 
-@dataclass
-class Prepared:
-    """What the batch parent already learned about an input before its worker started.
-
-    Parameters
-    ----------
-    sha256 : str or None
-        Hash of the file when the parent looked at it.
-    report : PreflightReport or None
-        The parent's preflight of the file (None: the worker runs it itself).
-    fatal : WorkbookError or None
-        The preflight refused the file.
-    """
-
-    sha256: str | None = None
-    report: Any = None
-    fatal: WorkbookError | None = None
-
-
-def _checked_source(path: Path, prepared: Prepared | None) -> tuple[SourceInfo, Prepared]:
-    """Hash the input; a file that changed since the parent's preflight is refused."""
-    source = source_info(path)
-    prepared = prepared or Prepared()
-    if prepared.sha256 is not None and prepared.sha256 != source.sha256:
-        fatal = WorkbookError("file-changed",
-                              "The file changed while it was being processed (it is probably "
-                              "still being copied); run again once the copy has finished.")
-        return source, Prepared(source.sha256, None, fatal)
-    return source, prepared
+def _changed(source: SourceInfo, expected_sha256: str | None) -> WorkbookError | None:
+    """Return the refusal of a file that changed since the batch hashed it, else None."""
+    if expected_sha256 is not None and expected_sha256 != source.sha256:
+        return WorkbookError("file-changed",
+                             "The file changed while it was being processed (it is probably "
+                             "still being copied); run again once the copy has finished.")
+    return None
 
 
 def library_versions() -> dict[str, str]:
@@ -116,25 +99,34 @@ class ReadResult:
 
 
 def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
-               prepared: Prepared | None = None) -> ReadResult:
+               expected_sha256: str | None = None, overlap_scan: bool = False,
+               after_scan: Callable[[], None] | None = None) -> ReadResult:
     """Hash and read one input (the read phase); never raises for a bad input.
 
-    The batch worker runs this while it is still importing what the later phases need:
-    the typed parse releases the interpreter lock, so both go on at once.
+    ``expected_sha256`` is the hash the batch saw (a file changed since is refused);
+    ``overlap_scan`` lets the reader start while the preflight's sheet scans still run
+    (see :func:`~surveytools.io.read.read_workbook`; the batch worker, which runs under
+    memory and time limits, uses it). ``after_scan`` is called once no sheet scan runs
+    any more beside the read (at once when none is overlapped); the worker then imports
+    what the later phases need, while the typed parse goes on without the interpreter lock.
+    Callers must not rely on it being called when the file cannot be opened at all.
     """
     if source is None:
-        source, prepared = _checked_source(path, prepared)
-    prepared = prepared or Prepared()
+        try:
+            source = source_info(path)
+        except WorkbookError as exc:  # gone or unreadable since it was found
+            return ReadResult(SourceInfo(str(path), path.name, "", 0), None, exc)
+        changed = _changed(source, expected_sha256)
+        if changed is not None:
+            return ReadResult(source, None, changed)
     try:
-        if prepared.fatal is not None:
-            raise prepared.fatal
-        return ReadResult(source, _read_raw(path, settings, source, prepared.report))
+        return ReadResult(source, _read_raw(path, settings, source, overlap_scan, after_scan))
     except WorkbookError as exc:
         return ReadResult(source, None, exc)
 
 
 def build_document(path: Path, settings: Settings, source: SourceInfo | None = None,
-                   prepared: Prepared | None = None, read: ReadResult | None = None
+                   expected_sha256: str | None = None, read: ReadResult | None = None
                    ) -> tuple[dict[str, Any], Any]:
     """Read, validate and assess one input; return (results document, annotations or None).
 
@@ -144,7 +136,7 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     from surveytools.io.results_json import document_header, unreadable_document
 
     if read is None:
-        read = read_input(path, settings, source, prepared)
+        read = read_input(path, settings, source, expected_sha256)
     source = read.source
     raw = read.raw
     if read.error is not None:
@@ -207,7 +199,7 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
 
 
 def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
-             prepared: Prepared | None = None, read: ReadResult | None = None) -> FileOutcome:
+             read: ReadResult | None = None) -> FileOutcome:
     """Process one input and write ``<stem>.results.xlsx`` then ``<stem>.results.json``.
 
     Outputs are written to temporary names and renamed into place; the JSON goes last, as
@@ -217,7 +209,7 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
     from surveytools.io.results_json import dumps_results
     from surveytools.io.write import write_results_workbook
 
-    doc, annotations = build_document(path, settings, prepared=prepared, read=read)
+    doc, annotations = build_document(path, settings, read=read)
     xlsx = out_dir / f"{stem}.results.xlsx"
     js = out_dir / f"{stem}.results.json"
     with atomic_path(xlsx) as tmp:
@@ -231,13 +223,12 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
                        overview=overview_row(doc, js.name, xlsx.name))
 
 
-def check_file(path: Path, settings: Settings, prepared: Prepared | None = None,
-               read: ReadResult | None = None) -> FileOutcome:
+def check_file(path: Path, settings: Settings, read: ReadResult | None = None) -> FileOutcome:
     """Validate one input without computing or writing anything."""
     from surveytools.io.results_json import status_from_findings
 
     if read is None:
-        read = read_input(path, settings, None, prepared)
+        read = read_input(path, settings)
     source, raw = read.source, read.raw
     if read.error is not None:
         exc = read.error

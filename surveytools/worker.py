@@ -1,9 +1,9 @@
 """Worker process: runs one input's job under memory and time limits.
 
 The batch starts ``python -m surveytools.worker --serve`` for each of its job slots. The
-worker applies its memory limit, imports the heavy libraries (pandas, the readers, the
-writer) once — while the parent runs the stdlib-only preflight of the first input — and
-then serves jobs: each a length-prefixed pickled dict from the parent (the same program) on
+worker applies its memory limit, imports the readers, then imports the heavy libraries
+(pandas, the writer) once in a background thread while it reads its first input, and
+serves jobs: each a length-prefixed pickled dict from the parent (the same program) on
 standard input, each answered by one JSON line on standard output. If a native reader
 aborts or the worker runs out of memory or time, only this process dies; the batch turns
 the exit status into a finding for the input it was working on, starts a fresh worker and
@@ -43,11 +43,30 @@ def import_for_reading() -> None:
     import surveytools.validation.schema  # noqa: F401
 
 
+class _Importer:
+    """Run :func:`warm_up` once in a background thread, from the first :meth:`start`."""
+
+    def __init__(self) -> None:
+        self._lock = threading.Lock()
+        self._thread: threading.Thread | None = None
+
+    def start(self) -> None:
+        with self._lock:
+            if self._thread is None:
+                self._thread = threading.Thread(target=warm_up, name="warm-up", daemon=True)
+                self._thread.start()
+
+    def join(self) -> None:
+        if self._thread is not None:
+            self._thread.join()
+
+
 def warm_up() -> None:
     """Import everything the later phases need (pandas, validation, assessment, writer).
 
-    Run in a background thread while the main thread waits for its first job and reads it:
-    the typed parse releases the interpreter lock, so the imports cost no wall time. Only
+    Run in a background thread while the main thread reads its first job's input, from the
+    moment the preflight's sheet scan beside that read has ended: the typed parse releases
+    the interpreter lock, so the imports cost no wall time. Only
     third-party libraries are imported lazily by the read phase meanwhile (numpy, pandas,
     pyarrow), which never import our modules, so the two threads cannot wait on each other
     in a cycle.
@@ -63,12 +82,15 @@ def warm_up() -> None:
     import surveytools.validation.build  # noqa: F401
 
 
-def execute_job(job: dict[str, Any], importer: threading.Thread | None = None
-                ) -> dict[str, Any]:
-    """Run one job (``mode`` = ``run`` or ``check``) and return the outcome as JSON data."""
+def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[str, Any]:
+    """Run one job (``mode`` = ``run`` or ``check``) and return the outcome as JSON data.
+
+    ``importer``: the first job's background imports, started once the read no longer
+    shares the second core with the preflight's sheet scan.
+    """
     import time
 
-    from surveytools.pipeline import Prepared, check_file, read_input, run_file
+    from surveytools.pipeline import check_file, read_input, run_file
     from surveytools.settings import load_settings
 
     t0 = time.perf_counter()
@@ -76,12 +98,12 @@ def execute_job(job: dict[str, Any], importer: threading.Thread | None = None
     if job.get("include_readings"):
         settings = replace(settings, output=replace(settings.output, include_readings=True))
     path = Path(job["path"])
-    prepared = job.get("prepared")
-    if prepared is not None and not isinstance(prepared, Prepared):
-        prepared = None
-    read = read_input(path, settings, None, prepared)
+    # The sheet scans of the preflight run beside the parse: this process has its limits.
+    read = read_input(path, settings, None, job.get("sha256"), overlap_scan=True,
+                      after_scan=importer.start if importer is not None else None)
     t_read = time.perf_counter()
     if importer is not None:
+        importer.start()  # no-op if started already
         importer.join()
     t_ready = time.perf_counter()
     if job["mode"] == "check":
@@ -107,7 +129,7 @@ def _read_exactly(stream: Any, n: int) -> bytes | None:
     return data
 
 
-def serve(stream_in: Any, stream_out: Any, importer: threading.Thread | None = None) -> int:
+def serve(stream_in: Any, stream_out: Any, importer: _Importer | None = None) -> int:
     """Serve jobs until the input ends: each a length-prefixed pickle, each answered by a line.
 
     A fault of ours while handling a job is answered as ``{"internal_error": ...}`` and the
@@ -149,9 +171,7 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(sys.argv[1:] if argv is None else argv)
     limit_resources(args.memory_bytes, None)
     import_for_reading()
-    importer = threading.Thread(target=warm_up, name="warm-up", daemon=True)
-    importer.start()
-    return serve(sys.stdin.buffer, sys.stdout.buffer, importer)
+    return serve(sys.stdin.buffer, sys.stdout.buffer, _Importer())
 
 
 if __name__ == "__main__":

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from surveytools.io.results_json import dumps_results, validate_results
-from surveytools.pipeline import build_document, run_file
+from surveytools.pipeline import build_document, read_input, run_file
 from surveytools.settings import Settings
 from tests.workbooks import survey_workbook
 
@@ -94,25 +94,78 @@ def test_unreadable_file_gives_a_valid_unreadable_document(tmp_path: Path) -> No
     assert doc["findings"][0]["code"] == "file-not-a-zip"
 
 
-def test_a_file_changed_since_the_parents_preflight_is_refused(day_workbook: Path) -> None:
-    from surveytools.pipeline import Prepared
-
-    stale = Prepared(sha256="0" * 64)  # the parent saw other bytes than the worker reads now
-    doc, _ = build_document(day_workbook, Settings(), prepared=stale)
+def test_a_file_changed_since_the_batch_hashed_it_is_refused(day_workbook: Path) -> None:
+    stale = "0" * 64  # the batch saw other bytes than the worker reads now
+    doc, _ = build_document(day_workbook, Settings(), expected_sha256=stale)
     assert doc["status"] == "unreadable"
     assert [f["code"] for f in doc["findings"]] == ["file-changed"]
 
 
-def test_the_parents_preflight_refusal_reaches_the_document(day_workbook: Path) -> None:
-    from surveytools.batch import prepare
-    from surveytools.io.source import source_info
+def test_a_file_gone_before_its_read_is_reported_not_raised(tmp_path: Path) -> None:
+    read = read_input(tmp_path / "gone.xlsx", Settings())
+    assert read.error is not None and read.error.code == "file-unreadable"
+    doc, _ = build_document(tmp_path / "gone.xlsx", Settings(), read=read)
+    assert doc["status"] == "unreadable"
+
+
+@pytest.fixture
+def long_workbook(tmp_path: Path) -> Path:
+    """Four days of 1-minute readings: the sheet is larger than the head the preflight keeps,
+    so an overlapped read really starts before the sheet scan ends."""
+    from surveytools.io.preflight import HEAD_KEEP_BYTES, preflight_heads
+
+    levels = [50.0 + (i % 37) / 10 for i in range(6000)]
+    path = survey_workbook(tmp_path / "long.xlsx", levels=levels, step_s=60)
+    heads = preflight_heads(path)
+    assert len(heads.sheet("Readings").head) == HEAD_KEEP_BYTES
+    assert not heads.extents_known
+    return path
+
+
+@pytest.mark.parametrize("which", ["day_workbook", "long_workbook"])
+def test_overlapped_scan_reads_the_same_workbook(which: str,
+                                                 request: pytest.FixtureRequest) -> None:
+    path = request.getfixturevalue(which)
+    plain = read_input(path, Settings())
+    overlapped = read_input(path, Settings(), overlap_scan=True)
+    assert plain.error is None and overlapped.error is None
+    a, b = plain.raw, overlapped.raw
+    assert a.readings is not None and b.readings is not None
+    assert [(c.header, c.letter, c.kind) for c in a.readings.columns] == \
+        [(c.header, c.letter, c.kind) for c in b.readings.columns]
+    for x, y in zip(a.readings.columns, b.readings.columns, strict=True):
+        assert x.values.equals(y.values)
+    assert a.survey == b.survey and a.findings == b.findings
+
+
+@pytest.mark.parametrize("attack", ["billion_laughs", "bad_crc", "larger_than_declared"])
+def test_the_full_preflights_refusal_wins_over_an_overlapped_read(
+        long_workbook: Path, tmp_path: Path, attack: str) -> None:
+    """The reader may start before the sheet scans end; their refusal is what is reported."""
+    import zipfile
+
+    from tests.io.hostile import patch_crc, patch_declared_size
     from tests.workbooks import billion_laughs
 
-    hostile = billion_laughs(day_workbook.with_name("hostile.xlsx"), day_workbook)
-    prepared = prepare(hostile, source_info(hostile).sha256)
-    assert prepared is not None and prepared.fatal is not None
-    doc, _ = build_document(hostile, Settings(), prepared=prepared)
-    assert [f["code"] for f in doc["findings"]] == ["xml-doctype"]
+    day_workbook = long_workbook
+    target = tmp_path / "hostile.xlsx"
+    with zipfile.ZipFile(day_workbook) as zf:
+        sheets = [n for n in zf.namelist() if n.startswith("xl/worksheets/sheet")]
+        sizes = {n: zf.getinfo(n).file_size for n in sheets}
+    member = max(sheets, key=lambda n: sizes[n])  # the readings sheet
+    if attack == "billion_laughs":
+        billion_laughs(target, day_workbook)
+        expected = "xml-doctype"
+    elif attack == "bad_crc":
+        target.write_bytes(day_workbook.read_bytes())
+        patch_crc(target, member, 0x12345678)
+        expected = "zip-corrupt"
+    else:
+        target.write_bytes(day_workbook.read_bytes())
+        patch_declared_size(target, member, sizes[member] // 2)
+        expected = "zip-corrupt"
+    read = read_input(target, Settings(), overlap_scan=True)
+    assert read.error is not None and read.error.code == expected
 
 
 def test_a_csv_log_takes_its_survey_facts_from_the_settings(tmp_path: Path) -> None:
@@ -144,9 +197,12 @@ def test_the_summary_sheet_shows_the_figures_of_the_json(day_workbook: Path,
     out.mkdir()
     run_file(day_workbook, out, "day", Settings())
     doc = json.loads((out / "day.results.json").read_text())
-    ws = openpyxl.load_workbook(out / "day.results.xlsx", read_only=True)["Summary"]
-    shown = {str(row[0]): row[1] for row in ws.iter_rows(values_only=True)
-             if row and isinstance(row[0], str) and row[0].endswith("[dB]")}
+    wb = openpyxl.load_workbook(out / "day.results.xlsx", read_only=True)
+    try:
+        shown = {str(row[0]): row[1] for row in wb["Summary"].iter_rows(values_only=True)
+                 if row and isinstance(row[0], str) and row[0].endswith("[dB]")}
+    finally:
+        wb.close()  # a read-only workbook keeps its file open until closed
     names = {"Lden": "Lden [dB]", "Lday": "Lday [dB]", "Levening": "Levening [dB]",
              "Lnight": "Lnight [dB]", "Ldn": "Ldn [dB]", "CNEL": "CNEL [dB]",
              "LAeq_16h": "LAeq,16h [dB]", "LAeq_8h": "LAeq,8h [dB]"}

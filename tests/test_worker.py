@@ -77,3 +77,43 @@ def test_a_worker_over_its_memory_limit_is_reported_as_such(tmp_path: Path) -> N
     finally:
         slot.close()
     assert [f["code"] for f in outcome["findings"]] == ["worker-out-of-memory"]
+
+
+def _long_sheet_with_a_far_cell(path: Path) -> Path:
+    """A Readings sheet larger than the head the preflight keeps, plus a cell at XFD1048576:
+    the reader starts on it before the sheet scan has found the stray cell."""
+    from tests.io.hostile import build_xlsx, sheet_xml
+
+    header = ('<row r="1"><c r="A1" t="inlineStr"><is><t>Start</t></is></c>'
+              '<c r="B1" t="inlineStr"><is><t>LAeq (dB)</t></is></c></row>')
+    body = "".join(f'<row r="{i}"><c r="A{i}"><v>{46000 + i / 86400:.8f}</v></c>'
+                   f'<c r="B{i}"><v>50.1</v></c></row>' for i in range(2, 20_002))
+    far = '<row r="1048576"><c r="XFD1048576"><v>1</v></c></row>'
+    return build_xlsx(path, {"Readings": sheet_xml(header + body + far)})
+
+
+def test_a_sheet_the_preflight_refuses_is_reported_as_refused_by_the_worker(
+        tmp_path: Path) -> None:
+    # Whether the reader dies on the 17-billion-cell range (memory limit) or the worker's
+    # own preflight refuses first, the user sees the preflight's refusal.
+    hostile = _long_sheet_with_a_far_cell(tmp_path / "far.xlsx")
+    slot = WorkerSlot(memory_bytes=1024**3)
+    try:
+        out = slot.run(job(hostile, tmp_path / "o"), timeout_s=120)
+    finally:
+        slot.close()
+    assert [f["code"] for f in out["findings"]] == ["sheet-too-large"]
+    assert out["status"] == "unreadable"
+
+
+def test_a_worker_stopped_on_a_refused_file_reports_the_refusal(tmp_path: Path) -> None:
+    from tests.io.hostile import patch_crc
+
+    damaged = survey_workbook(tmp_path / "damaged.xlsx")
+    patch_crc(damaged, "xl/worksheets/sheet2.xml", 0x12345678)
+    slot = WorkerSlot(memory_bytes=None)
+    try:  # far too little time even to start: the parent's preflight names the fault
+        out = slot.run(job(damaged, tmp_path / "o"), timeout_s=0.01)
+    finally:
+        slot.close()
+    assert [f["code"] for f in out["findings"]] == ["zip-corrupt"]

@@ -36,7 +36,7 @@ import threading
 import zipfile
 import zlib
 from collections.abc import Iterator
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from xml.parsers import expat
 
@@ -115,12 +115,16 @@ class PreflightReport:
         Worksheets in workbook order (chart sheets are left out).
     application : str or None
         ``Application`` from ``docProps/app.xml`` (the program that saved the file).
+    extents_known : bool
+        False for a :func:`preflight_heads` report: the sheets' extents, formulas and
+        merged ranges are not known yet (only their heads).
     """
 
     path: str
     date_system: int = 1900
     sheets: list[SheetInfo] = field(default_factory=list)
     application: str | None = None
+    extents_known: bool = True
 
     def sheet(self, name: str) -> SheetInfo:
         """Return the info of the sheet called ``name`` (exact name)."""
@@ -165,6 +169,33 @@ def preflight(
         ``zip-ratio``, ``zip-encrypted-member``, ``xml-doctype``, ``xml-encoding``,
         ``sheet-too-large``.
     """
+    return _run(path, limits, scan=True)
+
+
+def preflight_heads(
+    path: str | os.PathLike[str], limits: PreflightLimits | None = None
+) -> PreflightReport:
+    """Run every check of :func:`preflight` except the worksheet extent scans.
+
+    The checks that need no full inflate of the sheets (file, format, zip directory with
+    its declared sizes and ratios, encodings and DTDs) are done; each sheet's
+    :attr:`SheetInfo.head` holds the same first bytes the full scan keeps, while its
+    extent, formulas and merged ranges are left unknown (0 / empty) and
+    :attr:`PreflightReport.extents_known` is False. A reader may start on such a report
+    only in a process with memory and time limits, and must wait for the full
+    :func:`preflight`, whose refusal wins, before it uses what it read.
+
+    Raises
+    ------
+    WorkbookError
+        As :func:`preflight`, except ``sheet-too-large`` and the refusals that only a full
+        inflate finds (``zip-corrupt`` for a bad CRC or a member larger than declared).
+    """
+    return _run(path, limits, scan=False)
+
+
+def _run(path: str | os.PathLike[str], limits: PreflightLimits | None, scan: bool
+         ) -> PreflightReport:
     lim = limits or PreflightLimits()
     p = os.fspath(path)
     head = _check_file(p, lim)
@@ -187,8 +218,13 @@ def preflight(
                         "missing. Open and re-save the file in a spreadsheet program.",
                         sheet=s.name,
                     )
-                sheets.append(_scan_sheet(zf, zf.getinfo(s.part), s, lim))
+                if scan:
+                    sheets.append(_scan_sheet(zf, zf.getinfo(s.part), s, lim))
+                else:
+                    with zf.open(s.part) as fh:
+                        sheets.append(replace(s, head=fh.read(HEAD_KEEP_BYTES)))
             report.sheets = sheets
+            report.extents_known = scan
             return report
     except WorkbookError:
         raise

@@ -25,7 +25,8 @@ from __future__ import annotations
 
 import datetime as dt
 import re
-from collections.abc import Mapping, Sequence
+import threading
+from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -40,6 +41,7 @@ from surveytools.io.preflight import (
     column_letters,
     column_number,
     preflight,
+    preflight_heads,
 )
 from surveytools.io.raw import (
     KeyValue,
@@ -103,6 +105,8 @@ def read_workbook(
     limits: PreflightLimits | None = None,
     report: PreflightReport | None = None,
     source: SourceInfo | None = None,
+    overlap_scan: bool = False,
+    after_scan: Callable[[], None] | None = None,
 ) -> RawWorkbook:
     """Read a survey workbook, safely, with every value located.
 
@@ -120,6 +124,17 @@ def read_workbook(
         changed since (same SHA-256 as ``source``).
     source : SourceInfo, optional
         The file's identity, when already hashed.
+    overlap_scan : bool
+        Without a ``report``: start reading after the checks of :func:`preflight_heads`
+        and run the worksheet extent scans of the full :func:`preflight` in a background
+        thread meanwhile (both cores busy: the typed parse releases the interpreter lock).
+        What was read is used only once the full preflight has passed; its refusal wins
+        over anything the reader found. Only for a process with memory and time limits
+        (the batch worker): a hostile file then reaches the reader before its scan ends.
+    after_scan : callable, optional
+        With ``overlap_scan``: called in the scan's thread once the full preflight ended
+        (the batch worker then starts its other imports: three busy threads on two cores
+        would slow the parse down).
 
     Returns
     -------
@@ -134,17 +149,29 @@ def read_workbook(
     """
     settings = settings or Settings()
     p = Path(path)
-    if report is None:
+    full: _Background | None = None
+    if report is None and overlap_scan:
+        report = preflight_heads(p, limits)
+        full = _Background(lambda: preflight(p, limits), after_scan)
+    elif report is None:
         report = preflight(p, limits)
     if source is None:
         source = source_info(p)
     reader = None
     try:
-        reader = _Reader(p, report, source, settings.column_map)
-        return reader.read()
+        reader = _Reader(p, report, source, settings.column_map,
+                         full.result if full is not None else None)
+        raw = reader.read()
+        if full is not None:
+            full.result()  # the full preflight's refusal wins over what was read
+        return raw
     except WorkbookError:
+        if full is not None:
+            full.result()
         raise
     except Exception as exc:  # any reader failure on a file that passed the preflight
+        if full is not None:
+            full.result()  # a file the full preflight refuses is reported as refused
         raise WorkbookError(
             "reader-failed",
             f"The workbook could not be read ({type(exc).__name__}: {str(exc)[:300]}). Open "
@@ -155,6 +182,37 @@ def read_workbook(
             reader.close()
 
 
+class _Background:
+    """Run a function (then ``then``) in a background thread.
+
+    :meth:`result` waits for it and returns its value or raises its exception.
+    """
+
+    def __init__(self, fn: Callable[[], PreflightReport],
+                 then: Callable[[], None] | None = None) -> None:
+        self._value: PreflightReport | None = None
+        self._error: BaseException | None = None
+
+        def target() -> None:
+            try:
+                self._value = fn()
+            except BaseException as exc:  # handed to the caller of result()
+                self._error = exc
+            finally:
+                if then is not None:
+                    then()
+
+        self._thread = threading.Thread(target=target, name="preflight-scan", daemon=True)
+        self._thread.start()
+
+    def result(self) -> PreflightReport:
+        self._thread.join()
+        if self._error is not None:
+            raise self._error
+        assert self._value is not None
+        return self._value
+
+
 # --------------------------------------------------------------------------------------
 # Implementation
 # --------------------------------------------------------------------------------------
@@ -162,9 +220,11 @@ def read_workbook(
 
 class _Reader:
     def __init__(self, path: Path, report: PreflightReport, source: SourceInfo,
-                 column_map: Mapping[str, str]) -> None:
+                 column_map: Mapping[str, str],
+                 full_report: Callable[[], PreflightReport] | None = None) -> None:
         self.path = path
         self.report = report
+        self._full_report = full_report
         self.source = source
         self.column_map = dict(column_map)
         self.findings: list[Finding] = []
@@ -179,6 +239,16 @@ class _Reader:
             self._parts.close()
         if self._calamine is not None:
             self._calamine.close()
+
+    def _exact(self, info: SheetInfo | None = None) -> SheetInfo | None:
+        """Switch to the full preflight's report (waiting for it if the scans still run).
+
+        Returns the exact info of sheet ``info`` (by name), or None without ``info``.
+        """
+        if not self.report.extents_known:
+            assert self._full_report is not None, "a heads-only report needs the full one"
+            self.report = self._full_report()
+        return self.report.sheet(info.name) if info is not None else None
 
     def calamine(self) -> Any:
         """Return the python-calamine workbook, opening it on first use."""
@@ -242,6 +312,7 @@ class _Reader:
             ))
 
     def _find_readings_by_signature(self) -> SheetInfo | None:
+        self._exact()
         for info in self.report.sheets:
             if info.visibility != "visible" or info.max_row == 0:
                 continue
@@ -299,13 +370,19 @@ class _Reader:
         headers = head[r]
         sample = head[r + 1:]
         first_col = next(i for i, h in enumerate(headers) if _has_text(h))
+        if len(info.head) < HEAD_KEEP:  # the whole sheet was in the head: small, so wait
+            info = self._exact(info) or info
+        # Columns the head does not reach take "auto" (no header, no sample), so without a
+        # known extent the head's width gives the same choices.
+        width = (info.max_col if self.report.extents_known
+                 else max((len(row) for row in head), default=0))
         dtypes = {}
-        for j in range(first_col, max(len(headers), info.max_col)):
+        for j in range(first_col, max(len(headers), width)):
             header = headers[j] if j < len(headers) else ""
             dtypes[j] = _choose_dtype(header, [row[j] if j < len(row) else "" for row in sample],
                                       vocabulary, self.column_map)
         table = self._load(info, header_row, first_col, headers, dtypes)
-        self._locate_sheet_extras(info, table)
+        self._locate_sheet_extras(self._exact(info) or info, table)
         return table
 
     def _fx(self) -> Any:
@@ -320,20 +397,27 @@ class _Reader:
         import pandas as pd
 
         n_cols = max(len(headers), info.max_col)
-        if info.max_row <= header_row:  # header only
+        if self.report.extents_known and info.max_row <= header_row:  # header only
             columns = [RawColumn(_header_text(headers[j] if j < len(headers) else ""),
                                  column_letters(j + 1), "empty", pd.Series([], dtype=object))
                        for j in range(first_col, n_cols) if _has_text(headers[j])]
             return RawTable(info.name, header_row, columns, 0)
         # Columns are chosen and typed by absolute sheet index (0 = column A); a column the
         # sheet's cell range does not reach is simply absent.
-        sheet = self._fx().load_sheet(
-            info.name, header_row=header_row - 1,
-            use_columns=lambda c: c.absolute_index >= first_col,
-            dtypes={k: v for k, v in dtypes.items() if v != "auto"},
-            schema_sample_rows=None, dtype_coercion="coerce",
-        )
-        batch, errors = sheet.to_arrow_with_errors()
+        try:
+            sheet = self._fx().load_sheet(
+                info.name, header_row=header_row - 1,
+                use_columns=lambda c: c.absolute_index >= first_col,
+                dtypes={k: v for k, v in dtypes.items() if v != "auto"},
+                schema_sample_rows=None, dtype_coercion="coerce",
+            )
+            batch, errors = sheet.to_arrow_with_errors()
+        except Exception:
+            exact = self._exact(info) if not self.report.extents_known else None
+            if exact is not None and exact.max_row <= header_row:  # header only, after all
+                return self._load(exact, header_row, first_col, headers, dtypes)
+            raise
+        info = self._exact(info) or info  # formulas without value: from the full scan
         selected = list(sheet.selected_columns)
         abs_index = [c.absolute_index for c in selected]
         # A cell error names its column by the range index, not by the batch position.
@@ -458,6 +542,7 @@ class _Reader:
     # -- key/value sheet ----------------------------------------------------------------
 
     def _read_key_values(self, info: SheetInfo) -> KeyValueSheet:
+        info = self._exact(info) or info
         rows = self._all_rows(info, min(KEY_VALUE_MAX_ROWS, max(info.max_row, 1)))
         key_col = None
         for j in range(max((len(r) for r in rows), default=0)):
