@@ -122,6 +122,21 @@ def _stable_group_sort(group_index: NDArray[np.int64], n_groups: int) -> NDArray
     return np.argsort(group_index, kind="stable")
 
 
+def _weights(levels_db: ArrayLike, durations_s: ArrayLike | None) -> FloatArray:
+    """One weight per level, flattened: the durations broadcast to the levels, or ones."""
+    shape = as_float_array(levels_db).shape
+    if durations_s is None:
+        return np.ones(int(np.prod(shape)))
+    weights = as_float_array(durations_s)
+    try:
+        return np.broadcast_to(weights, shape).ravel()
+    except ValueError as exc:
+        raise ValueError(
+            f"levels_db has {int(np.prod(shape))} values but durations_s has shape "
+            f"{weights.shape}; pass one duration per level (or one for all)"
+        ) from exc
+
+
 def _sorted_valid(
     levels_db: ArrayLike, durations_s: ArrayLike | None,
     order: ArrayLike | None = None,
@@ -131,17 +146,7 @@ def _sorted_valid(
     ``order`` is the stable level order of all of ``levels_db`` when the caller has it.
     """
     levels = as_float_array(levels_db).ravel()
-    if durations_s is None:
-        weights = np.ones(levels.shape)
-    else:
-        weights = as_float_array(durations_s)
-        try:
-            weights = np.broadcast_to(weights, as_float_array(levels_db).shape).ravel()
-        except ValueError as exc:
-            raise ValueError(
-                f"levels_db has {levels.size} values but durations_s has shape "
-                f"{weights.shape}; pass one duration per level (or one for all)"
-            ) from exc
+    weights = _weights(levels_db, durations_s)
     keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0)
     if order is None:
         levels, weights = levels[keep], weights[keep]
@@ -202,6 +207,13 @@ def exceedance_levels(
     .. [2] design.md §5 (the convention pinned here).
     """
     targets = _cdf_targets(percents)
+    flat = as_float_array(levels_db).ravel()
+    if level_order is not None:
+        _check_order(level_order, flat.size)  # a caller's mistake is refused either way
+    counted = _histogram_levels(flat, _weights(levels_db, durations_s),
+                                np.zeros(flat.size, np.int64), 1, targets)
+    if counted is not None:
+        return counted[0]
     levels, weights = _sorted_valid(levels_db, durations_s, level_order)
     out = np.full(targets.shape, np.nan)
     if levels.size == 0:
@@ -298,6 +310,11 @@ def grouped_exceedance_levels(
     """
     targets = _cdf_targets(percents)
     levels, weights, group_index = grouped_arrays(levels_db, durations_s, groups, n_groups)
+    if level_order is not None:
+        _check_order(level_order, levels.size)  # a caller's mistake is refused either way
+    counted = _histogram_levels(levels, weights, group_index, n_groups, targets)
+    if counted is not None:
+        return counted
     out = np.full((n_groups, targets.size), np.nan)
     keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0) & (group_index >= 0)
     by_level = (_stable_order(levels) if level_order is None
@@ -340,6 +357,82 @@ _GRID_PROBE = 1024
 #: significand).
 _EXACT_GRID = 1024.0
 _EXACT_LIMIT = 2.0**53
+
+
+#: Largest level-histogram size (groups x level steps) of :func:`_histogram_levels`, as a
+#: multiple of the number of samples, and the size always allowed (own choice: beyond
+#: that, sorting is cheaper and lighter on memory).
+_HISTOGRAM_CELLS_PER_SAMPLE = 2
+_HISTOGRAM_MIN_CELLS = 1 << 16
+
+
+def _grid_steps(values: FloatArray) -> tuple[NDArray[np.int64], float] | None:
+    """Whole-number steps ``k`` with ``k / steps_per_db == value`` exactly, for all values.
+
+    ``values`` are finite. None when they are not all on a 0.1 dB or 0.01 dB grid, or
+    when a negative zero is among them (its step would give back +0.0).
+    """
+    head = values[:_GRID_PROBE]
+    for steps_per_db in _LEVEL_STEPS_PER_DB:
+        if not np.array_equal(np.rint(head * steps_per_db) / steps_per_db, head):
+            continue
+        steps = np.rint(values * steps_per_db)
+        if not np.array_equal(steps / steps_per_db, values):
+            continue
+        if np.any((values == 0) & np.signbit(values)):
+            return None
+        return steps.astype(np.int64), steps_per_db
+    return None
+
+
+def _histogram_levels(
+    levels: FloatArray, weights: FloatArray, group_index: NDArray[np.int64], n_groups: int,
+    targets: FloatArray,
+) -> FloatArray | None:
+    """LN per group by counting time per level step instead of sorting; None if not exact.
+
+    Applies when every counted level lies on a 0.1 dB (or 0.01 dB) grid and every weight
+    on a 1/1024 grid with a total below 2**53 units (whole milliseconds, whole seconds):
+    then every partial sum of weights is exact in binary64 whatever the order of
+    addition, so the cumulative time at the end of each level step equals, bit for bit,
+    the cumulative weight of the last sample of that step in the sorted order of
+    :func:`grouped_exceedance_levels`, and the first step whose normalised cumulative
+    time reaches ``1 - N/100`` holds the first sample that does: the results are
+    identical, in time linear in the number of samples.
+    """
+    keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0) & (group_index >= 0)
+    if not keep.all():
+        levels, weights, group_index = levels[keep], weights[keep], group_index[keep]
+    if levels.size == 0:
+        return None
+    scaled = weights * _EXACT_GRID
+    if not (np.all(scaled == np.rint(scaled)) and float(np.sum(scaled)) < _EXACT_LIMIT):
+        return None
+    grid = _grid_steps(levels)
+    if grid is None:
+        return None
+    steps, steps_per_db = grid
+    low = int(steps.min())
+    n_steps = int(steps.max()) - low + 1
+    if n_groups * n_steps > max(_HISTOGRAM_CELLS_PER_SAMPLE * levels.size,
+                                _HISTOGRAM_MIN_CELLS):
+        return None
+    cell = group_index * n_steps + (steps - low)
+    time_per_step = np.bincount(cell, weights=weights, minlength=n_groups * n_steps)
+    time_per_step = time_per_step.reshape(n_groups, n_steps)
+    cumulative = np.cumsum(time_per_step, axis=1)
+    totals = cumulative[:, -1]
+    has_samples = totals > 0
+    cdf = cumulative[has_samples] / totals[has_samples, None]
+    occupied = time_per_step[has_samples] > 0
+    out = np.full((n_groups, targets.size), np.nan)
+    for column, target in enumerate(targets):
+        if not np.isfinite(target):
+            continue
+        # the first occupied step reaching the target (an empty step adds no sample)
+        step = np.argmax(occupied & (cdf >= target), axis=1)
+        out[has_samples, column] = (low + step) / steps_per_db
+    return out
 
 
 def _segmented_cumsum(

@@ -310,3 +310,74 @@ def test_grouped_uneven_groups_inexact_durations_loop_path():
     out = grouped_exceedance_levels(levels, durations, groups, 2001, [10, 90])
     np.testing.assert_array_equal(out[0], exceedance_levels(big, [10, 90], durations[:3000]))
     np.testing.assert_array_equal(out[1:, 0], np.arange(2000, dtype=float))
+
+
+# Levels on the 0.1 dB grid (as meters log them) with whole-millisecond weights: the
+# counting path applies; with it switched off the same call sorts.
+tenth_db_st = st.integers(min_value=250, max_value=950).map(lambda k: k / 10)
+ms_st = st.integers(min_value=1, max_value=900_000).map(float)
+
+
+def _sorted_path(monkeypatch: pytest.MonkeyPatch, fn, *args, **kwargs):
+    from surveytools.indicators import percentiles
+
+    with monkeypatch.context() as m:
+        m.setattr(percentiles, "_histogram_levels", lambda *a, **k: None)
+        return fn(*args, **kwargs)
+
+
+@given(
+    st.lists(st.tuples(tenth_db_st, ms_st, st.integers(min_value=-1, max_value=7)),
+             min_size=1, max_size=120),
+)
+def test_counting_path_equals_sorting_and_numpy(samples):
+    from surveytools.indicators.percentiles import _histogram_levels
+
+    levels, weights, groups = (np.array(x) for x in zip(*samples, strict=True))
+    percents = [0.0, 1.0, 10.0, 50.0, 90.0, 99.0, 100.0]
+    targets = 1 - np.array(percents) / 100
+    counted = _histogram_levels(levels, weights, groups.astype(np.int64), 8, targets)
+    if not (groups >= 0).any():
+        assert counted is None  # nothing to count: the sorting path answers (all NaN)
+        return
+    assert counted is not None  # this data takes the counting path
+    with pytest.MonkeyPatch.context() as mp:
+        sorted_out = _sorted_path(mp, grouped_exceedance_levels, levels, weights, groups, 8,
+                                  percents)
+    np.testing.assert_array_equal(grouped_exceedance_levels(levels, weights, groups, 8,
+                                                            percents), sorted_out)
+    for g in range(8):
+        sel = groups == g
+        if sel.any():  # reference: numpy's weighted inverted_cdf quantile
+            expected = [numpy_ln(levels[sel], p, weights[sel]) for p in percents]
+            np.testing.assert_array_equal(counted[g], expected)
+        else:
+            assert np.isnan(counted[g]).all()
+
+
+@given(st.lists(st.tuples(tenth_db_st, ms_st), min_size=1, max_size=80), percent_st)
+def test_ungrouped_counting_path_equals_sorting(samples, percent):
+    levels, weights = (np.array(x) for x in zip(*samples, strict=True))
+    with pytest.MonkeyPatch.context() as mp:
+        sorted_out = _sorted_path(mp, exceedance_levels, levels, [percent], weights)
+    np.testing.assert_array_equal(exceedance_levels(levels, [percent], weights), sorted_out)
+    assert sorted_out[0] == numpy_ln(levels, percent, weights)
+
+
+def test_counting_path_declines_what_it_cannot_do_exactly():
+    from surveytools.indicators.percentiles import _histogram_levels
+
+    targets = np.array([0.1, 0.5, 0.9])
+    one = np.zeros(4, np.int64)
+    on_grid = np.array([40.1, 40.2, 55.5, 60.0])
+    # 0.1 s weights are not binary fractions: partial sums would round
+    assert _histogram_levels(on_grid, np.full(4, 0.1), one, 1, targets) is None
+    # levels off the 0.01 dB grid
+    assert _histogram_levels(on_grid + 1e-3, np.ones(4), one, 1, targets) is None
+    # a negative zero would come back as +0.0
+    assert _histogram_levels(np.array([-0.0, 1.0, 2.0, 3.0]), np.ones(4), one, 1,
+                             targets) is None
+    # too many cells (groups x level steps) for the number of samples
+    wide = np.array([10.0, 20.0, 130.0, 140.0])  # 1,301 steps of 0.1 dB
+    assert _histogram_levels(wide, np.ones(4), np.arange(4), 5000, targets) is None
+    assert _histogram_levels(on_grid, np.ones(4), one, 1, targets) is not None
