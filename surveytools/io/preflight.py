@@ -145,7 +145,8 @@ class PreflightReport:
 
 
 def preflight(
-    path: str | os.PathLike[str], limits: PreflightLimits | None = None
+    path: str | os.PathLike[str], limits: PreflightLimits | None = None,
+    *, helper_thread: bool = True,
 ) -> PreflightReport:
     """Check that ``path`` is a workbook that is safe to read, and describe it.
 
@@ -155,6 +156,10 @@ def preflight(
         The input file (opened read-only; never modified).
     limits : PreflightLimits, optional
         Limits to apply (defaults: :class:`PreflightLimits`).
+    helper_thread : bool
+        Inflate each sheet in a helper thread while this one scans it (fastest when the
+        preflight has both cores). False when a reader runs beside it: three busy threads
+        on two cores cost more than they gain.
 
     Returns
     -------
@@ -169,7 +174,7 @@ def preflight(
         ``zip-ratio``, ``zip-encrypted-member``, ``xml-doctype``, ``xml-encoding``,
         ``sheet-too-large``.
     """
-    return _run(path, limits, scan=True)
+    return _run(path, limits, scan=True, threaded=helper_thread)
 
 
 def preflight_heads(
@@ -191,11 +196,11 @@ def preflight_heads(
         As :func:`preflight`, except ``sheet-too-large`` and the refusals that only a full
         inflate finds (``zip-corrupt`` for a bad CRC or a member larger than declared).
     """
-    return _run(path, limits, scan=False)
+    return _run(path, limits, scan=False, threaded=False)
 
 
-def _run(path: str | os.PathLike[str], limits: PreflightLimits | None, scan: bool
-         ) -> PreflightReport:
+def _run(path: str | os.PathLike[str], limits: PreflightLimits | None, scan: bool,
+         threaded: bool) -> PreflightReport:
     lim = limits or PreflightLimits()
     p = os.fspath(path)
     head = _check_file(p, lim)
@@ -219,7 +224,7 @@ def _run(path: str | os.PathLike[str], limits: PreflightLimits | None, scan: boo
                         sheet=s.name,
                     )
                 if scan:
-                    sheets.append(_scan_sheet(zf, zf.getinfo(s.part), s, lim))
+                    sheets.append(_scan_sheet(zf, zf.getinfo(s.part), s, lim, threaded))
                 else:
                     with zf.open(s.part) as fh:
                         sheets.append(replace(s, head=fh.read(HEAD_KEEP_BYTES)))
@@ -623,12 +628,13 @@ def _unusual_cell_pattern(max_col: int, digits: int, probe: bool = False) -> byt
     return (start + '(?! r="' + ok + ")").encode()
 
 
-def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
-    """Yield the member's bytes in chunks, inflated in a helper thread, CRC checked.
+def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo, threaded: bool = True
+             ) -> Iterator[bytes]:
+    """Yield the member's bytes in chunks, size and CRC checked.
 
-    The helper thread inflates and checks the size; this thread computes the CRC of each
-    chunk as it takes it (zlib releases the GIL for it), which balances the two threads:
-    inflating is the longer task.
+    ``threaded``: a helper thread inflates and checks the size while this thread computes
+    the CRC of each chunk as it takes it (zlib releases the GIL for it), which balances
+    the two threads: inflating is the longer task. Otherwise this thread does both.
     """
     if info.compress_type != zipfile.ZIP_DEFLATED or zf.fp is None:
         with zf.open(info) as fh:
@@ -644,37 +650,60 @@ def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
             raise zipfile.BadZipFile(f"bad local header for {info.filename}")
         name_len, extra_len = struct.unpack("<HH", local[26:30])
         data_start = info.header_offset + 30 + name_len + extra_len
+    pieces = (_inflated_in_helper(Path(path), info, data_start) if threaded
+              else _inflated(Path(path), info, data_start, threading.Event()))
+    crc = 0
+    for item in pieces:
+        crc = zlib.crc32(item, crc)
+        yield item
+    if crc != info.CRC:
+        raise zipfile.BadZipFile(f"Bad CRC-32 or size for {info.filename}")
+
+
+def _inflated(path: Path, info: zipfile.ZipInfo, data_start: int, stop: threading.Event
+              ) -> Iterator[bytes]:
+    """Inflate one deflated member from ``data_start``, in chunks.
+
+    Refuses a member larger than declared, truncated, or of another size than declared;
+    ``stop`` ends it early, unchecked.
+    """
+    d = zlib.decompressobj(-15)
+    size = 0
+    with path.open("rb") as fh:
+        fh.seek(data_start)
+        left = info.compress_size
+        while left and not stop.is_set():
+            raw = fh.read(min(_RAW_STEP, left))
+            if not raw:
+                raise EOFError(f"{info.filename} is truncated")
+            left -= len(raw)
+            out = d.decompress(raw, info.file_size - size + 1)
+            if d.unconsumed_tail:
+                raise zipfile.BadZipFile(f"{info.filename} is larger than its declared size")
+            size += len(out)
+            if out:
+                yield out
+        out = d.flush()
+        size += len(out)
+        if out:
+            yield out
+    if not stop.is_set():
+        if not d.eof:
+            raise EOFError(f"{info.filename} is truncated")
+        if size != info.file_size:
+            raise zipfile.BadZipFile(f"Bad CRC-32 or size for {info.filename}")
+
+
+def _inflated_in_helper(path: Path, info: zipfile.ZipInfo, data_start: int
+                        ) -> Iterator[bytes]:
+    """:func:`_inflated`, run in a helper thread; its chunks and errors handed over here."""
     q: queue.Queue[bytes | BaseException | None] = queue.Queue(maxsize=3)
     stop = threading.Event()
 
     def produce() -> None:
         try:
-            d = zlib.decompressobj(-15)
-            size = 0
-            with Path(path).open("rb") as fh:
-                fh.seek(data_start)
-                left = info.compress_size
-                while left and not stop.is_set():
-                    raw = fh.read(min(_RAW_STEP, left))
-                    if not raw:
-                        raise EOFError(f"{info.filename} is truncated")
-                    left -= len(raw)
-                    out = d.decompress(raw, info.file_size - size + 1)
-                    if d.unconsumed_tail:
-                        raise zipfile.BadZipFile(
-                            f"{info.filename} is larger than its declared size")
-                    size += len(out)
-                    if out:
-                        q.put(out)
-                out = d.flush()
-                size += len(out)
-                if out:
-                    q.put(out)
-            if not stop.is_set():
-                if not d.eof:
-                    raise EOFError(f"{info.filename} is truncated")
-                if size != info.file_size:
-                    raise zipfile.BadZipFile(f"Bad CRC-32 or size for {info.filename}")
+            for out in _inflated(path, info, data_start, stop):
+                q.put(out)
             q.put(None)
         except BaseException as exc:  # handed to the consumer thread
             q.put(exc)
@@ -685,17 +714,13 @@ def _inflate(zf: zipfile.ZipFile, info: zipfile.ZipInfo) -> Iterator[bytes]:
     interval = sys.getswitchinterval()
     sys.setswitchinterval(_SWITCH_INTERVAL_S)
     worker.start()
-    crc = 0
     try:
         while True:
             item = q.get()
             if item is None:
-                if crc != info.CRC:
-                    raise zipfile.BadZipFile(f"Bad CRC-32 or size for {info.filename}")
                 return
             if isinstance(item, BaseException):
                 raise item
-            crc = zlib.crc32(item, crc)
             yield item
     finally:
         stop.set()
@@ -724,14 +749,14 @@ def _check_extent(sheet: str, rows: int, cols: int, lim: PreflightLimits) -> Non
 
 
 def _scan_sheet(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
-                lim: PreflightLimits) -> SheetInfo:
+                lim: PreflightLimits, threaded: bool = True) -> SheetInfo:
     try:
         try:
-            return _scan_fast(zf, info, sheet, lim)
+            return _scan_fast(zf, info, sheet, lim, threaded=threaded)
         except _NeedExactRowsError:
-            return _scan_fast(zf, info, sheet, lim, exact_rows=True)
+            return _scan_fast(zf, info, sheet, lim, exact_rows=True, threaded=threaded)
     except _NeedExactError:
-        return _scan_exact(zf, info, sheet, lim)
+        return _scan_exact(zf, info, sheet, lim, threaded)
 
 
 def _last_row_start(buf: bytes | bytearray, lo: int, hi: int) -> int:
@@ -761,7 +786,8 @@ def _first_row_start(buf: bytes | bytearray, lo: int, hi: int) -> int:
 
 
 def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
-               lim: PreflightLimits, exact_rows: bool = False) -> SheetInfo:
+               lim: PreflightLimits, exact_rows: bool = False, threaded: bool = True
+               ) -> SheetInfo:
     max_row = 0
     max_col = 0
     row_bound = 0
@@ -818,7 +844,7 @@ def _scan_fast(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
         """Last start of a ``<row`` element in ``buf[lo:hi]`` (-1 if none)."""
         return _last_row_start(buf, lo, hi)
 
-    for chunk in _inflate(zf, info):
+    for chunk in _inflate(zf, info, threaded):
         if len(head) < HEAD_KEEP_BYTES:
             head += chunk[: HEAD_KEEP_BYTES - len(head)]
         if first:
@@ -868,7 +894,7 @@ _A1_RE = re.compile(r"^\$?([A-Za-z]{1,3})\$?([0-9]{1,7})$")
 
 
 def _scan_exact(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
-                lim: PreflightLimits) -> SheetInfo:
+                lim: PreflightLimits, threaded: bool = True) -> SheetInfo:
     """Expat scan following OOXML's rules for omitted references; elements by local name."""
     state = {"row": 0, "col": 0, "max_row": 0, "max_col": 0, "in_cell": False,
              "has_f": False, "has_v": False, "in_v": False}
@@ -943,7 +969,7 @@ def _scan_exact(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,
     parser.StartDoctypeDeclHandler = doctype
     parser.EntityDeclHandler = doctype
     head = b""
-    for chunk in _inflate(zf, info):
+    for chunk in _inflate(zf, info, threaded):
         if len(head) < HEAD_KEEP_BYTES:
             head += chunk[: HEAD_KEEP_BYTES - len(head)]
         parser.Parse(chunk, False)

@@ -152,7 +152,7 @@ def read_workbook(
     full: _Background | None = None
     if report is None and overlap_scan:
         report = preflight_heads(p, limits)
-        full = _Background(lambda: preflight(p, limits), after_scan)
+        full = _Background(lambda: preflight(p, limits, helper_thread=False), after_scan)
     elif report is None:
         report = preflight(p, limits)
     if source is None:

@@ -178,6 +178,7 @@ def test_declared_size_smaller_than_real(tmp_path: Path) -> None:
     p = build_xlsx(tmp_path / "lie.xlsx", {"Readings": sheet_xml(rows)})
     patch_declared_size(p, "xl/worksheets/sheet1.xml", 5_000)
     _code(p, "zip-corrupt")
+    _code(p, "zip-corrupt", helper_thread=False)  # inflated by the scanning thread itself
 
 
 def test_genuine_week_ratio_accepted() -> None:
@@ -673,9 +674,21 @@ def test_sheet_crc_mismatch_refused(tmp_path: Path, compression: str) -> None:
     member = "xl/worksheets/sheet1.xml"
     patch_crc(p, member, zlib.crc32(xml.encode()) ^ 1)
     assert "CRC" in _code(p, "zip-corrupt").message
+    assert "CRC" in _code(p, "zip-corrupt", helper_thread=False).message
     with zipfile.ZipFile(p) as zf:
         info = zf.getinfo(member)
         s = pf.SheetInfo("Readings", member, "visible")
         for scan in (pf._scan_fast, pf._scan_exact):
-            with pytest.raises(zipfile.BadZipFile, match="CRC"):
-                scan(zf, info, s, PreflightLimits())
+            for threaded in (True, False):
+                with pytest.raises(zipfile.BadZipFile, match="CRC"):
+                    scan(zf, info, s, PreflightLimits(), threaded=threaded)
+
+
+def test_with_or_without_the_helper_thread_the_report_is_the_same(tmp_path: Path) -> None:
+    rows = "".join(f'<row r="{i}"><c r="A{i}"><v>{i}</v></c><c r="C{i}"><f>A{i}*2</f></c>'
+                   '</row>' for i in range(1, 40_000))  # several inflate chunks
+    p = build_xlsx(tmp_path / "two.xlsx", {"Readings": sheet_xml(rows)})
+    threaded, alone = preflight(p), preflight(p, helper_thread=False)
+    assert threaded == alone
+    assert threaded.sheets[0].max_row == 39_999 and threaded.sheets[0].max_col == 3
+    assert len(threaded.sheets[0].formulas_without_value) == 39_999
