@@ -303,6 +303,7 @@ OUT_OF_MEMORY_SIGNS = ("MemoryError", "memory allocation", "Cannot allocate memo
 #: virtual machines a 7 MB temporary cost ~15 ms in page faults; validation of 864,000 rows
 #: went from 0.55 s to 0.33 s). Ignored by other C libraries.
 WORKER_MALLOC_ENV = {
+    "MALLOC_ARENA_MAX": "1",
     "MALLOC_MMAP_THRESHOLD_": str(32 * 1024 * 1024),
     "MALLOC_TRIM_THRESHOLD_": str(1024 * 1024 * 1024),
     "MALLOC_TOP_PAD_": str(64 * 1024 * 1024),
