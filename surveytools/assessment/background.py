@@ -92,7 +92,7 @@ def background_section(ctx: Context) -> dict[str, Any] | None:
         basis = BASIS_SAMPLES
         la90 = grouped_exceedance_levels(
             levels, pieces.weights_ms, valid_group, n_groups, [BACKGROUND_PERCENT],
-            level_order=ctx.piece_order(pieces),
+            level_order=lambda: ctx.piece_order(pieces),
         )[:, 0]
     la90 = np.where(valid_s > 0, la90, np.nan)
     sufficient = (length_s > 0) & (valid_s >= ctx.settings.coverage_threshold * length_s)

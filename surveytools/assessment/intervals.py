@@ -133,7 +133,7 @@ def intervals_section(ctx: Context) -> tuple[list[dict[str, Any]], dict[str, Any
     if sample_percents:
         table = grouped_exceedance_levels(
             piece_levels, pieces.weights_ms, valid_group, n_groups, sample_percents,
-            level_order=ctx.piece_order(pieces),
+            level_order=lambda: ctx.piece_order(pieces),
         )
         for k, p in enumerate(sample_percents):
             ln[ln_key(p)] = table[:, k]
@@ -198,7 +198,7 @@ def overall_section(ctx: Context) -> dict[str, Any]:
     samples = (
         exceedance_levels(np.where(valid, laeq, np.nan), sample_percents,
                           ctx.duration_ms.astype(np.float64),  # exact ms weights
-                          level_order=ctx.laeq_order())
+                          level_order=ctx.laeq_order)
         if sample_percents
         else np.zeros(0)
     )

@@ -17,6 +17,8 @@ samples); callers label which basis they used.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
@@ -163,7 +165,7 @@ def exceedance_levels(
     levels_db: ArrayLike,
     percents: ArrayLike,
     durations_s: ArrayLike | None = None,
-    level_order: ArrayLike | None = None,
+    level_order: ArrayLike | Callable[[], ArrayLike] | None = None,
 ) -> FloatArray:
     r"""Exceedance levels LN for several N at once.
 
@@ -175,9 +177,10 @@ def exceedance_levels(
         The N values. [%]
     durations_s : array-like, optional
         Time each sample represents (weights); equal if omitted. [s]
-    level_order : array-like of int, optional
+    level_order : array-like of int, or a function returning it, optional
         :func:`level_order` of ``levels_db``, when several computations share it (it
-        saves the sort; the result is the same).
+        saves the sort; the result is the same). A function is called only when a sort
+        is needed (levels on a 0.1 dB grid with exact weights are counted, not sorted).
 
     Returns
     -------
@@ -208,13 +211,14 @@ def exceedance_levels(
     """
     targets = _cdf_targets(percents)
     flat = as_float_array(levels_db).ravel()
-    if level_order is not None:
+    if level_order is not None and not callable(level_order):
         _check_order(level_order, flat.size)  # a caller's mistake is refused either way
     counted = _histogram_levels(flat, _weights(levels_db, durations_s),
                                 np.zeros(flat.size, np.int64), 1, targets)
     if counted is not None:
         return counted[0]
-    levels, weights = _sorted_valid(levels_db, durations_s, level_order)
+    levels, weights = _sorted_valid(levels_db, durations_s,
+                                    level_order() if callable(level_order) else level_order)
     out = np.full(targets.shape, np.nan)
     if levels.size == 0:
         return out
@@ -265,7 +269,7 @@ def grouped_exceedance_levels(
     groups: ArrayLike,
     n_groups: int,
     percents: ArrayLike,
-    level_order: ArrayLike | None = None,
+    level_order: ArrayLike | Callable[[], ArrayLike] | None = None,
 ) -> FloatArray:
     """Exceedance levels LN per group, vectorised over all groups at once.
 
@@ -289,9 +293,10 @@ def grouped_exceedance_levels(
         Number of groups.
     percents : array-like
         The N values. [%]
-    level_order : array-like of int, optional
+    level_order : array-like of int, or a function returning it, optional
         :func:`level_order` of ``levels_db``, when several groupings of the same samples
-        share it (it saves the sort; the result is the same).
+        share it (it saves the sort; the result is the same). A function is called only
+        when a sort is needed (see :func:`exceedance_levels`).
 
     Returns
     -------
@@ -310,13 +315,15 @@ def grouped_exceedance_levels(
     """
     targets = _cdf_targets(percents)
     levels, weights, group_index = grouped_arrays(levels_db, durations_s, groups, n_groups)
-    if level_order is not None:
+    if level_order is not None and not callable(level_order):
         _check_order(level_order, levels.size)  # a caller's mistake is refused either way
     counted = _histogram_levels(levels, weights, group_index, n_groups, targets)
     if counted is not None:
         return counted
     out = np.full((n_groups, targets.size), np.nan)
     keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0) & (group_index >= 0)
+    if callable(level_order):
+        level_order = level_order()
     by_level = (_stable_order(levels) if level_order is None
                 else _check_order(level_order, levels.size))
     by_level = by_level[keep[by_level]]

@@ -381,3 +381,30 @@ def test_counting_path_declines_what_it_cannot_do_exactly():
     wide = np.array([10.0, 20.0, 130.0, 140.0])  # 1,301 steps of 0.1 dB
     assert _histogram_levels(wide, np.ones(4), np.arange(4), 5000, targets) is None
     assert _histogram_levels(on_grid, np.ones(4), one, 1, targets) is not None
+
+
+def test_a_level_order_function_is_called_only_when_sorting():
+    calls = []
+
+    def order_of(levels):
+        def make():
+            calls.append(1)
+            return level_order(levels)
+        return make
+
+    on_grid = np.array([45.2, 47.0, 45.2, 60.1, 52.3])
+    ms = np.array([1000.0, 1000.0, 500.0, 250.0, 1000.0])
+    groups = np.array([0, 0, 1, 1, 1])
+    counted = grouped_exceedance_levels(on_grid, ms, groups, 2, [10, 90],
+                                        level_order=order_of(on_grid))
+    assert calls == []
+    off_grid = on_grid + 0.001  # not on a 0.1 or 0.01 dB grid: sorted
+    sorted_out = grouped_exceedance_levels(off_grid, ms, groups, 2, [10, 90],
+                                           level_order=order_of(off_grid))
+    assert calls == [1]
+    np.testing.assert_array_equal(sorted_out, counted + 0.001)
+    # hand-evaluated: group 0 holds 45.2 and 47.0 for 1 s each -> L10 47.0, L90 45.2
+    np.testing.assert_array_equal(counted[0], [47.0, 45.2])
+    assert exceedance_levels(off_grid, [50], ms, level_order=order_of(off_grid))[0] == \
+        pytest.approx(47.001)
+    assert calls == [1, 1]
