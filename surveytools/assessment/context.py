@@ -19,6 +19,7 @@ from surveytools.assessment._common import (
     split,
 )
 from surveytools.assessment.timegrid import calendar_days, position_tz
+from surveytools.indicators.levels import grouped_energy_sums, level_from_energy_sums
 from surveytools.indicators.percentiles import level_order
 from surveytools.settings import Settings
 from surveytools.survey import Survey
@@ -188,6 +189,58 @@ class Context:
             cached = (pieces, levels[chosen], durations[chosen], chosen)
             self.cache[key] = cached
         return cached[1], cached[2], cached[3]
+
+    def _segment_energy(self) -> tuple[FloatArray, FloatArray, float] | None:
+        """Relative energy and valid time [ms] of each union segment (valid pieces).
+
+        None before :meth:`share_boundaries`. The energies are relative to the loudest
+        valid piece (see :func:`grouped_energy_sums`).
+        """
+        pieces: Pieces | None = self.shared.get("pieces")
+        if pieces is None:
+            return None
+        cached = self.cache.get(("segment_energy", id(pieces)))
+        if cached is None or cached[0] is not pieces:
+            levels, _, chosen = self.valid_pieces(pieces)
+            reference = float(levels.max()) if levels.size else 0.0
+            n_segments = int(self.shared["union"].size) + 1
+            energy, time_ms = grouped_energy_sums(
+                levels, pieces.weights_ms[chosen], pieces.segment[chosen], n_segments,
+                reference)
+            cached = (pieces, energy, time_ms, reference)
+            self.cache[("segment_energy", id(pieces))] = cached
+        return cached[1], cached[2], cached[3]
+
+    def grouped_laeq(self, bounds_ms: IntArray) -> tuple[FloatArray, FloatArray] | None:
+        """LAeq and valid time [s] of each interval of ``bounds_ms``, from segment sums.
+
+        The valid pieces' energies are summed once per segment of the shared union grid;
+        an interval of a grid of union instants is a run of those segments, so its sums
+        come from them without another pass over the pieces. None when ``bounds_ms`` is
+        not such a grid (the caller then groups the pieces itself).
+        """
+        sums = self._segment_energy()
+        if sums is None or not self._in_union(bounds_ms):
+            return None
+        energy, time_ms, reference = sums
+        union: IntArray = self.shared["union"]
+        n_groups = max(bounds_ms.size - 1, 0)
+        per_union = np.concatenate(
+            ([0], np.searchsorted(bounds_ms, union, side="right"))).astype(np.int64)
+        group = segment_groups(per_union, n_groups)
+        inside = group >= 0
+        group_energy = np.bincount(group[inside], weights=energy[inside], minlength=n_groups)
+        group_ms = np.bincount(group[inside], weights=time_ms[inside], minlength=n_groups)
+        return (level_from_energy_sums(group_energy, group_ms, reference),
+                group_ms / MS_PER_S)
+
+    def total_laeq(self) -> float | None:
+        """LAeq over all valid time, from the segment sums; None before the split."""
+        sums = self._segment_energy()
+        if sums is None:
+            return None
+        energy, time_ms, reference = sums
+        return float(level_from_energy_sums(energy.sum(), time_ms.sum(), reference))
 
     @property
     def n(self) -> int:

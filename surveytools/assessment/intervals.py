@@ -118,7 +118,8 @@ def intervals_section(ctx: Context) -> tuple[list[dict[str, Any]], dict[str, Any
     valid_group = np.where(ctx.valid[pieces.index], group, -1)
     piece_levels = ctx.piece_levels(pieces)
     chosen_levels, chosen_s, chosen = ctx.valid_pieces(pieces)
-    leq, valid_s = grouped_energy_average_and_duration(
+    summed = ctx.grouped_laeq(bounds)
+    leq, valid_s = summed if summed is not None else grouped_energy_average_and_duration(
         chosen_levels, chosen_s, group[chosen], n_groups)
     lengths_s = np.diff(bounds) / 1000.0
     valid_fraction = np.divide(valid_s, lengths_s, out=np.zeros(n_groups), where=lengths_s > 0)
@@ -176,6 +177,14 @@ def intervals_section(ctx: Context) -> tuple[list[dict[str, Any]], dict[str, Any
     return out, basis
 
 
+def _overall_laeq(ctx: Context, laeq: FloatArray, valid: np.ndarray) -> float:
+    """LAeq over all valid time: from the shared segment sums, else from the readings."""
+    total = ctx.total_laeq()
+    if total is not None:
+        return total
+    return energy_average(laeq[valid], ctx.duration_ms[valid] / 1000.0)
+
+
 def overall_section(ctx: Context) -> dict[str, Any]:
     """Whole-survey LAeq, LAFmax, LAFmin and LN over all valid time."""
     settings = ctx.settings
@@ -185,7 +194,7 @@ def overall_section(ctx: Context) -> dict[str, Any]:
     assert laeq is not None
     durations_s = ctx.duration_ms / 1000.0
     out: dict[str, Any] = {
-        "LAeq": db(energy_average(laeq[valid], durations_s[valid])) if valid.any() else None,
+        "LAeq": db(_overall_laeq(ctx, laeq, valid)) if valid.any() else None,
     }
     for column, reducer in (("LAFmax", np.max), ("LAFmin", np.min)):
         values = ctx.level(column)

@@ -26,8 +26,10 @@ __all__ = [
     "from_energy",
     "grouped_energy_average",
     "grouped_energy_average_and_duration",
+    "grouped_energy_sums",
     "grouped_max",
     "grouped_valid_duration",
+    "level_from_energy_sums",
     "to_energy",
 ]
 
@@ -391,3 +393,91 @@ def grouped_energy_average_and_duration(
     ratio = np.divide(energy, total, out=np.ones(n_groups), where=ok)
     level = np.where(ok, peak + DB_PER_DECADE_POWER * np.log10(ratio), np.nan)
     return level, total.astype(np.float64)
+
+
+def grouped_energy_sums(
+    levels_db: ArrayLike, durations: ArrayLike | None, groups: ArrayLike, n_groups: int,
+    reference_db: float,
+) -> tuple[FloatArray, FloatArray]:
+    r"""Time-integrated relative energy and time per group, to be added up later.
+
+    .. math:: E_g = \sum_{i \in g} t_i 10^{(L_i - L_\mathrm{ref})/10}, \quad
+              T_g = \sum_{i \in g} t_i
+
+    Sums over disjoint sets of samples add: the sums of fine groups (e.g. the stretches
+    between every boundary of several period schemes) combine into the sums of any
+    coarser grouping made of them, and :func:`level_from_energy_sums` turns those into
+    energy-average levels, without another pass over the samples.
+
+    Parameters
+    ----------
+    levels_db : array-like
+        Levels, one per sample; non-finite ones are left out. [dB]
+    durations : array-like or None
+        Time each sample represents, in any unit (whole milliseconds keep the time sums
+        exact); 1 each if None; samples with a non-positive or non-finite duration are
+        left out.
+    groups : array-like of int
+        Group index per sample, ``0 .. n_groups-1``; -1 means the sample is in no group.
+    n_groups : int
+        Number of groups.
+    reference_db : float
+        Level the energies are relative to; the highest level of the samples keeps every
+        term at most the sample's duration (no overflow whatever the levels). [dB]
+
+    Returns
+    -------
+    energy : numpy.ndarray
+        :math:`E_g`, shape ``(n_groups,)``, in the unit of ``durations``.
+    time : numpy.ndarray
+        :math:`T_g`, shape ``(n_groups,)``, in the unit of ``durations``.
+
+    Raises
+    ------
+    ValueError
+        If the inputs differ in length or ``n_groups`` is negative (programming errors).
+
+    References
+    ----------
+    .. [1] ISO 1996-1:2016, equivalent continuous sound pressure level (a time integral
+       of squared sound pressure, hence additive over disjoint times).
+    """
+    levels, weights, group_index = _grouped_inputs(levels_db, durations, groups, n_groups)
+    positive = weights > 0
+    if not positive.all():
+        levels, weights, group_index = levels[positive], weights[positive], group_index[positive]
+    energy = np.bincount(group_index, weights=weights * np.exp((levels - reference_db)
+                                                                * LN10_OVER_10),
+                         minlength=n_groups)
+    time = np.bincount(group_index, weights=weights, minlength=n_groups)
+    return energy.astype(np.float64), time.astype(np.float64)
+
+
+def level_from_energy_sums(energy: ArrayLike, time: ArrayLike, reference_db: float
+                           ) -> FloatArray:
+    r"""Energy-average level from summed relative energy and time.
+
+    .. math:: L = L_\mathrm{ref} + 10 \lg (E / T)
+
+    Parameters
+    ----------
+    energy, time : array-like
+        Sums from :func:`grouped_energy_sums` (added up over any set of its groups).
+    reference_db : float
+        The reference level those sums used. [dB]
+
+    Returns
+    -------
+    numpy.ndarray
+        Energy-average level; NaN where the time or the energy is zero. [dB]
+
+    References
+    ----------
+    .. [1] ISO 1996-1:2016, equivalent continuous sound pressure level.
+    """
+    e = as_float_array(energy)
+    t = as_float_array(time)
+    ok = (t > 0) & (e > 0)
+    ratio = np.divide(e, t, out=np.ones(np.broadcast(e, t).shape), where=ok)
+    out: FloatArray = np.where(ok, reference_db + DB_PER_DECADE_POWER * np.log10(ratio), np.nan)
+    return out

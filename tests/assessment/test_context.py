@@ -73,3 +73,31 @@ def test_touched_groups_are_the_groups_holding_pieces():
         expected = np.zeros(n_groups, bool)
         expected[np.unique(group[group >= 0])] = True  # reference: numpy unique
         np.testing.assert_array_equal(ctx.touched_groups(bounds, pieces, group), expected)
+
+
+def test_laeq_from_segment_sums_equals_grouping_the_pieces():
+    from surveytools.indicators.levels import grouped_energy_average_and_duration
+
+    ctx, _ = _context()
+    hour = 3_600_000
+    grid_a = np.arange(int(ctx.start_ms[0]) - hour, int(ctx.end_ms[-1]) + hour, 900_000)
+    grid_b = grid_a[::4] + 60_000
+    assert ctx.grouped_laeq(grid_a) is None  # nothing shared yet
+    ctx.share_boundaries([grid_a, grid_b])
+    for bounds in (grid_a, grid_b):
+        summed = ctx.grouped_laeq(bounds)
+        assert summed is not None
+        pieces, group = ctx.pieces_in(bounds)
+        levels, seconds, chosen = ctx.valid_pieces(pieces)
+        level, valid_s = grouped_energy_average_and_duration(
+            levels, seconds, group[chosen], bounds.size - 1)
+        np.testing.assert_allclose(summed[0], level, rtol=0, atol=1e-9)
+        np.testing.assert_allclose(summed[1], valid_s, rtol=1e-12)
+    assert ctx.grouped_laeq(grid_a[1:-1] + 1234) is None  # not a grid of the union
+    laeq = ctx.level("LAeq")
+    assert laeq is not None
+    from surveytools.indicators.levels import energy_average
+
+    keep = ctx.valid & np.isfinite(laeq)
+    assert ctx.total_laeq() == pytest.approx(
+        energy_average(laeq[keep], ctx.duration_ms[keep] / 1000.0), abs=1e-9)

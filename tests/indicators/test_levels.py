@@ -16,8 +16,10 @@ from surveytools.indicators.levels import (
     from_energy,
     grouped_energy_average,
     grouped_energy_average_and_duration,
+    grouped_energy_sums,
     grouped_max,
     grouped_valid_duration,
+    level_from_energy_sums,
     to_energy,
 )
 
@@ -278,3 +280,41 @@ def test_level_and_duration_hand_evaluated_sorted_runs():
     np.testing.assert_array_equal(valid_s, [14400.0, 900.0, 0.0, 2.0])
     np.testing.assert_array_equal(grouped_max(levels, [0, 0, 1, 3, 3, 3], 4),
                                   [70.0, 55.0, np.nan, 40.0])
+
+
+def test_energy_sums_of_fine_groups_give_the_coarse_levels_hand_evaluated():
+    # Hand-evaluated (equal-energy rule, ISO 1996-1 LAeq): 93 dB and 89 dB for 1 s each
+    # average to 10 lg((1.99526e9 + 7.94328e8) / 2) = 91.4451 dB; adding 50 dB for 2 s gives
+    # 10 lg((2.78959e9 + 2e5) / 4) = 88.4351 dB.
+    levels = np.array([93.0, 89.0, 50.0, 50.0])
+    ms = np.array([1000.0, 1000.0, 1000.0, 1000.0])
+    fine = np.array([0, 1, 2, 2])
+    energy, time = grouped_energy_sums(levels, ms, fine, 3, reference_db=93.0)
+    assert time.tolist() == [1000.0, 1000.0, 2000.0]
+    first_two = level_from_energy_sums(energy[:2].sum(), time[:2].sum(), 93.0)
+    assert float(first_two) == pytest.approx(10 * math.log10((10**9.3 + 10**8.9) / 2), abs=1e-9)
+    assert float(first_two) == pytest.approx(91.4451, abs=5e-5)
+    everything = level_from_energy_sums(energy.sum(), time.sum(), 93.0)
+    assert float(everything) == pytest.approx(88.4351, abs=5e-5)
+    assert np.isnan(level_from_energy_sums(0.0, 0.0, 93.0))
+
+
+@given(
+    st.lists(st.tuples(levels_st, st.integers(min_value=1, max_value=10**7).map(float),
+                       st.integers(min_value=-1, max_value=9)), min_size=1, max_size=60),
+)
+def test_energy_sums_combine_like_grouped_energy_average(samples):
+    # Fine groups 0..9 merged into coarse groups g // 3 (9 -> 3): summing the fine sums
+    # gives the coarse energy averages of grouped_energy_average (itself checked against
+    # published sums above), whatever the reference level.
+    levels, ms, fine = (np.array(x) for x in zip(*samples, strict=True))
+    reference = float(levels.max())
+    energy, time = grouped_energy_sums(levels, ms, fine, 10, reference)
+    coarse_of_fine = np.arange(10) // 3
+    coarse_energy = np.bincount(coarse_of_fine, weights=energy, minlength=4)
+    coarse_time = np.bincount(coarse_of_fine, weights=time, minlength=4)
+    got = level_from_energy_sums(coarse_energy, coarse_time, reference)
+    expected, valid_ms = grouped_energy_average_and_duration(
+        levels, ms, np.where(fine >= 0, fine // 3, -1), 4)
+    np.testing.assert_allclose(got, expected, rtol=0, atol=1e-9)
+    np.testing.assert_array_equal(coarse_time, valid_ms)
