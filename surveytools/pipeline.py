@@ -40,10 +40,10 @@ class FileOutcome:
 
 
 def _read_raw(path: Path, settings: Settings, source: SourceInfo,
-              overlap_scan: bool = False, after_scan: Callable[[], None] | None = None
+              overlap_scan: bool = False,
+              scan_hooks: tuple[Callable[[], None] | None, Callable[[], None] | None] = (None,
+                                                                                          None)
               ) -> Any:
-    if (path.suffix.lower() in CSV_SUFFIXES or not overlap_scan) and after_scan is not None:
-        after_scan()  # no sheet scan runs beside this read
     if path.suffix.lower() in CSV_SUFFIXES:
         from surveytools.io.csv_input import read_csv_table
 
@@ -51,7 +51,7 @@ def _read_raw(path: Path, settings: Settings, source: SourceInfo,
     from surveytools.io.read import read_workbook
 
     return read_workbook(path, settings, source=source, overlap_scan=overlap_scan,
-                         after_scan=after_scan)
+                         before_scan=scan_hooks[0], after_scan=scan_hooks[1])
 
 
 def _changed(source: SourceInfo, expected_sha256: str | None) -> WorkbookError | None:
@@ -100,16 +100,18 @@ class ReadResult:
 
 def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
                expected_sha256: str | None = None, overlap_scan: bool = False,
-               after_scan: Callable[[], None] | None = None) -> ReadResult:
+               scan_hooks: tuple[Callable[[], None] | None, Callable[[], None] | None] = (None,
+                                                                                          None)
+               ) -> ReadResult:
     """Hash and read one input (the read phase); never raises for a bad input.
 
     ``expected_sha256`` is the hash the batch saw (a file changed since is refused);
     ``overlap_scan`` lets the reader start while the preflight's sheet scans still run
     (see :func:`~surveytools.io.read.read_workbook`; the batch worker, which runs under
-    memory and time limits, uses it). ``after_scan`` is called once no sheet scan runs
-    any more beside the read (at once when none is overlapped); the worker then imports
-    what the later phases need, while the typed parse goes on without the interpreter lock.
-    Callers must not rely on it being called when the file cannot be opened at all.
+    memory and time limits, uses it). ``scan_hooks`` are run in the scan's thread before
+    and after an overlapped scan (the worker imports what the later phases need, while
+    the typed parse goes on without the interpreter lock); they are not called when no
+    scan is overlapped (a CSV input, a file refused before its parse).
     """
     if source is None:
         try:
@@ -120,7 +122,7 @@ def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
         if changed is not None:
             return ReadResult(source, None, changed)
     try:
-        return ReadResult(source, _read_raw(path, settings, source, overlap_scan, after_scan))
+        return ReadResult(source, _read_raw(path, settings, source, overlap_scan, scan_hooks))
     except WorkbookError as exc:
         return ReadResult(source, None, exc)
 

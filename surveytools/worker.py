@@ -64,28 +64,49 @@ def prefault_heap(n_bytes: int) -> None:
 
 
 class _Importer:
-    """Run :func:`warm_up` once in a background thread, from the first :meth:`start`.
+    """The first job's :func:`warm_up` and heap pre-faulting, each run once.
 
-    ``prefault_bytes``: then pre-fault that much heap (:func:`prefault_heap`).
+    In the worker's overlapped read both run in the preflight scan's thread, around the
+    scan (:meth:`imports_here`, :meth:`prefault_here`); otherwise (a CSV input, a file
+    refused early) :meth:`start` runs the imports in a thread of their own.
     """
 
     def __init__(self) -> None:
         self._lock = threading.Lock()
+        self._imported = False
+        self._prefaulted = False
         self._thread: threading.Thread | None = None
         self.prefault_bytes = 0
 
-    def _run(self) -> None:
-        warm_up()
-        if self.prefault_bytes:
+    def _claim(self, what: str) -> bool:
+        with self._lock:
+            if getattr(self, what):
+                return False
+            setattr(self, what, True)
+            return True
+
+    def imports_here(self) -> None:
+        if self._claim("_imported"):
+            warm_up()
+
+    def prefault_here(self) -> None:
+        if self.prefault_bytes and self._claim("_prefaulted"):
             prefault_heap(self.prefault_bytes)
 
     def start(self) -> None:
+        """Run the imports in a background thread if they have not run (see :meth:`join`).
+
+        The pre-faulting is left out: it only pays beside a long parse.
+        """
         with self._lock:
-            if self._thread is None:
-                self._thread = threading.Thread(target=self._run, name="warm-up", daemon=True)
-                self._thread.start()
+            if self._thread is not None or self._imported:
+                return
+            self._thread = threading.Thread(target=self.imports_here, name="warm-up",
+                                            daemon=True)
+            self._thread.start()
 
     def join(self) -> None:
+        """Wait for the imports (a thread of :meth:`start`, if one was needed)."""
         if self._thread is not None:
             self._thread.join()
 
@@ -93,9 +114,9 @@ class _Importer:
 def warm_up() -> None:
     """Import everything the later phases need (pandas, validation, assessment, writer).
 
-    Run in a background thread while the main thread reads its first job's input, from the
-    moment the preflight's sheet scan beside that read has ended: the typed parse releases
-    the interpreter lock, so the imports cost no wall time. Only
+    Run in a background thread while the main thread reads its first job's input, before
+    the preflight's sheet scan beside that read: the typed parse releases the interpreter
+    lock, so the imports cost no wall time. Only
     third-party libraries are imported lazily by the read phase meanwhile (numpy, pandas,
     pyarrow), which never import our modules, so the two threads cannot wait on each other
     in a cycle.
@@ -119,6 +140,7 @@ def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[
     """
     import time
 
+    from surveytools.io.kinds import WORKBOOK_SUFFIXES
     from surveytools.pipeline import check_file, read_input, run_file
     from surveytools.settings import load_settings
 
@@ -134,11 +156,15 @@ def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[
             size = 0
         importer.prefault_bytes = min(PREFAULT_MAX_BYTES, PREFAULT_PER_INPUT_BYTE * size)
     # The sheet scans of the preflight run beside the parse: this process has its limits.
+    hooks = ((importer.imports_here, importer.prefault_here) if importer is not None
+             else (None, None))
+    if importer is not None and path.suffix.lower() not in WORKBOOK_SUFFIXES:
+        importer.start()  # no scan beside this read: import meanwhile in a thread
     read = read_input(path, settings, None, job.get("sha256"), overlap_scan=True,
-                      after_scan=importer.start if importer is not None else None)
+                      scan_hooks=hooks)
     t_read = time.perf_counter()
     if importer is not None:
-        importer.start()  # no-op if started already
+        importer.start()  # what has not run yet (a file refused before its parse)
         importer.join()
     t_ready = time.perf_counter()
     if job["mode"] == "check":

@@ -208,3 +208,41 @@ def test_the_summary_sheet_shows_the_figures_of_the_json(day_workbook: Path,
              "LAeq_16h": "LAeq,16h [dB]", "LAeq_8h": "LAeq,8h [dB]"}
     for key, label in names.items():
         assert shown[label] == pytest.approx(round(doc["survey_average"][key], 1), abs=1e-9)
+
+
+def test_scan_hooks_run_around_the_overlapped_scan(long_workbook: Path) -> None:
+    import threading
+
+    from surveytools.io import read as read_module
+
+    events: list[tuple[str, str]] = []
+    release = threading.Event()
+    after_done = threading.Event()
+    real_preflight = read_module.preflight
+
+    def watched_preflight(*args, **kwargs):  # type: ignore[no-untyped-def]
+        events.append(("scan", threading.current_thread().name))
+        return real_preflight(*args, **kwargs)
+
+    def before() -> None:
+        events.append(("before", threading.current_thread().name))
+
+    def after() -> None:
+        events.append(("after", threading.current_thread().name))
+        release.wait(30)  # the read must not wait for this
+        after_done.set()
+
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(read_module, "preflight", watched_preflight)
+        read = read_input(long_workbook, Settings(), overlap_scan=True,
+                          scan_hooks=(before, after))
+    assert read.error is None
+    assert not after_done.is_set()
+    release.set()
+    assert after_done.wait(30)
+    assert [e[0] for e in events] == ["before", "scan", "after"]
+    assert {e[1] for e in events} == {"preflight-scan"}
+    # without an overlapped scan (a plain read) the hooks are not called
+    events.clear()
+    read_input(long_workbook, Settings(), scan_hooks=(before, after))
+    assert events == []

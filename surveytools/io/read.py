@@ -106,6 +106,7 @@ def read_workbook(
     report: PreflightReport | None = None,
     source: SourceInfo | None = None,
     overlap_scan: bool = False,
+    before_scan: Callable[[], None] | None = None,
     after_scan: Callable[[], None] | None = None,
 ) -> RawWorkbook:
     """Read a survey workbook, safely, with every value located.
@@ -131,10 +132,12 @@ def read_workbook(
         What was read is used only once the full preflight has passed; its refusal wins
         over anything the reader found. Only for a process with memory and time limits
         (the batch worker): a hostile file then reaches the reader before its scan ends.
-    after_scan : callable, optional
-        With ``overlap_scan``: called in the scan's thread once the full preflight ended
-        (the batch worker then starts its other imports: three busy threads on two cores
-        would slow the parse down).
+    before_scan, after_scan : callable, optional
+        With ``overlap_scan``: called in the scan's thread before the full preflight
+        starts and after it ended (the batch worker imports the later phases first, then
+        lets the scan run, then pre-faults heap: one busy thread beside the parse at a
+        time, as three on two cores slow the parse down). What is read is returned
+        without waiting for ``after_scan``.
 
     Returns
     -------
@@ -152,7 +155,8 @@ def read_workbook(
     full: _Background | None = None
     if report is None and overlap_scan:
         report = preflight_heads(p, limits)
-        full = _Background(lambda: preflight(p, limits, helper_thread=False), after_scan)
+        full = _Background(lambda: preflight(p, limits, helper_thread=False), before_scan,
+                           after_scan)
     elif report is None:
         report = preflight(p, limits)
     if source is None:
@@ -183,39 +187,40 @@ def read_workbook(
 
 
 class _Background:
-    """Run a function (then ``then``) in a background thread.
+    """Run ``before``, a function, then ``after`` in a background thread.
 
-    :meth:`result` waits for it and returns its value or raises its exception.
+    :meth:`result` waits for the function (not for ``after``) and returns its value or
+    raises its exception.
     """
 
     def __init__(self, fn: Callable[[], PreflightReport],
-                 then: Callable[[], None] | None = None) -> None:
+                 before: Callable[[], None] | None = None,
+                 after: Callable[[], None] | None = None) -> None:
         self._value: PreflightReport | None = None
         self._error: BaseException | None = None
+        self._done = threading.Event()
 
         def target() -> None:
             try:
+                if before is not None:
+                    before()
                 self._value = fn()
             except BaseException as exc:  # handed to the caller of result()
                 self._error = exc
             finally:
-                if then is not None:
-                    then()
+                self._done.set()
+                if after is not None:
+                    after()
 
         self._thread = threading.Thread(target=target, name="preflight-scan", daemon=True)
         self._thread.start()
 
     def result(self) -> PreflightReport:
-        self._thread.join()
+        self._done.wait()
         if self._error is not None:
             raise self._error
         assert self._value is not None
         return self._value
-
-
-# --------------------------------------------------------------------------------------
-# Implementation
-# --------------------------------------------------------------------------------------
 
 
 class _Reader:
