@@ -331,7 +331,8 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
         data[name] = pd.Series(levels[name][order], dtype="float64")
     data["overload"] = pd.Series(overload[order], dtype="bool")
     data["operating"] = operating.iloc[order].reset_index(drop=True).astype("boolean")
-    data["note"] = pd.Series(note[order], dtype="object")
+    data["note"] = pd.Series(note[order] if "Note" in by else np.full(order.size, None, object),
+                             dtype="object")
     readings = pd.DataFrame(data, copy=False)  # fresh columns of our own: no copy needed
 
     # ---- exclusions --------------------------------------------------------------------

@@ -153,8 +153,9 @@ class NaiveTimes:
 
     ``ms`` is valid where ``ok``; ``has_offset``/``offset_s`` hold an explicit UTC offset
     written in ISO text (it overrides the clock); ``problem`` holds the reason text of a
-    cell that is not empty but cannot be read, ``raw`` its content; ``empty`` marks empty
-    cells.
+    cell that is not empty but cannot be read (``flagged`` marks those positions, so
+    that finding them needs no element-wise look at the object array), ``raw`` its
+    content; ``empty`` marks empty cells.
     """
 
     ms: np.ndarray
@@ -164,19 +165,21 @@ class NaiveTimes:
     offset_s: np.ndarray
     problem: np.ndarray
     raw: np.ndarray
+    flagged: np.ndarray
 
     @classmethod
     def blank(cls, n: int) -> NaiveTimes:
         """Return an all-empty result for ``n`` positions."""
         return cls(np.full(n, _NAT, np.int64), np.zeros(n, bool), np.ones(n, bool),
                    np.zeros(n, bool), np.zeros(n, np.int64), np.full(n, None, object),
-                   np.full(n, None, object))
+                   np.full(n, None, object), np.zeros(n, bool))
 
     def fail(self, pos: np.ndarray, reason: str | np.ndarray, raw: np.ndarray | None) -> None:
         """Mark positions as unreadable with a reason."""
         self.ok[pos] = False
         self.empty[pos] = False
         self.problem[pos] = reason
+        self.flagged[pos] = True
         if raw is not None:
             self.raw[pos] = raw
 
@@ -294,6 +297,8 @@ def column_datetimes(col: RawColumn, n: int) -> NaiveTimes:
         out.fail(pos, "the cell holds a number, not a date-time — format the cell as a date "
                  "and time, or write ISO 8601 text such as 2026-07-03 22:00:00",
                  np.array([str(v) for v in vals[pos]], dtype=object))
+    if col.kind != "text" and not col.text_cells:
+        return out  # typed cells only: no text to parse
     texts = _text_series(col, n)
     has_text = texts.notna().to_numpy()
     if has_text.any():
@@ -344,6 +349,8 @@ def column_times(col: RawColumn, n: int) -> NaiveTimes:
         pos = np.flatnonzero(present & ~good)
         out.fail(pos, "the number is not a time of day (a fraction of a day from 0 to 1) — "
                  "enter a time such as 22:00:00", np.array([repr(v) for v in x[pos]], object))
+    if col.kind != "text" and not col.text_cells:
+        return out  # typed cells only: no text to parse
     texts = _text_series(col, n)
     has_text = texts.notna().to_numpy()
     if has_text.any():
@@ -370,10 +377,10 @@ def combine_date_time(date: NaiveTimes, tod: NaiveTimes) -> NaiveTimes:
     out.ok = ok
     out.empty = date.empty & tod.empty
     for part, other in ((date, tod), (tod, date)):
-        pos = np.flatnonzero(part.problem != None)  # noqa: E711 - element-wise
+        pos = np.flatnonzero(part.flagged)
         out.fail(pos, part.problem[pos], part.raw[pos])
         # half given: the other cell is empty
-        miss = np.flatnonzero(part.ok & other.empty & (other.problem == None))  # noqa: E711
+        miss = np.flatnonzero(part.ok & other.empty & ~other.flagged)
         out.fail(miss, "the date or the time is missing — fill both the Date and the Time "
                  "cell", None)
     return out
@@ -583,7 +590,7 @@ def report_time_problems(
     clock: Clock,
 ) -> None:
     """Add ``timestamp-invalid``, ``timestamp-nonexistent`` and ``timestamp-ambiguous``."""
-    bad = np.flatnonzero(naive.problem != None)  # noqa: E711 - element-wise
+    bad = np.flatnonzero(naive.flagged)
     if bad.size:
         msgs = [f"{_quote(naive.raw[i])}{naive.problem[i]}" for i in bad[:collector.max_per_code]]
         collector.add_rows("timestamp-invalid", Severity.ERROR, sheet, bad + first_row,
