@@ -46,6 +46,7 @@ def test_a_stalled_input_times_out_and_the_next_input_still_runs(tmp_path: Path,
         slot.close()
 
 
+@pytest.mark.skipif(not Path("/proc/self/fd").is_dir(), reason="needs /proc to see open files")
 def test_a_worker_killed_mid_input_fails_that_input_only(tmp_path: Path, long_log: Path) -> None:
     good = survey_workbook(tmp_path / "good.xlsx")
     slot = WorkerSlot(memory_bytes=None)
@@ -56,7 +57,18 @@ def test_a_worker_killed_mid_input_fails_that_input_only(tmp_path: Path, long_lo
         pid = slot.proc.pid
 
         def kill_soon() -> None:
-            time.sleep(0.5)
+            # Kill once the worker has the input open (mid-input, whatever its speed);
+            # give up waiting after 60 s and kill anyway.
+            fd_dir = Path(f"/proc/{pid}/fd")
+            deadline = time.monotonic() + 60
+            while time.monotonic() < deadline:
+                try:
+                    if any(os.path.realpath(fd) == str(long_log.resolve())
+                           for fd in fd_dir.iterdir()):
+                        break
+                except OSError:
+                    pass
+                time.sleep(0.001)
             os.kill(pid, signal.SIGKILL)
 
         threading.Thread(target=kill_soon).start()
@@ -117,3 +129,24 @@ def test_a_worker_stopped_on_a_refused_file_reports_the_refusal(tmp_path: Path) 
     finally:
         slot.close()
     assert [f["code"] for f in out["findings"]] == ["zip-corrupt"]
+
+
+def test_heap_prefaulting_touches_what_it_is_asked_and_stops_when_told() -> None:
+    import tracemalloc
+
+    from surveytools.worker import PREFAULT_BLOCK_BYTES, prefault_heap
+
+    wanted = 4 * PREFAULT_BLOCK_BYTES
+    tracemalloc.start()  # numpy reports its array buffers to tracemalloc
+    try:
+        prefault_heap(wanted)
+        _, peak = tracemalloc.get_traced_memory()
+        tracemalloc.reset_peak()
+        stop = threading.Event()
+        stop.set()
+        prefault_heap(wanted, stop)
+        _, peak_stopped = tracemalloc.get_traced_memory()
+    finally:
+        tracemalloc.stop()
+    assert peak >= wanted
+    assert peak_stopped < PREFAULT_BLOCK_BYTES
