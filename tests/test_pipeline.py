@@ -246,3 +246,33 @@ def test_scan_hooks_run_around_the_overlapped_scan(long_workbook: Path) -> None:
     events.clear()
     read_input(long_workbook, Settings(), scan_hooks=(before, after))
     assert events == []
+
+
+def test_overlapped_read_finds_deep_formulas_merges_and_text_like_a_plain_one(
+        tmp_path: Path) -> None:
+    """What only the full scan knows (formula cells without a stored value, merged cells),
+    and a text cell far below the type sample, deep in a sheet larger than the kept head."""
+    import openpyxl
+
+    from surveytools.io.preflight import HEAD_KEEP_BYTES, preflight_heads
+
+    path = survey_workbook(tmp_path / "deep.xlsx",
+                           levels=[50.0 + (i % 37) / 10 for i in range(6000)], step_s=60)
+    wb = openpyxl.load_workbook(path)
+    rd = wb["Readings"]
+    rd["C4000"] = "OVL"
+    rd["C5000"] = "=C4999+1"  # openpyxl stores no cached value
+    rd.merge_cells("D5500:D5502")
+    wb.save(path)
+    assert len(preflight_heads(path).sheet("Readings").head) == HEAD_KEEP_BYTES
+
+    def located(read: object) -> list[tuple[object, ...]]:
+        doc, _ = build_document(path, Settings(), read=read)  # type: ignore[arg-type]
+        return sorted((f["code"], f["sheet"], f["row"], f["column"]) for f in doc["findings"])
+
+    plain = located(read_input(path, Settings()))
+    overlapped = located(read_input(path, Settings(), overlap_scan=True))
+    assert overlapped == plain
+    codes = {f[0] for f in plain}
+    assert {"formula-without-value", "merged-cells"} <= codes
+    assert any(f[2] == 4000 and f[3] == "C" for f in plain)  # the OVL cell is reported
