@@ -39,11 +39,13 @@ class FileOutcome:
         return dict(self.__dict__)
 
 
+#: Functions run in the preflight scan's thread before and after an overlapped scan.
+ScanHooks = tuple[Callable[[], None] | None, Callable[[], None] | None]
+NO_HOOKS: ScanHooks = (None, None)
+
+
 def _read_raw(path: Path, settings: Settings, source: SourceInfo,
-              overlap_scan: bool = False,
-              scan_hooks: tuple[Callable[[], None] | None, Callable[[], None] | None] = (None,
-                                                                                          None)
-              ) -> Any:
+              overlap_scan: bool = False, scan_hooks: ScanHooks = NO_HOOKS) -> Any:
     if path.suffix.lower() in CSV_SUFFIXES:
         from surveytools.io.csv_input import read_csv_table
 
@@ -100,9 +102,7 @@ class ReadResult:
 
 def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
                expected_sha256: str | None = None, overlap_scan: bool = False,
-               scan_hooks: tuple[Callable[[], None] | None, Callable[[], None] | None] = (None,
-                                                                                          None)
-               ) -> ReadResult:
+               scan_hooks: ScanHooks = NO_HOOKS) -> ReadResult:
     """Hash and read one input (the read phase); never raises for a bad input.
 
     ``expected_sha256`` is the hash the batch saw (a file changed since is refused);

@@ -89,23 +89,24 @@ class _Importer:
         self._released = threading.Event()
         self.prefault_bytes = 0
 
-    def _claim(self, what: str) -> bool:
-        with self._lock:
-            if getattr(self, what):
-                return False
-            setattr(self, what, True)
-            return True
-
     def imports_here(self) -> None:
-        if self._claim("_imported"):
-            warm_up()
+        """Run :func:`warm_up` in this thread, unless it has run or is running already."""
+        with self._lock:
+            if self._imported:
+                return
+            self._imported = True
+        warm_up()
 
     def prefault_here(self) -> None:
-        if self.prefault_bytes and self._claim("_prefaulted"):
-            try:
-                prefault_heap(self.prefault_bytes, self._stop)
-            finally:
-                self._released.set()
+        """Pre-fault ``prefault_bytes`` of heap in this thread, once, until stopped."""
+        with self._lock:
+            if self._prefaulted or not self.prefault_bytes:
+                return
+            self._prefaulted = True
+        try:
+            prefault_heap(self.prefault_bytes, self._stop)
+        finally:
+            self._released.set()
 
     def stop_prefault(self) -> None:
         """End the pre-faulting now (the read is done) and let its blocks go back to malloc."""
@@ -138,10 +139,9 @@ def warm_up() -> None:
 
     Run in a background thread while the main thread reads its first job's input, before
     the preflight's sheet scan beside that read: the typed parse releases the interpreter
-    lock, so the imports cost no wall time. Only
-    third-party libraries are imported lazily by the read phase meanwhile (numpy, pandas,
-    pyarrow), which never import our modules, so the two threads cannot wait on each other
-    in a cycle.
+    lock, so the imports cost no wall time. Only third-party libraries are imported lazily
+    by the read phase meanwhile (numpy, pandas, pyarrow), which never import our modules,
+    so the two threads cannot wait on each other in a cycle.
     """
     import jsonschema  # noqa: F401
     import numpy  # noqa: F401
@@ -157,8 +157,8 @@ def warm_up() -> None:
 def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[str, Any]:
     """Run one job (``mode`` = ``run`` or ``check``) and return the outcome as JSON data.
 
-    ``importer``: the first job's background imports, started once the read no longer
-    shares the second core with the preflight's sheet scan.
+    ``importer``: the first job's imports and heap pre-faulting, run beside its read (in
+    the preflight scan's thread, around the scan); None for later jobs.
     """
     import time
 
