@@ -223,6 +223,11 @@ class _Background:
         return self._value
 
 
+# --------------------------------------------------------------------------------------
+# Implementation
+# --------------------------------------------------------------------------------------
+
+
 class _Reader:
     def __init__(self, path: Path, report: PreflightReport, source: SourceInfo,
                  column_map: Mapping[str, str],
