@@ -91,21 +91,16 @@ def level_order(levels_db: ArrayLike) -> NDArray[np.intp]:
 def _stable_order(levels: FloatArray) -> NDArray[np.intp]:
     """``np.argsort(levels, kind="stable")`` of a 1-D float array, faster on level grids."""
     finite = np.isfinite(levels)
-    values = levels if finite.all() else np.where(finite, levels, 0.0)
-    head = values[:_GRID_PROBE]
     # infinite levels sort apart from NaN: leave them to the general sort
-    grids = _LEVEL_STEPS_PER_DB if not np.isinf(levels).any() else ()
-    for steps_per_db in grids:
-        # Levels on a 0.1 dB (or 0.01 dB) grid, e.g. read from text: a whole number of
-        # steps k with k / steps == level exactly. Then k orders the levels exactly as
-        # the levels themselves (equal levels, -0.0 and 0.0 included, get equal k), and a
-        # stable sort of the 16-bit k (NumPy's radix sort) is the stable level order.
-        if not np.array_equal(np.rint(head * steps_per_db) / steps_per_db, head):
-            continue  # a quick look at the first values rules the grid out
-        steps = np.rint(values * steps_per_db)
-        if np.all(np.abs(steps) < _INT16_TOP) and np.array_equal(steps / steps_per_db,
-                                                                 values):
-            key = steps.astype(np.int16)
+    if not np.isinf(levels).any():
+        values = levels if finite.all() else np.where(finite, levels, 0.0)
+        # Levels on a 0.1 dB (or 0.01 dB) grid, e.g. read from text: the whole step
+        # numbers k order the levels exactly as the levels themselves (equal levels, -0.0
+        # and 0.0 included, get equal k), and a stable sort of the 16-bit k (NumPy's radix
+        # sort) is the stable level order.
+        grid = _grid_steps(values, negative_zero_ok=True)
+        if grid is not None and np.all(np.abs(grid[0]) < _INT16_TOP):
+            key = grid[0].astype(np.int16)
             key[~finite] = _INT16_TOP  # NaN last, in input order, as np.argsort puts them
             return np.argsort(key, kind="stable")
     return np.argsort(levels, kind="stable")
@@ -140,15 +135,13 @@ def _weights(levels_db: ArrayLike, durations_s: ArrayLike | None) -> FloatArray:
 
 
 def _sorted_valid(
-    levels_db: ArrayLike, durations_s: ArrayLike | None,
-    order: ArrayLike | None = None,
+    levels: FloatArray, weights: FloatArray, order: ArrayLike | None = None,
 ) -> tuple[FloatArray, FloatArray]:
-    """Finite levels with positive finite durations, sorted by level, and their weights.
+    """Finite levels with positive finite weights, sorted by level, and their weights.
 
-    ``order`` is the stable level order of all of ``levels_db`` when the caller has it.
+    ``levels`` and ``weights`` are flat and of equal length; ``order`` is the stable
+    level order of all of ``levels`` when the caller has it.
     """
-    levels = as_float_array(levels_db).ravel()
-    weights = _weights(levels_db, durations_s)
     keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0)
     if order is None:
         levels, weights = levels[keep], weights[keep]
@@ -213,11 +206,11 @@ def exceedance_levels(
     flat = as_float_array(levels_db).ravel()
     if level_order is not None and not callable(level_order):
         _check_order(level_order, flat.size)  # a caller's mistake is refused either way
-    counted = _histogram_levels(flat, _weights(levels_db, durations_s),
-                                np.zeros(flat.size, np.int64), 1, targets)
+    flat_weights = _weights(levels_db, durations_s)
+    counted = _histogram_levels(flat, flat_weights, np.zeros(flat.size, np.int64), 1, targets)
     if counted is not None:
         return counted[0]
-    levels, weights = _sorted_valid(levels_db, durations_s,
+    levels, weights = _sorted_valid(flat, flat_weights,
                                     level_order() if callable(level_order) else level_order)
     out = np.full(targets.shape, np.nan)
     if levels.size == 0:
@@ -373,11 +366,13 @@ _HISTOGRAM_CELLS_PER_SAMPLE = 2
 _HISTOGRAM_MIN_CELLS = 1 << 16
 
 
-def _grid_steps(values: FloatArray) -> tuple[NDArray[np.int64], float] | None:
-    """Whole-number steps ``k`` with ``k / steps_per_db == value`` exactly, for all values.
+def _grid_steps(values: FloatArray, negative_zero_ok: bool = False
+                ) -> tuple[FloatArray, float] | None:
+    """Whole-number steps ``k`` (as floats) with ``k / steps_per_db == value`` exactly.
 
-    ``values`` are finite. None when they are not all on a 0.1 dB or 0.01 dB grid, or
-    when a negative zero is among them (its step would give back +0.0).
+    ``values`` are finite. None when they are not all on a 0.1 dB or 0.01 dB grid (a quick
+    look at the first values rules a grid out), or, unless ``negative_zero_ok``, when a
+    negative zero is among them (its step gives back +0.0).
     """
     head = values[:_GRID_PROBE]
     for steps_per_db in _LEVEL_STEPS_PER_DB:
@@ -386,9 +381,9 @@ def _grid_steps(values: FloatArray) -> tuple[NDArray[np.int64], float] | None:
         steps = np.rint(values * steps_per_db)
         if not np.array_equal(steps / steps_per_db, values):
             continue
-        if np.any((values == 0) & np.signbit(values)):
+        if not negative_zero_ok and np.any((values == 0) & np.signbit(values)):
             return None
-        return steps.astype(np.int64), steps_per_db
+        return steps, steps_per_db
     return None
 
 
@@ -418,7 +413,8 @@ def _histogram_levels(
     grid = _grid_steps(levels)
     if grid is None:
         return None
-    steps, steps_per_db = grid
+    steps = grid[0].astype(np.int64)
+    steps_per_db = grid[1]
     low = int(steps.min())
     n_steps = int(steps.max()) - low + 1
     if n_groups * n_steps > max(_HISTOGRAM_CELLS_PER_SAMPLE * levels.size,
