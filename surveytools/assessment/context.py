@@ -89,12 +89,20 @@ class Context:
         """
         if not self._in_union(bounds_ms):
             return None
+        # groups of the union segments, then one look-up per piece
+        group: IntArray = self._union_segment_groups(bounds_ms)[pieces.segment]
+        return group
+
+    def _union_segment_groups(self, bounds_ms: IntArray) -> IntArray:
+        """Interval of ``bounds_ms`` (a grid of union instants) holding each union segment.
+
+        Segment ``k`` starts at union instant ``k - 1`` (segment 0 lies before the first);
+        -1 for segments outside the grid.
+        """
         union: IntArray = self.shared["union"]
         per_union = np.concatenate(
             ([0], np.searchsorted(bounds_ms, union, side="right"))).astype(np.int64)
-        # groups of the union segments, then one look-up per piece
-        group: IntArray = segment_groups(per_union, max(bounds_ms.size - 1, 0))[pieces.segment]
-        return group
+        return segment_groups(per_union, max(bounds_ms.size - 1, 0))
 
     def pieces_in(self, bounds_ms: IntArray) -> tuple[Pieces, IntArray]:
         """Return reading pieces and their interval (between consecutive bounds; -1 outside)."""
@@ -223,11 +231,8 @@ class Context:
         if sums is None or not self._in_union(bounds_ms):
             return None
         energy, time_ms, reference = sums
-        union: IntArray = self.shared["union"]
         n_groups = max(bounds_ms.size - 1, 0)
-        per_union = np.concatenate(
-            ([0], np.searchsorted(bounds_ms, union, side="right"))).astype(np.int64)
-        group = segment_groups(per_union, n_groups)
+        group = self._union_segment_groups(bounds_ms)
         inside = group >= 0
         group_energy = np.bincount(group[inside], weights=energy[inside], minlength=n_groups)
         group_ms = np.bincount(group[inside], weights=time_ms[inside], minlength=n_groups)
