@@ -146,8 +146,12 @@ def deflate_bomb_member(size: int, char: bytes = b"A") -> bytes:
     return head + char * size + tail
 
 
-def patch_declared_size(path: Path, member: str, size: int) -> Path:
-    """Rewrite the declared uncompressed size of one member (local and central headers)."""
+def _patch_headers(path: Path, member: str, central_at: int, local_at: int,
+                   value: int) -> Path:
+    """Write one 32-bit field of a member's central and local zip headers.
+
+    Offsets count from each header's signature (PKWARE APPNOTE.TXT 4.3.7 and 4.3.12).
+    """
     import struct
 
     data = bytearray(path.read_bytes())
@@ -156,27 +160,19 @@ def patch_declared_size(path: Path, member: str, size: int) -> Path:
     while (pos := data.find(b"PK\x01\x02", pos)) >= 0:  # central directory entries
         n = struct.unpack_from("<H", data, pos + 28)[0]
         if bytes(data[pos + 46:pos + 46 + n]) == name:
-            struct.pack_into("<I", data, pos + 24, size)
+            struct.pack_into("<I", data, pos + central_at, value)
             local = struct.unpack_from("<I", data, pos + 42)[0]
-            struct.pack_into("<I", data, local + 22, size)
+            struct.pack_into("<I", data, local + local_at, value)
         pos += 4
     path.write_bytes(bytes(data))
     return path
+
+
+def patch_declared_size(path: Path, member: str, size: int) -> Path:
+    """Rewrite the declared uncompressed size of one member (local and central headers)."""
+    return _patch_headers(path, member, 24, 22, size)
 
 
 def patch_crc(path: Path, member: str, crc: int) -> Path:
     """Rewrite the CRC-32 of one member (local and central headers), sizes unchanged."""
-    import struct
-
-    data = bytearray(path.read_bytes())
-    name = member.encode()
-    pos = 0
-    while (pos := data.find(b"PK\x01\x02", pos)) >= 0:  # central directory entries
-        n = struct.unpack_from("<H", data, pos + 28)[0]
-        if bytes(data[pos + 46:pos + 46 + n]) == name:
-            struct.pack_into("<I", data, pos + 16, crc)
-            local = struct.unpack_from("<I", data, pos + 42)[0]
-            struct.pack_into("<I", data, local + 14, crc)
-        pos += 4
-    path.write_bytes(bytes(data))
-    return path
+    return _patch_headers(path, member, 16, 14, crc)
