@@ -405,6 +405,8 @@ def test_a_level_order_function_is_called_only_when_sorting():
     np.testing.assert_array_equal(sorted_out, counted + 0.001)
     # hand-evaluated: group 0 holds 45.2 and 47.0 for 1 s each -> L10 47.0, L90 45.2
     np.testing.assert_array_equal(counted[0], [47.0, 45.2])
+    # hand-evaluated: sorted 45.201 (1000+500 ms), 47.001 (1000), 52.301 (1000), 60.101 (250)
+    # of 3750 ms -> cumulative 0.40 then 0.67 reaches 1 - 50/100 at 47.001
     assert exceedance_levels(off_grid, [50], ms, level_order=order_of(off_grid))[0] == \
         pytest.approx(47.001)
     assert calls == [1, 1]
