@@ -23,7 +23,7 @@ from pathlib import Path
 from typing import Any
 
 from surveytools import __version__
-from surveytools.io.kinds import CSV_SUFFIXES, WORKBOOK_SUFFIXES
+from surveytools.inputs.kinds import CSV_SUFFIXES, WORKBOOK_SUFFIXES
 
 #: Name prefixes of lock / temporary / metadata files left by spreadsheet programs and
 #: file systems (Office owner files, LibreOffice locks, macOS AppleDouble files).
@@ -216,7 +216,7 @@ def settle(candidates: list[Candidate], settle_s: float) -> tuple[list[Candidate
 
 def output_stems(candidates: list[Candidate]) -> dict[str, str]:
     """Choose a unique, safe output stem per input path."""
-    from surveytools.io.atomic import safe_stem
+    from surveytools.outputs.atomic import safe_stem
 
     stems: dict[str, str] = {}
     taken: set[str] = set()
@@ -251,7 +251,7 @@ def refusal_of(path: Path) -> dict[str, Any] | None:
     if path.suffix.lower() not in WORKBOOK_SUFFIXES:
         return None
     from surveytools.errors import WorkbookError
-    from surveytools.io.preflight import preflight
+    from surveytools.inputs.preflight import preflight
 
     try:
         preflight(path)
@@ -472,14 +472,14 @@ def load_manifest(out_dir: Path) -> dict[str, Any]:
 
 def save_manifest(out_dir: Path, manifest: dict[str, Any]) -> None:
     """Write the manifest atomically."""
-    from surveytools.io.atomic import atomic_write_text
+    from surveytools.outputs.atomic import atomic_write_text
 
     atomic_write_text(out_dir / MANIFEST_NAME, json.dumps(manifest, sort_keys=True, indent=1))
 
 
 def _file_sha256(path: Path) -> str | None:
     from surveytools.errors import WorkbookError
-    from surveytools.io.source import source_info
+    from surveytools.inputs.source import source_info
 
     try:
         return source_info(path).sha256
@@ -505,8 +505,8 @@ def run_batch(options: BatchOptions, settings_key: str,
 
 def _prepare_parent_imports() -> None:
     """Import what the parent needs at the end (overview writer) while it waits on workers."""
-    import surveytools.io.overview
-    import surveytools.io.results_json  # noqa: F401
+    import surveytools.outputs.overview
+    import surveytools.outputs.results_json  # noqa: F401
 
 
 class _OnceInBackground:
@@ -537,7 +537,7 @@ def _run_batch(options: BatchOptions, settings_key: str,
     if options.mode == "run":
         assert out_dir is not None
         out_dir.mkdir(parents=True, exist_ok=True)
-        from surveytools.io.atomic import remove_stale_parts
+        from surveytools.outputs.atomic import remove_stale_parts
 
         remove_stale_parts(out_dir)
         manifest = load_manifest(out_dir)
@@ -647,9 +647,9 @@ def _record_unreadable(options: BatchOptions, job: dict[str, Any],
                        outcome: dict[str, Any]) -> dict[str, Any]:
     """Write an ``unreadable`` results JSON for an input whose worker died."""
     from surveytools.errors import WorkbookError
-    from surveytools.io.atomic import atomic_write_text
-    from surveytools.io.results_json import dumps_results, unreadable_document
-    from surveytools.io.source import source_info
+    from surveytools.inputs.source import source_info
+    from surveytools.outputs.atomic import atomic_write_text
+    from surveytools.outputs.results_json import dumps_results, unreadable_document
     from surveytools.pipeline import overview_row
     from surveytools.settings import load_settings
     from surveytools.validation.findings import Finding, Severity
@@ -659,7 +659,7 @@ def _record_unreadable(options: BatchOptions, job: dict[str, Any],
     try:
         source = source_info(path)
     except WorkbookError:
-        from surveytools.io.raw import SourceInfo
+        from surveytools.provenance import SourceInfo
 
         source = SourceInfo(str(path), path.name, "", 0)
     f = outcome["findings"][0]
@@ -676,7 +676,7 @@ def _record_unreadable(options: BatchOptions, job: dict[str, Any],
 
 def overview_document(result: BatchResult, settings_key: str) -> dict[str, Any]:
     """Build overview.json content from a batch result."""
-    from surveytools.io.results_json import SCHEMA_VERSION
+    from surveytools.outputs.results_json import SCHEMA_VERSION
 
     rows = []
     for o in result.outcomes:
@@ -697,9 +697,9 @@ def overview_document(result: BatchResult, settings_key: str) -> dict[str, Any]:
 
 def write_overview(out_dir: Path, result: BatchResult, settings_key: str) -> None:
     """Write overview.xlsx and overview.json (JSON last) atomically."""
-    from surveytools.io.atomic import atomic_path, atomic_write_text
-    from surveytools.io.overview import write_overview_workbook
-    from surveytools.io.results_json import dumps_results
+    from surveytools.outputs.atomic import atomic_path, atomic_write_text
+    from surveytools.outputs.overview import write_overview_workbook
+    from surveytools.outputs.results_json import dumps_results
 
     doc = overview_document(result, settings_key)
     with atomic_path(out_dir / "overview.xlsx") as tmp:

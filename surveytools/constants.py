@@ -263,7 +263,7 @@ POINT_SOURCE_DB_PER_DECADE_DISTANCE = 20.0
 LINE_SOURCE_DB_PER_DECADE_DISTANCE = 10.0
 
 # --------------------------------------------------------------------------------------
-# Spreadsheet format limits (used by surveytools.io)
+# Spreadsheet format limits (used by surveytools.inputs)
 # --------------------------------------------------------------------------------------
 
 #: Rows in one worksheet. Microsoft "Excel specifications and limits": 1,048,576 rows.

@@ -258,7 +258,7 @@ def _write_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> 
 
 def write_demo(directory: Path) -> list[Path]:
     """Write the demo workbooks and ``settings.toml`` into ``directory``; return the paths."""
-    from surveytools.io.atomic import atomic_path, atomic_write_text
+    from surveytools.outputs.atomic import atomic_path, atomic_write_text
 
     directory.mkdir(parents=True, exist_ok=True)
     written: list[Path] = []

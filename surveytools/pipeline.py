@@ -13,9 +13,9 @@ from pathlib import Path
 from typing import Any
 
 from surveytools.errors import WorkbookError
-from surveytools.io.kinds import CSV_SUFFIXES
-from surveytools.io.raw import SourceInfo
-from surveytools.io.source import source_info
+from surveytools.inputs.kinds import CSV_SUFFIXES
+from surveytools.inputs.source import source_info
+from surveytools.provenance import SourceInfo
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
 
@@ -47,10 +47,10 @@ NO_HOOKS: ScanHooks = (None, None)
 def _read_raw(path: Path, settings: Settings, source: SourceInfo,
               overlap_scan: bool = False, scan_hooks: ScanHooks = NO_HOOKS) -> Any:
     if path.suffix.lower() in CSV_SUFFIXES:
-        from surveytools.io.csv_input import read_csv_table
+        from surveytools.inputs.csv_input import read_csv_table
 
         return read_csv_table(path, settings)
-    from surveytools.io.read import read_workbook
+    from surveytools.inputs.read import read_workbook
 
     return read_workbook(path, settings, source=source, overlap_scan=overlap_scan,
                          before_scan=scan_hooks[0], after_scan=scan_hooks[1])
@@ -107,7 +107,7 @@ def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
 
     ``expected_sha256`` is the hash the batch saw (a file changed since is refused);
     ``overlap_scan`` lets the reader start while the preflight's sheet scans still run
-    (see :func:`~surveytools.io.read.read_workbook`; the batch worker, which runs under
+    (see :func:`~surveytools.inputs.read.read_workbook`; the batch worker, which runs under
     memory and time limits, uses it). ``scan_hooks`` are run in the scan's thread before
     and after an overlapped scan (the worker imports what the later phases need, while
     the typed parse goes on without the interpreter lock); they are not called when no
@@ -135,7 +135,7 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     Never raises for a bad input: an unreadable file gives a document with status
     ``"unreadable"`` and the fatal finding. ``read`` is the read phase when already done.
     """
-    from surveytools.io.results_json import document_header, unreadable_document
+    from surveytools.outputs.results_json import document_header, unreadable_document
 
     if read is None:
         read = read_input(path, settings, source, expected_sha256)
@@ -207,9 +207,9 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
     Outputs are written to temporary names and renamed into place; the JSON goes last, as
     the record that the run for this input completed.
     """
-    from surveytools.io.atomic import atomic_path, atomic_write_text
-    from surveytools.io.results_json import dumps_results
-    from surveytools.io.write import write_results_workbook
+    from surveytools.outputs.atomic import atomic_path, atomic_write_text
+    from surveytools.outputs.results_json import dumps_results
+    from surveytools.outputs.write import write_results_workbook
 
     doc, annotations = build_document(path, settings, read=read)
     xlsx = out_dir / f"{stem}.results.xlsx"
@@ -227,7 +227,7 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
 
 def check_file(path: Path, settings: Settings, read: ReadResult | None = None) -> FileOutcome:
     """Validate one input without computing or writing anything."""
-    from surveytools.io.results_json import status_from_findings
+    from surveytools.outputs.results_json import status_from_findings
 
     if read is None:
         read = read_input(path, settings)

@@ -324,7 +324,7 @@ def _schema_problems(data: Mapping[str, Any]) -> list[tuple[str, str]]:
     """Validate against ``settings.schema.json``; return (key path, problem) pairs."""
     from jsonschema import Draft202012Validator
 
-    from surveytools.validation.schema import load_schema
+    from surveytools.schema_files import load_schema
 
     schema = load_schema(SETTINGS_SCHEMA)
     problems: list[tuple[str, str]] = []
@@ -652,7 +652,7 @@ def _build(data: Mapping[str, Any]) -> tuple[Settings, list[tuple[str, str]]]:
 
 def _column_map_problems(columns: Mapping[str, str]) -> list[tuple[str, str]]:
     """Each ``[columns]`` target must be a canonical column or Survey key name."""
-    from surveytools.io.columns import READINGS_COLUMNS, VOCABULARIES, canonical_name
+    from surveytools.inputs.columns import READINGS_COLUMNS, VOCABULARIES, canonical_name
 
     known = sorted({name for vocabulary in VOCABULARIES.values() for name in vocabulary})
     problems: list[tuple[str, str]] = []

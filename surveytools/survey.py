@@ -1,7 +1,7 @@
 """The :class:`Survey`: validated readings of one monitoring position, ready to assess.
 
 Produced by ``surveytools.validation.build_survey`` from a
-:class:`~surveytools.io.raw.RawWorkbook` and the settings; consumed by
+:class:`~surveytools.inputs.raw.RawWorkbook` and the settings; consumed by
 ``surveytools.assessment``. Nothing is dropped on the way: a reading that cannot be used
 keeps its spreadsheet row and its reason, either as an exclusion mask over
 :attr:`Survey.readings` or, when it cannot even be placed in time, in
@@ -17,7 +17,7 @@ column             dtype     meaning
 ``duration_ms``    int64     interval length [ms] (> 0)
 ``offset_s``       int32     UTC offset of the position's local clock at ``start_ms`` [s]
 ``LAeq`` ...       float64   every level column present, canonical names (see
-                             ``surveytools.io.columns``); NaN where empty or unusable [dB]
+                             ``surveytools.inputs.columns``); NaN where empty or unusable [dB]
 ``overload``       bool      meter flagged an overload (False where the column is absent)
 ``operating``      boolean   assessed source running (pandas nullable; NA = not stated)
 ``note``           object    technician's note text, or None
@@ -32,7 +32,7 @@ from typing import TYPE_CHECKING, Any, Literal
 import numpy as np
 import pandas as pd
 
-from surveytools.io.raw import SourceInfo
+from surveytools.provenance import SourceInfo
 
 if TYPE_CHECKING:  # imported for annotations only: validation imports this module
     from surveytools.validation.findings import Finding

@@ -44,7 +44,7 @@ READINGS_COLUMNS: tuple[tuple[str, str], ...] = (
 
 def write_template(path: Path) -> None:
     """Write a blank input workbook with guidance to ``path`` (atomically)."""
-    from surveytools.io.atomic import atomic_path
+    from surveytools.outputs.atomic import atomic_path
 
     path.parent.mkdir(parents=True, exist_ok=True)
     with atomic_path(path) as tmp:

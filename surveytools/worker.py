@@ -37,7 +37,7 @@ def import_for_reading() -> None:
     """Import what the read phase needs (light: no pandas), in the main thread, first."""
     import fastexcel  # noqa: F401
 
-    import surveytools.io.read
+    import surveytools.inputs.read
     import surveytools.pipeline
     import surveytools.settings  # noqa: F401 (jsonschema only for a settings file)
 
@@ -149,8 +149,8 @@ def warm_up() -> None:
     import xlsxwriter  # noqa: F401
 
     import surveytools.assessment
-    import surveytools.io.results_json
-    import surveytools.io.write
+    import surveytools.outputs.results_json
+    import surveytools.outputs.write
     import surveytools.validation.build  # noqa: F401
 
 
@@ -162,7 +162,7 @@ def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[
     """
     import time
 
-    from surveytools.io.kinds import WORKBOOK_SUFFIXES
+    from surveytools.inputs.kinds import WORKBOOK_SUFFIXES
     from surveytools.pipeline import check_file, read_input, run_file
     from surveytools.settings import load_settings
 

@@ -173,7 +173,7 @@ def test_demo_then_run_exits_0_with_warnings_only(tmp_path: Path) -> None:
     assert statuses and set(statuses) <= {"ok", "warnings"}
     assert "warnings" in statuses
     # Every file written validates against the published schemas (the JSON contract).
-    from surveytools.io.results_json import validate_overview, validate_results
+    from surveytools.outputs.results_json import validate_overview, validate_results
 
     assert validate_overview(overview) == []
     for path in sorted((tmp_path / "res").glob("*.results.json")):
@@ -239,7 +239,7 @@ def test_run_format_json_prints_only_the_overview_document(tmp_path: Path) -> No
                    "--format", "json", cwd=tmp_path)
     assert proc.returncode == 0
     payload = json.loads(proc.stdout)  # nothing but the JSON document on stdout
-    from surveytools.io.results_json import validate_overview
+    from surveytools.outputs.results_json import validate_overview
 
     assert validate_overview(payload) == []
     assert [r["status"] for r in payload["inputs"]] == ["ok"]

@@ -15,7 +15,7 @@ from typing import Any
 import openpyxl
 import pytest
 
-from surveytools.io.read import read_workbook
+from surveytools.inputs.read import read_workbook
 from surveytools.settings import Settings
 from surveytools.validation import build_survey
 

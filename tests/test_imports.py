@@ -13,7 +13,7 @@ import pytest
 
 
 @pytest.mark.parametrize("module", ["surveytools.cli", "surveytools.batch",
-                                    "surveytools.io.read", "surveytools.io.preflight",
+                                    "surveytools.inputs.read", "surveytools.inputs.preflight",
                                     "surveytools.pipeline"])
 def test_module_imports_without_pandas(module: str) -> None:
     code = (f"import sys, {module}; "

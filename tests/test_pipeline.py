@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from surveytools.io.results_json import dumps_results, validate_results
+from surveytools.outputs.results_json import dumps_results, validate_results
 from surveytools.pipeline import build_document, read_input, run_file
 from surveytools.settings import Settings
 from tests.workbooks import survey_workbook
@@ -112,7 +112,7 @@ def test_a_file_gone_before_its_read_is_reported_not_raised(tmp_path: Path) -> N
 def long_workbook(tmp_path: Path) -> Path:
     """Four days of 1-minute readings: the sheet is larger than the head the preflight keeps,
     so an overlapped read really starts before the sheet scan ends."""
-    from surveytools.io.preflight import HEAD_KEEP_BYTES, preflight_heads
+    from surveytools.inputs.preflight import HEAD_KEEP_BYTES, preflight_heads
 
     levels = [50.0 + (i % 37) / 10 for i in range(6000)]
     path = survey_workbook(tmp_path / "long.xlsx", levels=levels, step_s=60)
@@ -144,7 +144,7 @@ def test_the_full_preflights_refusal_wins_over_an_overlapped_read(
     """The reader may start before the sheet scans end; their refusal is what is reported."""
     import zipfile
 
-    from tests.io.hostile import patch_crc, patch_declared_size
+    from tests.inputs.hostile import patch_crc, patch_declared_size
     from tests.workbooks import billion_laughs
 
     day_workbook = long_workbook
@@ -213,7 +213,7 @@ def test_the_summary_sheet_shows_the_figures_of_the_json(day_workbook: Path,
 def test_scan_hooks_run_around_the_overlapped_scan(long_workbook: Path) -> None:
     import threading
 
-    from surveytools.io import read as read_module
+    from surveytools.inputs import read as read_module
 
     events: list[tuple[str, str]] = []
     release = threading.Event()
@@ -254,7 +254,7 @@ def test_overlapped_read_finds_deep_formulas_merges_and_text_like_a_plain_one(
     and a text cell far below the type sample, deep in a sheet larger than the kept head."""
     import openpyxl
 
-    from surveytools.io.preflight import HEAD_KEEP_BYTES, preflight_heads
+    from surveytools.inputs.preflight import HEAD_KEEP_BYTES, preflight_heads
 
     path = survey_workbook(tmp_path / "deep.xlsx",
                            levels=[50.0 + (i % 37) / 10 for i in range(6000)], step_s=60)

@@ -10,7 +10,7 @@ from typing import Any
 import pytest
 from jsonschema import Draft202012Validator
 
-from surveytools.io.results_json import validate_overview, validate_results
+from surveytools.outputs.results_json import validate_overview, validate_results
 from surveytools.settings import Settings
 
 SCHEMAS = sorted((Path(__file__).resolve().parents[1] / "schemas").glob("*.json"))

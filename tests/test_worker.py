@@ -94,7 +94,7 @@ def test_a_worker_over_its_memory_limit_is_reported_as_such(tmp_path: Path) -> N
 def _long_sheet_with_a_far_cell(path: Path) -> Path:
     """A Readings sheet larger than the head the preflight keeps, plus a cell at XFD1048576:
     the reader starts on it before the sheet scan has found the stray cell."""
-    from tests.io.hostile import build_xlsx, sheet_xml
+    from tests.inputs.hostile import build_xlsx, sheet_xml
 
     header = ('<row r="1"><c r="A1" t="inlineStr"><is><t>Start</t></is></c>'
               '<c r="B1" t="inlineStr"><is><t>LAeq (dB)</t></is></c></row>')
@@ -119,7 +119,7 @@ def test_a_sheet_the_preflight_refuses_is_reported_as_refused_by_the_worker(
 
 
 def test_a_worker_stopped_on_a_refused_file_reports_the_refusal(tmp_path: Path) -> None:
-    from tests.io.hostile import patch_crc
+    from tests.inputs.hostile import patch_crc
 
     damaged = survey_workbook(tmp_path / "damaged.xlsx")
     patch_crc(damaged, "xl/worksheets/sheet2.xml", 0x12345678)

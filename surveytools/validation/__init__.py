@@ -1,6 +1,6 @@
 """Validation: schemas, vectorised row checks and the findings they produce.
 
-``build_survey`` is re-exported lazily: :mod:`surveytools.io.raw` imports
+``build_survey`` is re-exported lazily: :mod:`surveytools.inputs.raw` imports
 :mod:`surveytools.validation.findings`, so importing the builder eagerly here would be
 circular.
 """

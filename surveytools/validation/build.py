@@ -1,4 +1,4 @@
-"""Turn a :class:`~surveytools.io.raw.RawWorkbook` into a :class:`~surveytools.survey.Survey`.
+"""Turn a :class:`~surveytools.inputs.raw.RawWorkbook` into a :class:`~surveytools.survey.Survey`.
 
 :func:`build_survey` never raises for data problems: every problem becomes a located
 finding, every reading keeps its row (excluded with a reason, or listed as unplaced).
@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 
 from surveytools.constants import GAP_FACTOR
-from surveytools.io.columns import (
+from surveytools.inputs.columns import (
     EXCLUSION_COLUMNS,
     READINGS_COLUMNS,
     SURVEY_KEYS,
@@ -22,7 +22,7 @@ from surveytools.io.columns import (
     canonical_name,
     match_columns,
 )
-from surveytools.io.raw import RawColumn, RawTable, RawWorkbook
+from surveytools.inputs.raw import RawColumn, RawTable, RawWorkbook
 from surveytools.settings import Settings
 from surveytools.survey import Exclusion, Scope, Survey
 from surveytools.validation import checks as ck

@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from surveytools.constants import LEVEL_ORDER_TOLERANCE_DB, SECONDS_PER_HOUR
-from surveytools.io.raw import RawColumn
+from surveytools.inputs.raw import RawColumn
 from surveytools.settings import Calibration
 from surveytools.validation.findings import Finding, FindingCollector, Severity
 

@@ -9,23 +9,18 @@ so a finite check is added on top.
 
 from __future__ import annotations
 
-import json
 import math
 import re
 import zoneinfo
 from collections.abc import Mapping
 from dataclasses import dataclass
 from datetime import date, datetime, time
-from functools import cache
-from importlib import resources
-from pathlib import Path
 from typing import Any
 
-from jsonschema import Draft202012Validator, FormatChecker
-from jsonschema.exceptions import SchemaError, ValidationError
+from jsonschema.exceptions import ValidationError
 
-from surveytools.errors import SurveyToolsError
-from surveytools.io.raw import KeyValue, KeyValueSheet
+from surveytools.inputs.raw import KeyValue, KeyValueSheet
+from surveytools.schema_files import load_schema, validator
 from surveytools.settings import SurveyDefaults
 from surveytools.validation.findings import Finding, FindingCollector, Severity
 
@@ -40,92 +35,6 @@ _DEFAULT_KEYS = ("position", "site", "time_zone", "clock", "meter_class",
                  "microphone", "height_m")
 
 _FIXED_OFFSET = re.compile(r"^UTC[+-]\d{2}:\d{2}$")
-
-
-def _schema_dirs() -> list[Path]:
-    dirs: list[Path] = []
-    try:
-        packaged = resources.files("surveytools") / "schemas"
-        dirs.append(Path(str(packaged)))
-    except (ModuleNotFoundError, TypeError):  # pragma: no cover - surveytools always importable
-        pass
-    # Editable install / checkout: <repo>/surveytools/validation/schema.py -> <repo>/schemas
-    dirs.append(Path(__file__).resolve().parents[2] / "schemas")
-    return dirs
-
-
-def schema_path(name: str) -> Path:
-    """Return the path of schema file ``name`` (packaged copy first, then the checkout).
-
-    Raises
-    ------
-    SurveyToolsError
-        When the schema cannot be found (a broken installation, not a data problem).
-    """
-    for d in _schema_dirs():
-        p = d / name
-        if p.is_file():
-            return p
-    searched = ", ".join(str(d) for d in _schema_dirs())
-    raise SurveyToolsError(f"schema file '{name}' not found (searched {searched}); "
-                           "reinstall surveytools")
-
-
-@cache
-def load_schema(name: str) -> dict[str, Any]:
-    """Load and check one JSON Schema (draft 2020-12) shipped with surveytools.
-
-    Parameters
-    ----------
-    name : str
-        File name, e.g. ``"survey.schema.json"``.
-
-    Returns
-    -------
-    dict
-        The schema. Cached: do not modify it.
-
-    Raises
-    ------
-    SurveyToolsError
-        Missing file, invalid JSON or a schema that is not valid draft 2020-12.
-    """
-    path = schema_path(name)
-    try:
-        schema = json.loads(path.read_text(encoding="utf-8"))
-        Draft202012Validator.check_schema(schema)
-    except (ValueError, SchemaError) as exc:
-        raise SurveyToolsError(f"schema file {path} is not a valid JSON Schema: {exc}") from exc
-    if not isinstance(schema, dict):
-        raise SurveyToolsError(f"schema file {path} does not hold a JSON object")
-    return schema
-
-
-def assert_format_checker(checker: FormatChecker) -> FormatChecker:
-    """Make sure ``checker`` really checks ``date-time`` (needs ``rfc3339-validator``).
-
-    Without that extra, jsonschema silently accepts any string as a date-time.
-
-    Raises
-    ------
-    SurveyToolsError
-        When the date-time check is missing or does not reject an impossible date-time.
-    """
-    ok = "date-time" in checker.checkers and not checker.conforms(
-        "2026-13-40T25:00:00Z", "date-time") and checker.conforms(
-        "2026-07-03T22:00:00+02:00", "date-time")
-    if not ok:
-        raise SurveyToolsError(
-            "jsonschema cannot check 'date-time' values: install the 'rfc3339-validator' "
-            "package (a dependency of surveytools)")
-    return checker
-
-
-@cache
-def validator(name: str) -> Draft202012Validator:
-    """Return a draft 2020-12 validator for schema ``name`` with a checked format checker."""
-    checker = assert_format_checker(Draft202012Validator.FORMAT_CHECKER)
-    return Draft202012Validator(load_schema(name), format_checker=checker)
 
 
 # --------------------------------------------------------------------------------------

@@ -28,7 +28,7 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 
-from surveytools.io.raw import RawColumn
+from surveytools.inputs.raw import RawColumn
 from surveytools.validation.findings import Finding, FindingCollector, Severity
 
 MS_PER_S = 1000

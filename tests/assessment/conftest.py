@@ -11,10 +11,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-# Imported first: at the time of writing, importing surveytools.io.raw before
-# surveytools.validation hits a circular import (validation/__init__ -> build -> io.raw).
+# Imported first: at the time of writing, importing surveytools.inputs.raw before
+# surveytools.validation hits a circular import (validation/__init__ -> build -> inputs.raw).
 import surveytools.validation  # noqa: F401  # isort: skip
-from surveytools.io.raw import SourceInfo
+from surveytools.provenance import SourceInfo
 from surveytools.survey import Exclusion, Survey
 
 

@@ -114,7 +114,7 @@ def surveytools_cmd(*args: str) -> list[str]:
 
 def check_100ms(path: Path, n: int) -> bool:
     """Untimed: every 100 ms timestamp read back exactly (integer ms) by surveytools."""
-    from surveytools.io.read import read_workbook
+    from surveytools.inputs.read import read_workbook
     from surveytools.settings import Settings
     from surveytools.validation import build_survey
 

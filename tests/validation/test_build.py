@@ -22,7 +22,7 @@ from validation_builders import (
     text_col,
 )
 
-from surveytools.io.raw import RawTable, RawWorkbook
+from surveytools.inputs.raw import RawTable, RawWorkbook
 from surveytools.settings import Calibration, ExclusionRules, Settings
 from surveytools.validation import build_survey
 

@@ -7,8 +7,8 @@ from jsonschema import FormatChecker
 from validation_builders import build, canon, readings, survey_sheet, survey_with
 
 from surveytools.errors import SurveyToolsError
+from surveytools.schema_files import assert_format_checker, load_schema
 from surveytools.settings import Settings, SurveyDefaults
-from surveytools.validation.schema import assert_format_checker, load_schema
 
 STARTS = ["2026-07-03 22:00", "2026-07-03 22:01"]
 

@@ -9,14 +9,14 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from surveytools.io.raw import (
+from surveytools.inputs.raw import (
     KeyValue,
     KeyValueSheet,
     RawColumn,
     RawTable,
     RawWorkbook,
-    SourceInfo,
 )
+from surveytools.provenance import SourceInfo
 from surveytools.settings import Settings
 from surveytools.survey import Survey
 from surveytools.validation import build_survey

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from surveytools.errors import WorkbookError
-from surveytools.io.source import source_info
+from surveytools.inputs.source import source_info
 
 
 def test_identity_matches_an_independent_hash(tmp_path: Path) -> None:

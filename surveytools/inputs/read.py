@@ -1,6 +1,6 @@
-"""Read one survey workbook (.xlsx / .xlsm) into a :class:`~surveytools.io.raw.RawWorkbook`.
+"""Read one survey workbook (.xlsx / .xlsm) into a :class:`~surveytools.inputs.raw.RawWorkbook`.
 
-Steps: :func:`~surveytools.io.preflight.preflight` (safety limits, extent, formulas without
+Steps: :func:`~surveytools.inputs.preflight.preflight` (safety limits, extent, formulas without
 cached values, merged ranges, date system); sheet selection by name (case, spaces and
 punctuation ignored; never by position); header-row detection on the first rows with
 python-calamine; the whole table read in one pass with fastexcel using explicit column
@@ -14,7 +14,7 @@ kept apart. Sheet roles:
 * Weather, Exclusions: tables with their own header vocabularies.
 
 Header *meaning* (unknown or duplicate headers) is left to validation, which matches the
-``RawColumn.header`` texts with :func:`surveytools.io.columns.match_columns`; the reader only
+``RawColumn.header`` texts with :func:`surveytools.inputs.columns.match_columns`; the reader only
 uses the vocabulary to find the header row and to choose each column's cell type.
 
 Known limits (documented, not silent): fastexcel turns a yes/no cell in a number column into
@@ -32,9 +32,9 @@ from typing import TYPE_CHECKING, Any
 
 from surveytools import constants as const
 from surveytools.errors import WorkbookError
-from surveytools.io import columns as cols
-from surveytools.io.preflight import HEAD_KEEP_BYTES as HEAD_KEEP
-from surveytools.io.preflight import (
+from surveytools.inputs import columns as cols
+from surveytools.inputs.preflight import HEAD_KEEP_BYTES as HEAD_KEEP
+from surveytools.inputs.preflight import (
     PreflightLimits,
     PreflightReport,
     SheetInfo,
@@ -43,16 +43,16 @@ from surveytools.io.preflight import (
     preflight,
     preflight_heads,
 )
-from surveytools.io.raw import (
+from surveytools.inputs.raw import (
     KeyValue,
     KeyValueSheet,
     RawColumn,
     RawTable,
     RawWorkbook,
-    SourceInfo,
 )
-from surveytools.io.safetext import clean_text, has_illegal_characters
-from surveytools.io.source import source_info
+from surveytools.inputs.source import source_info
+from surveytools.provenance import SourceInfo
+from surveytools.safetext import clean_text, has_illegal_characters
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
 
@@ -695,7 +695,7 @@ def _series(values: np.ndarray, dtype: Any) -> pd.Series:
     return pd.Series(values, dtype=dtype, copy=not values.flags.writeable)
 
 
-#: XML-illegal characters (as :data:`surveytools.io.safetext._XML_ILLEGAL_RE`) in RE2
+#: XML-illegal characters (as :data:`surveytools.safetext._XML_ILLEGAL_RE`) in RE2
 #: syntax; surrogates need no check because Arrow strings are UTF-8, which cannot hold them.
 _ARROW_ILLEGAL_RE = r"[\x00-\x08\x0b\x0c\x0e-\x1f\x{FFFE}\x{FFFF}]"
 
@@ -704,7 +704,7 @@ def _suspect_texts(arr: Any) -> np.ndarray:
     """Return the positions of text cells too long to keep or holding XML-illegal characters.
 
     A vectorised pre-check in Arrow (no Python call per cell); the reader re-checks each
-    position found with :func:`surveytools.io.safetext.has_illegal_characters`.
+    position found with :func:`surveytools.safetext.has_illegal_characters`.
     """
     import numpy as np
     import pyarrow as pa

@@ -1,4 +1,4 @@
-"""Tests of the preflight (surveytools.io.preflight) on hostile files built at test time.
+"""Tests of the preflight (surveytools.inputs.preflight) on hostile files built at test time.
 
 Fixture recipes and expected outcomes: shared/reference/reliability.md §1 (X1-X5), §2 (Z1-Z6),
 §5 (P3, P4) and Appendix A. Excel's grid limits (1,048,576 rows x 16,384 columns) are from
@@ -17,14 +17,14 @@ from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from surveytools.errors import WorkbookError
-from surveytools.io.preflight import (
+from surveytools.inputs.preflight import (
     PreflightLimits,
     column_letters,
     column_number,
     detect_xml_encoding,
     preflight,
 )
-from tests.io.hostile import (
+from tests.inputs.hostile import (
     BILLION_LAUGHS_DTD,
     build_xlsx,
     deflate_bomb_member,
@@ -431,7 +431,7 @@ def test_preflight_imports_no_pandas() -> None:
     import subprocess
     import sys
 
-    code = "import sys, surveytools.io.preflight; print('pandas' in sys.modules)"
+    code = "import sys, surveytools.inputs.preflight; print('pandas' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True, timeout=60)
     assert out.stdout.strip() == "False"
@@ -463,7 +463,7 @@ def test_extent_matches_generator(tmp_path: Path, monkeypatch: pytest.MonkeyPatc
                                   cells: list[tuple[int, int]], drop_refs: bool) -> None:
     # Reference: the generator's own cell positions (OOXML: r= gives the position). Tiny
     # sample and window sizes make the fast path scan many pieces of this small sheet.
-    import surveytools.io.preflight as pf
+    import surveytools.inputs.preflight as pf
 
     monkeypatch.setattr(pf, "_SAMPLE_BYTES", 64)
     monkeypatch.setattr(pf, "_WINDOW", 256)
@@ -516,7 +516,7 @@ def test_unusual_cell_pattern_matches_definition(max_col: int, digits: int, ref:
     # of 1..digits digits without a leading zero + '"'.
     import re
 
-    from surveytools.io.preflight import _unusual_cell_re
+    from surveytools.inputs.preflight import _unusual_cell_re
 
     m = re.fullmatch(r"([A-Z]+)([1-9][0-9]*)", ref)
     usual = (m is not None and _column_of(m.group(1)) <= max_col
@@ -533,7 +533,7 @@ def test_unusual_cell_pattern_matches_definition(max_col: int, digits: int, ref:
 def test_probe_never_misses_what_the_full_pattern_finds(text: bytes) -> None:
     # The probe may flag other elements starting "<c" (col, cfRule: the full pattern then
     # decides), but every cell the full pattern flags, the probe flags too.
-    from surveytools.io.preflight import _unusual_cell_re
+    from surveytools.inputs.preflight import _unusual_cell_re
 
     for max_col, digits in ((0, 1), (5, 6), (16_384, 7)):
         full = _unusual_cell_re(max_col, digits).search(text) is not None
@@ -554,7 +554,7 @@ def test_row_start_search_matches_regex(parts: list[str], lo: int, span: int) ->
     # Reference: re.finditer over the same slice, a '<row' followed by ' ' or '>'.
     import re
 
-    from surveytools.io.preflight import _first_row_start, _last_row_start
+    from surveytools.inputs.preflight import _first_row_start, _last_row_start
 
     buf = "".join(parts).encode()
     hi = min(len(buf), lo + span)
@@ -583,7 +583,7 @@ def test_fast_scan_equals_exact_scan(tmp_path: Path, monkeypatch: pytest.MonkeyP
     # and inline text with ':', 'f' and 'm' exercises the single-byte pre-checks.
     import zipfile
 
-    import surveytools.io.preflight as pf
+    import surveytools.inputs.preflight as pf
 
     monkeypatch.setattr(pf, "_SAMPLE_BYTES", 64)
     monkeypatch.setattr(pf, "_WINDOW", window)
@@ -629,7 +629,7 @@ def test_fast_scan_equals_exact_scan_at_every_cut(tmp_path: Path,
     # Reference: the exact Expat scan of the same part.
     import zipfile
 
-    import surveytools.io.preflight as pf
+    import surveytools.inputs.preflight as pf
 
     rows = ('<row r="1"><c r="A1"><v>1</v></c></row>'
             '<row r="2"><c r="A2"><v>2</v></c><c r="D2"><f>A1*2</f></c></row>'
@@ -665,7 +665,7 @@ def test_sheet_crc_mismatch_refused(tmp_path: Path, compression: str) -> None:
     import zipfile
     import zlib
 
-    import surveytools.io.preflight as pf
+    import surveytools.inputs.preflight as pf
 
     xml = sheet_xml("".join(f'<row r="{i}"><c r="A{i}"><v>{i}</v></c></row>'
                             for i in range(1, 3000)))

@@ -1,7 +1,7 @@
 """Results workbook: figures equal the document, text stays text, charts exist, reruns agree.
 
 The reference for every figure is the hand-built results document in
-``tests/io/results_fixture.py`` (the input the writer is given), not the writer's output.
+``tests/outputs/results_fixture.py`` (the input the writer is given), not the writer's output.
 """
 
 from __future__ import annotations
@@ -21,8 +21,8 @@ import openpyxl
 import pandas as pd
 import pytest
 
-from surveytools.io.write import flatten_settings, write_results_workbook
-from tests.io.results_fixture import (
+from surveytools.outputs.write import flatten_settings, write_results_workbook
+from tests.outputs.results_fixture import (
     INJECTIONS,
     build_results_doc,
     unreadable_doc,

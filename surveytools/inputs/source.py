@@ -8,7 +8,7 @@ import stat
 from pathlib import Path
 
 from surveytools.errors import WorkbookError
-from surveytools.io.raw import SourceInfo
+from surveytools.provenance import SourceInfo
 
 
 def source_info(path: str | os.PathLike[str]) -> SourceInfo:

@@ -22,8 +22,8 @@ from typing import Any
 import numpy as np
 
 from surveytools import __version__
-from surveytools.io.atomic import atomic_write_text
-from surveytools.io.raw import SourceInfo
+from surveytools.outputs.atomic import atomic_write_text
+from surveytools.provenance import SourceInfo
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
 
@@ -148,7 +148,7 @@ def _non_finite(x: Any, path: str) -> Iterator[str]:
 
 
 def _validate(doc: Any, schema_name: str) -> list[str]:
-    from surveytools.validation.schema import validator
+    from surveytools.schema_files import validator
 
     problems = list(_non_finite(doc, "$"))
     errors = validator(schema_name).iter_errors(doc)

@@ -9,7 +9,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from surveytools.io.atomic import (
+from surveytools.outputs.atomic import (
     atomic_path,
     atomic_write_bytes,
     atomic_write_text,

@@ -24,7 +24,7 @@ from datetime import date, datetime
 from typing import Any
 
 from surveytools import constants
-from surveytools.io.safetext import clean_text, is_formula_trigger
+from surveytools.safetext import clean_text, is_formula_trigger
 
 #: Most characters a cell holds. Microsoft, "Excel specifications and limits".
 CELL_MAX_CHARS: int = constants.CELL_MAX_CHARS
@@ -123,7 +123,7 @@ def safe_cell_text(value: object) -> str:
     """Return text that can be stored in one cell exactly as a person should see it.
 
     Characters XML cannot carry are replaced with U+FFFD and the text is cut to
-    :data:`CELL_MAX_CHARS` (:func:`surveytools.io.safetext.clean_text`; the JSON keeps the
+    :data:`CELL_MAX_CHARS` (:func:`surveytools.safetext.clean_text`; the JSON keeps the
     full text).
 
     Parameters
@@ -144,7 +144,7 @@ def safe_cell_text(value: object) -> str:
 
 
 def is_trigger_led(text: str) -> bool:
-    """Return True when ``text`` starts with a formula trigger (:mod:`surveytools.io.safetext`)."""
+    """Return True when ``text`` starts with a formula trigger (:mod:`surveytools.safetext`)."""
     return text != "" and is_formula_trigger(text)
 
 

@@ -1,10 +1,10 @@
-"""Tests of untrusted-text cleaning (surveytools.io.safetext)."""
+"""Tests of untrusted-text cleaning (surveytools.safetext)."""
 
 import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from surveytools.io.safetext import clean_text, has_illegal_characters, is_formula_trigger
+from surveytools.safetext import clean_text, has_illegal_characters, is_formula_trigger
 
 
 def test_control_characters_replaced() -> None:

@@ -10,8 +10,7 @@ from zoneinfo import ZoneInfo
 import numpy as np
 import pytest
 
-from surveytools.io.raw import SourceInfo
-from surveytools.io.results_json import (
+from surveytools.outputs.results_json import (
     dumps_results,
     iso_timestamp,
     round_level,
@@ -21,6 +20,7 @@ from surveytools.io.results_json import (
     validate_results,
     write_results_json,
 )
+from surveytools.provenance import SourceInfo
 from surveytools.settings import Settings, settings_from_mapping
 from surveytools.validation.findings import Finding, Severity
 

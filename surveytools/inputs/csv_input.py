@@ -27,11 +27,11 @@ import pandas as pd
 
 from surveytools import constants as const
 from surveytools.errors import WorkbookError
-from surveytools.io import columns as cols
-from surveytools.io.preflight import column_letters
-from surveytools.io.raw import RawColumn, RawTable, RawWorkbook
-from surveytools.io.read import HEADER_SEARCH_ROWS, source_info
-from surveytools.io.safetext import clean_text, has_illegal_characters
+from surveytools.inputs import columns as cols
+from surveytools.inputs.preflight import column_letters
+from surveytools.inputs.raw import RawColumn, RawTable, RawWorkbook
+from surveytools.inputs.read import HEADER_SEARCH_ROWS, source_info
+from surveytools.safetext import clean_text, has_illegal_characters
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
 

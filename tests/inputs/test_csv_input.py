@@ -1,4 +1,4 @@
-"""Tests of the CSV readings reader (surveytools.io.csv_input).
+"""Tests of the CSV readings reader (surveytools.inputs.csv_input).
 
 Expected values are hand-evaluated from the CSV text written in each test (RFC 4180 field
 rules; ISO 8601 time stamps).
@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 
 from surveytools.errors import WorkbookError
-from surveytools.io.csv_input import read_csv_table
+from surveytools.inputs.csv_input import read_csv_table
 from surveytools.settings import Settings
 
 

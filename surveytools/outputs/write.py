@@ -4,7 +4,7 @@ One sheet per part of the results document: a one-page Summary a manager reads i
 minute, then Days, Intervals, Background, Assessments, Exclusions, Readings (only when
 annotated readings are handed over), Findings and Provenance. Values are written as
 values; the workbook holds no formulas. Every text that may have come from an input is
-written as text (see :mod:`surveytools.io.xlsx_style`).
+written as text (see :mod:`surveytools.outputs.xlsx_style`).
 
 References
 ----------
@@ -29,7 +29,7 @@ import numpy as np
 import pandas as pd
 import xlsxwriter
 
-from surveytools.io.xlsx_style import (
+from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
     SHEET_MAX_ROWS,
     WORKBOOK_OPTIONS,

@@ -1,10 +1,10 @@
-"""Tests of the header vocabulary (surveytools.io.columns)."""
+"""Tests of the header vocabulary (surveytools.inputs.columns)."""
 
 from pathlib import Path
 
 import pytest
 
-from surveytools.io.columns import (
+from surveytools.inputs.columns import (
     EXCLUSION_COLUMNS,
     READINGS_COLUMNS,
     SURVEY_KEYS,

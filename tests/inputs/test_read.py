@@ -1,4 +1,4 @@
-"""Tests of read_workbook (surveytools.io.read).
+"""Tests of read_workbook (surveytools.inputs.read).
 
 Reference reader: openpyxl (a general-purpose library) gives the spreadsheet row numbers,
 column letters and cell values we compare against. Pitfalls tested are the ones measured in
@@ -21,11 +21,11 @@ import xlsxwriter
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from surveytools.io.columns import READINGS_COLUMNS, match_columns
-from surveytools.io.raw import RawTable
-from surveytools.io.read import read_workbook
+from surveytools.inputs.columns import READINGS_COLUMNS, match_columns
+from surveytools.inputs.raw import RawTable
+from surveytools.inputs.read import read_workbook
 from surveytools.settings import Settings
-from tests.io.hostile import build_xlsx, sheet_xml
+from tests.inputs.hostile import build_xlsx, sheet_xml
 
 
 def _col(table: RawTable | None, header: str):

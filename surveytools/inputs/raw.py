@@ -1,6 +1,6 @@
 """What the reader hands to validation: cell values with their spreadsheet locations.
 
-The reader (``surveytools.io.read``) never interprets acoustics; it returns tables of typed
+The reader (``surveytools.inputs.read``) never interprets acoustics; it returns tables of typed
 column values plus the cells that did not fit the column's type, each traceable to a sheet,
 row and column letter. Validation (``surveytools.validation``) turns these into a
 :class:`~surveytools.survey.Survey`.
@@ -14,6 +14,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, Literal
 
+from surveytools.provenance import SourceInfo
+
 if TYPE_CHECKING:  # annotations only: keeps the batch parent free of pandas, and
     # validation imports this module (no cycle)
     import pandas as pd
@@ -22,28 +24,6 @@ if TYPE_CHECKING:  # annotations only: keeps the batch parent free of pandas, an
 
 
 ColumnKind = Literal["number", "datetime", "text", "bool", "empty"]
-
-
-@dataclass(frozen=True)
-class SourceInfo:
-    """Identity of one input file.
-
-    Parameters
-    ----------
-    path : str
-        Path as given (absolute), for re-runs and ``verify``.
-    file : str
-        File name shown to people (``east_gate.xlsx``).
-    sha256 : str
-        Hex digest of the file's bytes.
-    size_bytes : int
-        File size. [bytes]
-    """
-
-    path: str
-    file: str
-    sha256: str
-    size_bytes: int
 
 
 @dataclass

@@ -1,7 +1,7 @@
 """Batch overview workbook: one row per input, safe links, text stays text, reruns agree.
 
 The reference is the hand-built overview document below (built from the fixture results
-documents in ``tests/io/results_fixture.py``), not the writer's output.
+documents in ``tests/outputs/results_fixture.py``), not the writer's output.
 """
 
 from __future__ import annotations
@@ -16,8 +16,8 @@ from typing import Any
 import openpyxl
 import pytest
 
-from surveytools.io.overview import safe_link_name, write_overview_workbook
-from tests.io.results_fixture import INJECTIONS, build_results_doc
+from surveytools.outputs.overview import safe_link_name, write_overview_workbook
+from tests.outputs.results_fixture import INJECTIONS, build_results_doc
 
 
 def entry(doc: dict[str, Any], results_xlsx: str) -> dict[str, Any]:

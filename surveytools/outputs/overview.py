@@ -13,7 +13,7 @@ from typing import Any
 
 import xlsxwriter
 
-from surveytools.io.xlsx_style import (
+from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
     WORKBOOK_OPTIONS,
     SheetWriter,

@@ -1,1 +1,0 @@
-"""Reading survey workbooks safely and writing result files."""
