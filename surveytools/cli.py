@@ -130,20 +130,39 @@ STATUS_WORDS = {"ok": "ok", "warnings": "ok with warnings", "errors": "has error
 
 
 def _headline(outcome: dict[str, Any]) -> str:
-    """One line of figures for a processed input: position, Lden, coverage, criteria."""
+    """One line for a processed input: verdict first, then position, Lden and coverage.
+
+    The same words and the same reported figures as the Summary sheet and the overview
+    (:mod:`surveytools.outputs.display`): criteria not met of those set, the data quality,
+    Lden to 0.1 dB as judged, the valid share to 0.1 %.
+    """
+    from surveytools.outputs.display import hours_text, level_text, share_text
+
     row = outcome.get("overview") or {}
+    verdict = row.get("verdict") or {}
     parts = []
+    if verdict.get("outcome_text"):
+        parts.append(f"criteria: {verdict['outcome_text']}")
+    if verdict.get("data_quality_text"):
+        parts.append(f"data quality: {verdict['data_quality_text']}")
     if row.get("position"):
-        parts.append(str(row["position"]))
+        parts.append(f"position {row['position']}")
     lden = (row.get("survey_average") or {}).get("Lden")
     if lden is not None:
-        parts.append(f"Lden {lden:.1f} dB (survey average)")
+        parts.append(f"Lden {level_text(lden)} (survey average)")
     fraction = (row.get("coverage") or {}).get("valid_fraction")
     if fraction is not None and row.get("measured_s"):
-        parts.append(f"{100 * fraction:.1f} % of {row['measured_s'] / 3600:.1f} h valid")
-    if row.get("criteria_checked"):
-        parts.append(f"criteria: {row['criteria_not_met']} of {row['criteria_checked']} not met")
+        parts.append(f"{share_text(fraction)} of {hours_text(row['measured_s'])} valid")
     return "; ".join(parts)
+
+
+def _render_verdict_warnings(out: TextIO, outcome: dict[str, Any]) -> None:
+    """Print the conditions that affect the figures but are not findings (coverage ...)."""
+    verdict = (outcome.get("overview") or {}).get("verdict") or {}
+    codes = {f.get("code") for f in outcome.get("findings") or []}
+    for w in verdict.get("warnings_affecting_figures") or []:
+        if w.get("code") not in codes:
+            out.write(f"  affects the figures: {w.get('message')}\n")
 
 
 def _render_findings(out: TextIO, outcome: dict[str, Any], limit: int | None) -> None:
@@ -224,10 +243,14 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
                     continue
                 reused = " (unchanged since the last run; results kept)" if o.get("reused") else ""
                 headline = _headline(o)
-                out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}{reused}"
-                          + (f" - {headline}" if headline else "") + "\n")
-                if not o.get("reused"):
-                    _render_findings(out, o, limit=5)
+                if (o.get("overview") or {}).get("verdict"):
+                    out.write(f"{o['file']}{reused}: {headline}\n")
+                else:
+                    out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}"
+                              f"{reused}" + (f" - {headline}" if headline else "") + "\n")
+                # a kept result still tells its warnings and verdict, as on the first run
+                _render_findings(out, o, limit=5)
+                _render_verdict_warnings(out, o)
             for s in result.skipped:
                 if args.watch and s.path in seen:
                     continue

@@ -137,6 +137,12 @@ PLAUSIBLE_LEVEL_MAX_DB = 140.0
 #: sufficient. Common practice (no standard value).
 COVERAGE_THRESHOLD = 0.75
 
+#: Share of the measured time excluded above which the verdict lists the exclusions as a
+#: warning that affects the figures (the valid rest may not represent the survey period).
+#: Common practice: survey reports explain exclusions of more than about a tenth of the
+#: measured time (no standard value).
+EXCLUDED_SHARE_NOTICE = 0.10
+
 #: A gap is reported when the time between readings exceeds this multiple of the
 #: logging step. Common practice.
 GAP_FACTOR = 1.5

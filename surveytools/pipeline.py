@@ -136,6 +136,7 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     ``"unreadable"`` and the fatal finding. ``read`` is the read phase when already done.
     """
     from surveytools.outputs.results_json import document_header, unreadable_document
+    from surveytools.verdict import verdict_section
 
     if read is None:
         read = read_input(path, settings, source, expected_sha256)
@@ -146,6 +147,7 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
         fatal = Finding(exc.code, Severity.ERROR, exc.message, exc.sheet)
         doc = unreadable_document(source, [fatal], settings)
         doc["provenance"] = library_versions()
+        doc["verdict"] = verdict_section(doc)
         return doc, None
 
     from surveytools.assessment import assess, reading_annotations
@@ -156,10 +158,11 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     doc = document_header(source, settings, survey.findings, survey.finding_counts)
     doc["provenance"] = library_versions()
     doc.update(sections)
+    doc["verdict"] = verdict_section(doc)
     annotations = None
     output = settings.output
     if output.include_readings or len(survey.readings) <= output.readings_row_limit:
-        annotations = reading_annotations(survey)
+        annotations = reading_annotations(survey, with_levels=True)
     return doc, annotations
 
 
@@ -173,6 +176,11 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
     excesses = [a.get("excess_over_background") for a in doc.get("assessments") or []
                 if a.get("excess_over_background") is not None]
     background = doc.get("background") or {}
+    verdict = doc.get("verdict")
+    if not isinstance(verdict, dict):  # a document from an earlier version (kept by a rerun)
+        from surveytools.verdict import verdict_section
+
+        verdict = verdict_section(doc)
     reason = None
     if doc.get("status") == "unreadable" and doc.get("findings"):
         reason = doc["findings"][0]["message"]
@@ -185,10 +193,12 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
         "position": survey.get("position"),
         "site": survey.get("site"),
         "coverage": {"first": coverage.get("first"), "last": coverage.get("last"),
-                     "valid_fraction": round(valid / measured, 4) if measured else None},
+                     "valid_fraction": valid / measured if measured else None},
         "survey_average": doc.get("survey_average"),
         "background": {"day": (background.get("day") or {}).get("LA90"),
-                       "night": (background.get("night") or {}).get("LA90")},
+                       "night": (background.get("night") or {}).get("LA90"),
+                       "method": background.get("method")},
+        "verdict": verdict,
         "worst_excess_over_background": max(excesses) if excesses else None,
         "criteria_failed": sum(int(c.get("failed") or 0) for c in doc.get("criteria") or []),
         "criteria_not_met": sum(1 for c in doc.get("criteria") or [] if c.get("passed") is False),

@@ -9,7 +9,9 @@ failures carry ``"sufficient": false`` so a reader can discount them. ``passed``
 
 A criterion with ``interval_s`` checks LAeq (energy average over the valid time) or LAFmax
 (highest) over longer intervals built from the reporting intervals on the local clock,
-e.g. LAeq,1h from 15-minute intervals.
+e.g. LAeq,1h from 15-minute intervals. Such a criterion also lists every longer-interval
+figure under ``interval_figures`` (start, period, value, reported, sufficient, judged), so
+the workbook can show the hourly values it was judged on.
 """
 
 from __future__ import annotations
@@ -149,6 +151,16 @@ def criteria_section(
                                            criterion.name or indicator)
                 candidates = [(start, value, ok) for start, value, ok, period in longer
                               if criterion.period in ("any", period)]
+                checked = _check(criterion, "interval", candidates)
+                # every longer-interval figure (judged or not), so a reader can see the
+                # hourly values the criterion was judged on, not only the failures
+                checked["interval_figures"] = [
+                    {"start": start, "period": period, "value": value,
+                     "reported": None if value is None else reported_value(value),
+                     "sufficient": ok, "judged": criterion.period in ("any", period)}
+                    for start, value, ok, period in longer]
+                out.append(checked)
+                continue
             else:
                 candidates = [(i["start"], i.get(indicator), bool(i["sufficient"]))
                               for i in intervals
