@@ -127,7 +127,10 @@ def _identity(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
     site = survey.get("site")
     cov = doc.get("coverage") or {}
     sw.text(row, 0, "Position", "bold", measure=False)
-    _para(sw, row, f"{position or 'not stated'}" + (f" at {site}" if site else ""), "wrap")
+    _para(sw, row, str(position or "not stated"), "wrap")
+    row += 1
+    sw.text(row, 0, "Site", "bold", measure=False)
+    _para(sw, row, str(site or "not stated"), "wrap")
     row += 1
     sw.text(row, 0, "Input file", "bold", measure=False)
     _para(sw, row, str(d.get(doc, "input", "file") or ""), "wrap")
