@@ -90,10 +90,10 @@ def write_overview_workbook(path: Path, overview: dict[str, Any]) -> None:
 #: Overview columns: (header, width in characters). Every level is the reported value.
 OVERVIEW_COLUMNS: tuple[tuple[str, float], ...] = (
     ("Input file", 20.0), ("Position", 9.0), ("Site", 14.0), ("Criteria outcome", 16.0),
-    ("Data quality", 12.0), ("Conditions affecting the figures", 32.0), ("Valid [%]", 7.0),
+    ("Data quality", 12.0), ("Conditions affecting the figures", 30.0), ("Valid [%]", 7.0),
     ("Lden [dB]", 7.0), ("Lday [dB]", 7.0), ("Levening [dB]", 8.0), ("Lnight [dB]", 7.0),
-    ("Background LA90 day [dB]", 9.0), ("Background LA90 night [dB]", 9.0),
-    ("Worst excess over background [dB]", 9.0), ("Figures above limits (count)", 8.0),
+    ("Background LA90 day [dB]", 11.0), ("Background LA90 night [dB]", 11.0),
+    ("Worst excess over background [dB]", 10.5), ("Figures above limits (count)", 8.0),
     ("Errors", 7.0), ("Warnings", 8.0), ("Results workbook", 24.0),
 )
 
@@ -151,11 +151,12 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
         sw.text(r, 2, item.get("site"), "wrap", measure=False)
         outcome = verdict.get("outcome")
         sw.text(r, 3, verdict.get("outcome_text") or ("" if status != "unreadable" else "n/a"),
-                {"not met": "fail", "met": "pass"}.get(str(outcome), "wrap"), measure=False)
+                {"not met": "wrap_fail", "met": "wrap_pass"}.get(str(outcome), "wrap"),
+                measure=False)
         quality = str(verdict.get("data_quality") or status)
         sw.text(r, 4, data_quality_words(quality),
-                f"st_{quality}" if quality in ("ok", "warnings", "errors", "unreadable")
-                else "text", measure=False)
+                f"wrap_{quality}" if quality in ("ok", "warnings", "errors", "unreadable")
+                else "wrap", measure=False)
         conditions = _conditions_text(item)
         sw.text(r, 5, conditions, "wrap", measure=False)
         sw.number(r, 6, share(_get(item, "coverage", "valid_fraction")), "percent1")

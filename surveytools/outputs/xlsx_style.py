@@ -158,6 +158,15 @@ _STYLE_PROPS: dict[str, dict[str, Any]] = {
     "verdict_warn": {"bold": True, "font_size": 12, "bg_color": COLOUR_WARN_FILL,
                      "valign": "vcenter", "text_wrap": True},
     "warn_line": {"bg_color": COLOUR_WARN_FILL, "text_wrap": True, "valign": "top"},
+    # wrapped, top-aligned outcome cells (overview rows)
+    "wrap_fail": {"bg_color": COLOUR_FAIL_FILL, "font_color": COLOUR_FAIL_TEXT, "bold": True,
+                  "text_wrap": True, "valign": "top"},
+    "wrap_pass": {"bg_color": COLOUR_PASS_FILL, "text_wrap": True, "valign": "top"},
+    "wrap_ok": {"bg_color": COLOUR_PASS_FILL, "text_wrap": True, "valign": "top"},
+    "wrap_warnings": {"bg_color": COLOUR_WARN_FILL, "text_wrap": True, "valign": "top"},
+    "wrap_errors": {"bg_color": COLOUR_FAIL_FILL, "text_wrap": True, "valign": "top"},
+    "wrap_unreadable": {"bg_color": COLOUR_UNREADABLE_FILL, "text_wrap": True,
+                        "valign": "top"},
 }
 
 
