@@ -93,6 +93,18 @@ def hours_text(seconds: object) -> str:
     return "n/a" if v is None else f"{v:.1f} h"
 
 
+def duration_text(seconds: object) -> str:
+    """Return a duration as hours to 0.1 h, or minutes / seconds when shorter than 0.1 h."""
+    v = finite_number(seconds)
+    if v is None:
+        return "n/a"
+    if v >= 360.0:
+        return hours_text(v)
+    if v >= 60.0:
+        return f"{float(reported_level(v / 60.0, 0)):.0f} min"
+    return f"{float(reported_level(v, 0)):.0f} s"
+
+
 def background_whole_db(doc: Mapping[str, Any]) -> bool:
     """Return True when background LA90 is reported to whole dB (mode of whole-dB values)."""
     return get(doc, "background", "method") == "mode"

@@ -10,42 +10,31 @@ from typing import Any
 
 from surveytools.outputs import display as d
 from surveytools.outputs.book import Book
-from surveytools.outputs.xlsx_style import SheetWriter, print_setup
+from surveytools.outputs.xlsx_style import print_setup, wrapped_lines
 
 SHEET_ASSESSMENTS = "Assessments"
+
+
+#: Windows listed per assessment (the results JSON lists them all).
+MAX_WINDOWS = 6
+#: Width of one assessment's column [characters].
+COLUMN_WIDTH = 30.0
 
 
 def _windows(windows: object) -> str:
     if not isinstance(windows, list | tuple) or not windows:
         return ""
     parts = []
-    for w in windows:
+    for w in list(windows)[:MAX_WINDOWS]:
         if isinstance(w, list | tuple) and len(w) == 2:
             parts.append(f"{d.when_text(w[0])} to {d.when_text(w[1])}")
         else:
             parts.append(str(w))
-    return "; ".join(parts)
+    more = len(windows) - MAX_WINDOWS
+    return "; ".join(parts) + (f"; and {more} more (results JSON)" if more > 0 else "")
 
 
-Writer = Callable[[SheetWriter, int, int, Mapping[str, Any]], None]
-
-
-def _txt(key: str) -> Writer:
-    return lambda sw, r, c, a: sw.text(r, c, a.get(key), "wrap", measure=False)
-
-
-def _lvl(key: str, whole: bool = False) -> Writer:
-    style = "whole_db" if whole else "level"
-    return lambda sw, r, c, a: (sw.number(r, c, d.level(a.get(key), whole), style), None)[1]
-
-
-def _corr(key: str) -> Writer:
-    return lambda sw, r, c, a: (sw.number(r, c, d.level(d.get(a, "corrections_db", key)),
-                                          "level"), None)[1]
-
-
-def _hrs(key: str) -> Writer:
-    return lambda sw, r, c, a: (sw.number(r, c, d.hours(a.get(key)), "hours1"), None)[1]
+Getter = Callable[[Mapping[str, Any]], object]
 
 
 def add(book: Book) -> None:
@@ -58,45 +47,62 @@ def add(book: Book) -> None:
                   "BS 4142 rating and excess over background where used), one column each. "
                   "Levels reported to 0.1 dB; windows are local clock.", "note", measure=False)
     whole = d.background_whole_db(doc)
-    rows: list[tuple[str, Writer]] = [
-        ("Position", _txt("position")), ("Selection", _txt("selection")),
-        ("Source-on windows", lambda sw, r, c, a: sw.text(r, c, _windows(a.get("source_on")),
-                                                          "wrap", measure=False)),
-        ("Residual windows", lambda sw, r, c, a: sw.text(r, c, _windows(a.get("residual")),
-                                                         "wrap", measure=False)),
-        ("Valid time, total [h]", _hrs("valid_s_total")),
-        ("Valid time, residual [h]", _hrs("valid_s_residual")),
-        ("LAeq total [dB]", _lvl("LAeq_total")), ("LAeq residual [dB]", _lvl("LAeq_residual")),
-        ("Level difference [dB]", _lvl("level_difference")),
-        ("Specific level [dB]", _lvl("specific_level")),
-        ("Specific level basis", _txt("specific_basis")),
-        ("Tonal correction [dB]", _corr("tonal")), ("Impulsive correction [dB]",
-                                                    _corr("impulsive")),
-        ("Intermittency correction [dB]", _corr("intermittency")),
-        ("Other correction [dB]", _corr("other")),
-        ("Rating level [dB]", _lvl("rating_level")),
-        ("Background period", _txt("background_period")),
-        ("Background LA90 [dB]", _lvl("background_LA90", whole)),
-        ("Excess over background [dB]", _lvl("excess_over_background")),
-        ("Impact indication", lambda sw, r, c, a: sw.text(
-            r, c, d.impact_text(a.get("impact_indication")), "wrap", measure=False)),
-        ("Note", _txt("note")),
+
+    def corr(key: str) -> Getter:
+        return lambda a: d.level(d.get(a, "corrections_db", key))
+
+    rows: list[tuple[str, str, Getter]] = [
+        ("Position", "text", lambda a: a.get("position")),
+        ("Selection", "text", lambda a: a.get("selection")),
+        ("Source-on windows", "text", lambda a: _windows(a.get("source_on"))),
+        ("Residual windows", "text", lambda a: _windows(a.get("residual"))),
+        ("Valid time, total [h]", "hours1", lambda a: d.hours(a.get("valid_s_total"))),
+        ("Valid time, residual [h]", "hours1", lambda a: d.hours(a.get("valid_s_residual"))),
+        ("LAeq total [dB]", "level", lambda a: d.level(a.get("LAeq_total"))),
+        ("LAeq residual [dB]", "level", lambda a: d.level(a.get("LAeq_residual"))),
+        ("Level difference [dB]", "level", lambda a: d.level(a.get("level_difference"))),
+        ("Specific level [dB]", "level", lambda a: d.level(a.get("specific_level"))),
+        ("Specific level basis", "text", lambda a: a.get("specific_basis")),
+        ("Tonal correction [dB]", "level", corr("tonal")),
+        ("Impulsive correction [dB]", "level", corr("impulsive")),
+        ("Intermittency correction [dB]", "level", corr("intermittency")),
+        ("Other correction [dB]", "level", corr("other")),
+        ("Rating level [dB]", "level", lambda a: d.level(a.get("rating_level"))),
+        ("Background period", "text", lambda a: a.get("background_period")),
+        ("Background LA90 [dB]", "whole_db" if whole else "level",
+         lambda a: d.level(a.get("background_LA90"), whole)),
+        ("Excess over background [dB]", "level",
+         lambda a: d.level(a.get("excess_over_background"))),
+        ("Impact indication", "text", lambda a: d.impact_text(a.get("impact_indication"))),
+        ("Note", "text", lambda a: a.get("note")),
     ]
     header_row = 1
-    sw.header(header_row, 0, ["Assessment", *[str(a.get("name") or f"#{i + 1}")
-                                              for i, a in enumerate(items)]])
+    names = ["Assessment", *[str(a.get("name") or f"#{i + 1}") for i, a in enumerate(items)]]
+    sw.header(header_row, 0, names)
     ws.freeze_panes(header_row + 1, 1)
-    for i, (label, _w) in enumerate(rows):
-        sw.text(header_row + 1 + i, 0, label, "bold")
+    sw.set_width(0, COLUMN_WIDTH)
+    for j in range(len(items)):
+        sw.set_width(1 + j, COLUMN_WIDTH)
+    for i, (label, kind, get) in enumerate(rows):
+        r = header_row + 1 + i
+        sw.text(r, 0, label, "bold")
+        lines = 1
+        for j, a in enumerate(items):
+            value = get(a)
+            if kind == "text":
+                text = "" if value is None else str(value)
+                sw.text(r, 1 + j, text, "wrap", measure=False)
+                lines = max(lines, wrapped_lines(text, COLUMN_WIDTH))
+            else:
+                sw.number(r, 1 + j, value, kind)
+        if lines > 1:
+            ws.set_row(r, 15.0 * lines + 2)
     if not items:
         sw.text(header_row + 1, 1, "No source assessments are configured.", "note",
                 measure=False)
-    for j, a in enumerate(items):
-        for i, (_label, write) in enumerate(rows):
-            write(sw, header_row + 1 + i, 1 + j, a)
-        sw.set_width(1 + j, 30.0)
-    sw.set_width(0, 30.0)
     last_col = max(len(items), 1)
     last_row = header_row + len(rows)
+    sw.header_height(header_row, 0, names)
+    sw.wrap_notes(last_col)
     print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 1,
                 last_row=last_row, last_col=last_col)

@@ -9,9 +9,12 @@ from collections.abc import Mapping
 
 from surveytools.outputs import display as d
 from surveytools.outputs.book import Book
-from surveytools.outputs.xlsx_style import finite_number, print_setup
+from surveytools.outputs.xlsx_style import finite_number, print_setup, wrapped_lines
 
 SHEET_BACKGROUND = "Background"
+
+#: Width of the merged note cells beside the day/night LA90 (columns C:F) [characters].
+_NOTE_WIDTH = 48.0
 
 
 def add(book: Book) -> None:
@@ -41,8 +44,11 @@ def add(book: Book) -> None:
             sw.number(row, 1, value, "whole_db_bold" if whole else "level_bold")
         else:
             sw.text(row, 1, "not available", "note")
-        sw.text(row, 2, f"{d.get(part, 'n_intervals') or 0} reference intervals. "
-                + notes[f"bg_{period}"], "note", measure=False)
+        note = (f"{d.get(part, 'n_intervals') or 0} reference intervals. "
+                + notes[f"bg_{period}"])
+        ws.merge_range(row, 2, row, 5, "", sw.styles.get("note_across"))
+        sw.text(row, 2, note, "note_across", measure=False)
+        ws.set_row(row, 15.0 * wrapped_lines(note, _NOTE_WIDTH) + 2)
         row += 1
     if whole:
         sw.text(row, 0, "LA90 reported to whole dB (mode of whole-dB values, BS 4142).",
@@ -74,6 +80,7 @@ def add(book: Book) -> None:
     dist_last = row - 1
     row += 1
 
+    ws.set_h_pagebreaks([row])  # the reference table starts on a page of its own
     sw.text(row, 0, "Reference intervals", "subtitle", measure=False)
     row += 1
     header_row = row
@@ -94,7 +101,10 @@ def add(book: Book) -> None:
         ws.autofilter(header_row, 0, last, len(headers) - 1)
     sw.fit_columns(minimum=10.0, maximum=18.0)
     sw.set_width(0, 17.0)
+    for col in range(2, 6):  # the notes above wrap within these widths
+        sw.set_width(col, max(sw.set_widths.get(col, 10.0), 12.0))
     sw.header_height(header_row, 0, headers)
+    sw.wrap_notes(len(headers) - 1)
     print_setup(ws, sw.printed_width(len(headers) - 1), (header_row, header_row),
                 last_row=last, last_col=len(headers) - 1)
     if dist:

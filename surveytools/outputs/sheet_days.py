@@ -13,7 +13,7 @@ from typing import Any
 
 from surveytools.outputs import display as d
 from surveytools.outputs.book import Book
-from surveytools.outputs.xlsx_style import finite_number, print_setup
+from surveytools.outputs.xlsx_style import finite_number, print_setup, wrapped_lines
 
 SHEET_DAYS = "Days"
 
@@ -69,6 +69,7 @@ def add(book: Book) -> None:
         sw.fit_columns(minimum=9.0)
         print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 1)
         return
+    notes: dict[int, str] = {}
     for i, day in enumerate(days):
         r = header_row + 1 + i
         sw.day(r, 0, day.get("date"))
@@ -103,12 +104,18 @@ def add(book: Book) -> None:
                and (k, float(v)) not in (("day", 12.0), ("evening", 4.0), ("night", 8.0))]
         if odd:
             parts.append("period lengths (clock change or custom periods): " + ", ".join(odd))
-        sw.text(r, col + 2, "; ".join(parts), "wrap", measure=False)
+        note = "; ".join(parts)
+        sw.text(r, col + 2, note, "wrap", measure=False)
+        notes[r] = note
     last = header_row + len(days)
     ws.autofilter(header_row, 0, last, last_col)
     sw.fit_columns(minimum=8.0, maximum=14.0)
     sw.set_width(0, 11.0)
     sw.set_width(last_col, 40.0)
+    for r, note in notes.items():
+        lines = wrapped_lines(note, 40.0)
+        if lines > 1:
+            ws.set_row(r, 15.0 * lines + 2)
 
     # hidden limit columns for the chart's limit lines (outside the print area)
     chart_limits = [(key, lim, name) for key in CHART_INDICATORS
@@ -120,6 +127,7 @@ def add(book: Book) -> None:
             ws.write_number(header_row + 1 + i, col, lim)
         sw.set_width(col, 10.0, hidden=True)
     sw.header_height(header_row, 0, headers)
+    sw.wrap_notes(last_col)
     print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 1,
                 last_row=last, last_col=last_col)
     _chart(book, ws.name, header_row, last, chart_limits, days)

@@ -70,5 +70,6 @@ def add(book: Book) -> None:
     last_col = uc + 2
     last_row = header_row + max(len(spans), len(unplaced), 1)
     sw.header_height(header_row, 0, headers)
+    sw.wrap_notes(last_col)
     print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 0,
                 last_row=last_row, last_col=last_col)

@@ -137,6 +137,7 @@ def add(book: Book) -> None:
                 ws.write_number(header_row + 1 + i, col, lim)
         sw.set_width(col, 10.0, hidden=True)
     sw.header_height(header_row, 0, headers)
+    sw.wrap_notes(last_col)
     print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 1,
                 last_row=last, last_col=last_col)
 

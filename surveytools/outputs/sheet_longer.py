@@ -104,6 +104,7 @@ def _add_one(book: Book, interval_s: float, criteria: list[Mapping[str, Any]]) -
     ws.autofilter(header_row, 0, last, last_col)
     sw.fit_columns(minimum=8.0, maximum=16.0)
     sw.header_height(header_row, 0, headers)
+    sw.wrap_notes(last_col)
     print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 1,
                 last_row=last, last_col=last_col)
     if not starts:

@@ -92,9 +92,10 @@ def add(book: Book) -> None:
     row += 1
     sw.text(row, 0, "Library versions", "subtitle", measure=False)
     row += 1
-    libs = (doc.get("provenance") or {}).get("libraries") if isinstance(
-        doc.get("provenance"), Mapping) else None
-    if not isinstance(libs, Mapping):
+    libs = doc.get("provenance")
+    if isinstance(libs, Mapping) and isinstance(libs.get("libraries"), Mapping):
+        libs = libs["libraries"]
+    if not isinstance(libs, Mapping) or not libs:
         libs = library_versions()
     row = sw.key_values(row, 0, [(str(k), str(v)) for k, v in libs.items()])
     row += 1

@@ -93,5 +93,6 @@ def add(book: Book) -> None:
     sw.fit_columns(minimum=6.0, maximum=40.0)
     last_col = max(len(headers) - 1, 0)
     sw.header_height(header_row, 0, headers)
+    sw.wrap_notes(last_col)
     print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 3,
                 last_row=last_row, last_col=last_col)

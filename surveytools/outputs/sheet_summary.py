@@ -83,8 +83,10 @@ def _verdict(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
         style = "verdict_fail"
         text = (f"NOT MET - {text} ({figures} figure{'s' if figures != 1 else ''} above "
                 "their limits; see Criteria below)")
-    elif outcome == "met":
+    elif outcome == "met" and verdict.get("criteria_checked") == verdict.get("criteria_total"):
         style, text = "verdict_pass", f"MET - {text}"
+    elif outcome == "met":
+        style, text = "verdict_pass", f"NONE EXCEEDED - {text}"
     else:
         style = "verdict_neutral"
     sw.text(row, 0, "Criteria outcome", "verdict_label", measure=False)
@@ -162,7 +164,7 @@ def _identity(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
                            if sp.get("scope") == "background"}
         parts = sorted(excluded.items(), key=lambda kv: -float(kv[1] or 0))
         text += "; excluded: " + ", ".join(
-            f"{k} {d.hours_text(v)}" + (" (from background only)" if k in background_only
+            f"{k} {d.duration_text(v)}" + (" (from background only)" if k in background_only
                                         else "") for k, v in parts)
     unplaced = cov.get("unplaced_rows")
     if isinstance(unplaced, int) and unplaced:

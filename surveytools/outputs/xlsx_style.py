@@ -100,6 +100,8 @@ _STYLE_PROPS: dict[str, dict[str, Any]] = {
     "seconds": {"num_format": "0.0"},
     "datetime": {"num_format": FMT_DATETIME},
     "datetime_short": {"num_format": "yyyy-mm-dd hh:mm"},
+    "note_across": {"italic": True, "font_color": COLOUR_GREY_TEXT, "text_wrap": True,
+                    "valign": "top"},
     "note_wrap": {"italic": True, "font_color": COLOUR_GREY_TEXT, "text_wrap": True,
                   "valign": "top", "font_size": 9},
     "date": {"num_format": FMT_DATE},
@@ -388,6 +390,8 @@ class SheetWriter:
     fixed_widths: dict[int, float] = field(default_factory=dict)
     #: Widths set so far (for the print layout).
     set_widths: dict[int, float] = field(default_factory=dict)
+    #: The note in the first cell (A1), wrapped across the table at the end.
+    notes: dict[int, str] = field(default_factory=dict)
 
     def _measure(self, col: int, chars: int) -> None:
         if chars > self.widths.get(col, 0):
@@ -402,6 +406,8 @@ class SheetWriter:
             return
         fmt = self.styles.get(style, quote=is_trigger_led(text))
         self.ws.write_string(row, col, text, fmt)
+        if style == "note" and row == 0 and col == 0 and not measure:
+            self.notes[row] = text
         if measure:
             longest = max((len(part) for part in text.splitlines()), default=0)
             self._measure(col, longest)
@@ -502,9 +508,21 @@ class SheetWriter:
             width = self.set_widths.get(col + i, DEFAULT_COLUMN_WIDTH)
             if width <= 0:
                 continue
-            # bold text is about a tenth wider than the digit width the column unit counts
-            lines = max(lines, wrapped_lines(name, width / (1.1 if bold else 1.0)))
+            # bold text is a little wider than the digit width the column unit counts
+            lines = max(lines, wrapped_lines(name, (width + 1.0) / (1.05 if bold else 1.0)))
         self.ws.set_row(row, HEADER_LINE_HEIGHT_PT * lines + 2)
+
+    def wrap_notes(self, last_col: int) -> None:
+        """Wrap each first-column note across columns ``0..last_col`` (nothing runs off)."""
+        width = self.printed_width(last_col)
+        for row, text in self.notes.items():
+            if last_col > 0:
+                self.ws.merge_range(row, 0, row, last_col, "", self.styles.get("note_across"))
+            self.ws.write_string(row, 0, text, self.styles.get("note_across",
+                                                                quote=is_trigger_led(text)))
+            lines = wrapped_lines(text, width * 1.05)
+            if lines > 1:
+                self.ws.set_row(row, HEADER_LINE_HEIGHT_PT * lines + 2)
 
     def printed_width(self, last_col: int) -> float:
         """Return the summed width of columns ``0..last_col`` [characters]."""
