@@ -28,6 +28,7 @@ from surveytools.outputs.xlsx_style import (
     parse_local_timestamp,
     severity_counts,
     text_lines,
+    wrapped_lines,
 )
 
 SHEET_SUMMARY = "Summary"
@@ -36,9 +37,15 @@ SHEET_SUMMARY = "Summary"
 COLUMNS = (30.0, 13.0, 13.0, 13.0, 20.0, 62.0)
 LAST_COL = len(COLUMNS) - 1
 #: Rows listed per block on the Summary (the detail sheets list them all).
-MAX_LIST = 6
+MAX_LIST = 4
 #: Warnings affecting the figures listed by message on the Summary.
-MAX_WARNINGS = 6
+MAX_WARNINGS = 4
+#: Height of the thin gap rows between blocks [pt].
+GAP_PT = 7.0
+#: Characters of running text per column-width unit in a wide cell: text averages narrower
+#: than the digit the unit counts (measured on printed pages: a 121-unit span held about
+#: 135 characters of message text in the widest fallback font, DejaVu Sans).
+_TEXT_PER_UNIT = 1.1
 #: Line height of 11-pt text and of 9-pt notes [pt].
 LINE_PT = HEADER_LINE_HEIGHT_PT
 NOTE_LINE_PT = 12.0
@@ -53,7 +60,7 @@ def _para(sw: SheetWriter, row: int, text: str, style: str, first: int = 1,
     """Write wrapped text over merged columns with a row height that shows all of it."""
     sw.ws.merge_range(row, first, row, last, "", sw.styles.get(style))
     sw.text(row, first, text, style, measure=False)
-    width = _span_width(first, last) * (11.0 / 9.0 if small else 1.0)
+    width = _span_width(first, last) * (11.0 / 9.0 if small else 1.0) * _TEXT_PER_UNIT
     lines = text_lines(text, width)
     height = (NOTE_LINE_PT if small else LINE_PT) * lines + 2
     if lines > 1 or height > LINE_PT + 2:
@@ -66,7 +73,7 @@ def _row_height(sw: SheetWriter, row: int, texts: list[tuple[str, int, bool]]) -
     pt = LINE_PT
     for text, col, small in texts:
         width = COLUMNS[col] * (11.0 / 9.0 if small else 1.0)
-        n = text_lines(text, width)
+        n = wrapped_lines(text, width * (_TEXT_PER_UNIT if width > 40 else 1.0))
         if n > lines:
             lines = n
             pt = NOTE_LINE_PT if small else LINE_PT
@@ -347,11 +354,18 @@ def add(book: Book) -> None:
     tool = doc.get("tool") or {}
     sw.text(1, 0, f"Written by {tool.get('name', 'surveytools')} {tool.get('version', '')}. "
                   f"{d.offset_note(doc)}", "note", measure=False)
+    ws.set_row(2, GAP_PT)
     row = _verdict(sw, doc, 3)
+    ws.set_row(row, GAP_PT)  # thin gaps between blocks keep the page legible at one page
     row = _identity(sw, doc, row + 1)
+    ws.set_row(row, GAP_PT)
     row = _figures(sw, doc, row + 1)
+    ws.set_row(row, GAP_PT)
     row = _criteria(sw, doc, row + 1)
-    row = _assessments(sw, doc, row + 1) if doc.get("assessments") else row
+    ws.set_row(row, GAP_PT)
+    if doc.get("assessments"):
+        row = _assessments(sw, doc, row + 1)
+        ws.set_row(row, GAP_PT)
     row = _cautions(sw, doc, row + 1)
     last_row = _pointers(sw, doc, row) - 1
     ws.set_landscape()

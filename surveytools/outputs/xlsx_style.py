@@ -287,10 +287,11 @@ HEADER_LINE_HEIGHT_PT = 15.0
 
 #: Widest table (sum of column widths, in characters of the default 11-pt font) still fitted
 #: one A4 landscape page wide. The printable width with our margins is about 784 pt; a
-#: column of width w takes about 0.75 * (7 w + 5) pt at 100 %, so 215 characters print at
-#: about 70 % (11 pt text at 7.7 pt). Wider tables flow over pages at full size with their
+#: column of width w takes about 0.75 * (7 w + 5) pt at 100 % (more in LibreOffice's
+#: default font: 215 characters printed 11-pt text at 6.6 pt there), so 190 characters keep
+#: 11-pt text at about 7 pt or more. Wider tables flow over pages at full size with their
 #: key columns repeated (shrinking them further would make them unreadable).
-PRINT_FIT_MAX_CHARS = 215
+PRINT_FIT_MAX_CHARS = 190
 
 #: Default column width of a spreadsheet (characters), for columns we did not size.
 DEFAULT_COLUMN_WIDTH = 8.43
