@@ -106,6 +106,10 @@ def test_rerun_skips_unchanged_inputs_and_says_so(tmp_path: Path) -> None:
     second = run_cli("run", str(drop), "-o", str(out), "--quiet", "--settle", "0", cwd=tmp_path)
     assert second.returncode == 0
     assert "unchanged since the last run" in second.stdout
+    # a kept result still tells its verdict and warnings: the same lines as the first run
+    assert second.stdout.replace(" (unchanged since the last run; results kept)", "") == \
+        first.stdout
+    assert "criteria:" in second.stdout and "data quality:" in second.stdout
     assert (out / "a.results.json").read_bytes() == js
     third = run_cli("run", str(drop), "-o", str(out), "--quiet", "--settle", "0", "--force",
                     cwd=tmp_path)

@@ -494,3 +494,40 @@ def test_libreoffice_reads_injection_text_as_text(tmp_path: Path) -> None:
     with exclusions.open(encoding="utf-8") as fh:
         labels = [r[8] for r in csv.reader(fh) if len(r) > 8]
     assert "@SUM(A1)" in labels
+
+
+def test_hourly_criterion_highlights_hourly_figures_not_reporting_rows(tmp_path: Path) -> None:
+    # A criterion over 1-h intervals is judged on hourly LAeq (its interval_figures); the
+    # 15-min rows are never marked against it, the hourly sheet marks exactly the judged
+    # hours whose reported value is above the limit (hand-built figures below).
+    doc = build_results_doc()
+    doc["criteria"] = [{
+        "name": "Daytime hourly level", "indicator": "LAeq", "period": "day",
+        "limit_db": 56.0, "applies_to": "interval", "interval_s": 3600.0, "checked": 3,
+        "failed": 1, "passed": False,
+        "failures": [{"when": "2026-06-10T13:00:00+02:00", "value": 56.25,
+                      "reported": 56.3, "sufficient": True}],
+        "interval_figures": [
+            {"start": "2026-06-10T12:00:00+02:00", "period": "day", "value": 55.95,
+             "reported": 56.0, "sufficient": True, "judged": True},  # 56.0 is not above 56
+            {"start": "2026-06-10T13:00:00+02:00", "period": "day", "value": 56.25,
+             "reported": 56.3, "sufficient": True, "judged": True},
+            {"start": "2026-06-10T23:00:00+02:00", "period": "night", "value": 58.0,
+             "reported": 58.0, "sufficient": True, "judged": False},  # not in its period
+        ],
+    }]
+    wb = openpyxl.load_workbook(write(tmp_path, doc))
+    intervals = wb["Intervals"]
+    fills = {str(intervals.cell(r, 5).fill.fgColor.rgb) for r in range(3, intervals.max_row + 1)}
+    assert not any(f.endswith("F8D0C8") for f in fills)
+    ws = wb["Hourly"]
+    headers = [c.value for c in ws[2]]
+    col = headers.index("LAeq,1h [dB]") + 1
+    outcome = headers.index("Outcome: Daytime hourly level") + 1
+    got = [(ws.cell(r, col).value, str(ws.cell(r, col).fill.fgColor.rgb).endswith("F8D0C8"),
+            ws.cell(r, outcome).value) for r in (3, 4, 5)]
+    assert got == [(56.0, False, "met"), (56.3, True, "not met"), (58.0, False, None)]
+    # the Summary shows the judged (reported) value of the failure
+    summary = wb["Summary"]
+    row = find_label(summary, "Daytime hourly level")
+    assert "56.3 dB" in summary.cell(row, 6).value
