@@ -72,7 +72,7 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
         grids = [interval_bounds(ctx), reference_bounds(ctx)[0]]
         grids += [day_offset_boundaries(ctx.candidate_days, times, ctx.tz)
                   for times in all_scheme_times(ctx)]
-        ctx.share_boundaries(grids)
+        ctx = ctx.with_shared_split(grids)
     intervals, intervals_basis = intervals_section(ctx)
     schemes = assess_schemes(ctx) if ctx.n else None
     days = days_section(ctx, schemes)

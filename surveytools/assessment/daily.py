@@ -75,10 +75,10 @@ def assess_scheme(ctx: Context, times: list[str]) -> SchemeResult:
     pieces, group = ctx.pieces_in(bounds)
     # the valid pieces with a finite LAeq, taken once for all schemes
     # the valid pieces with a finite LAeq, taken once for all schemes
-    levels, durations_s, chosen = ctx.valid_pieces(pieces)
+    kept = ctx.valid_pieces(pieces)
     summed = ctx.grouped_laeq(bounds)
     level, valid_s = summed if summed is not None else grouped_energy_average_and_duration(
-        levels, durations_s, group[chosen], n_groups)
+        kept.levels_db, kept.duration_s, group[kept.position], n_groups)
     touched_groups = ctx.touched_groups(bounds, pieces, group)
     result = SchemeResult(
         level_db=level.reshape(n_days, N_PERIODS),
