@@ -16,7 +16,6 @@ outside every window the criterion does not apply.
 
 from __future__ import annotations
 
-import re
 from collections.abc import Collection, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from datetime import date, timedelta, tzinfo
@@ -31,16 +30,15 @@ from surveytools.assessment.timegrid import (
     wall_to_utc_ms,
 )
 from surveytools.errors import SettingsError
+from surveytools.settings.calendar import DAY_NAMES, parse_days, parse_holidays
 
 IntArray = NDArray[np.int64]
 
-#: Day names in ISO 8601 order (Monday = 0 as in :meth:`datetime.date.weekday`).
-DAY_NAMES = ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")
-_FULL_NAMES = ("monday", "tuesday", "wednesday", "thursday", "friday", "saturday", "sunday")
+__all__ = ["DAY_NAMES", "Window", "parse_days", "parse_holidays", "parse_schedule",
+           "parse_window", "schedule_weekday", "window_spans", "within_schedule"]
+
 #: Weekday number a holiday is treated as (Sunday).
 HOLIDAY_WEEKDAY = 6
-#: Days in a week. Definition (ISO 8601).
-DAYS_PER_WEEK = 7
 
 
 @dataclass(frozen=True)
@@ -53,43 +51,6 @@ class Window:
     weekdays: frozenset[int]
     start_min: int
     end_min: int
-
-
-def _day_number(name: str) -> int:
-    low = name.strip().lower()
-    for k, (short, full) in enumerate(zip(DAY_NAMES, _FULL_NAMES, strict=True)):
-        if low in (short.lower(), full):
-            return k
-    raise ValueError(f"{name.strip()!r} is not a day name; use {', '.join(DAY_NAMES)}")
-
-
-def parse_days(text: str) -> frozenset[int]:
-    """Weekday numbers (Monday = 0) of a day list such as ``"Mon-Fri"`` or ``"Sat,Sun"``.
-
-    A range runs forward through the week and may wrap (``"Fri-Mon"`` is Fri, Sat, Sun,
-    Mon).
-
-    Raises
-    ------
-    ValueError
-        If a part is not a day name or a range of two day names.
-    """
-    if not isinstance(text, str) or not text.strip():
-        raise ValueError("days must be text such as 'Mon-Fri' or 'Sat,Sun'")
-    out: set[int] = set()
-    for part in text.split(","):
-        if not part.strip():
-            raise ValueError(f"{text!r} has an empty item; write e.g. 'Mon-Fri,Sun'")
-        ends = part.split("-")
-        if len(ends) == 1:
-            out.add(_day_number(ends[0]))
-        elif len(ends) == 2:
-            first, last = _day_number(ends[0]), _day_number(ends[1])
-            span = (last - first) % DAYS_PER_WEEK
-            out.update((first + k) % DAYS_PER_WEEK for k in range(span + 1))
-        else:
-            raise ValueError(f"{part.strip()!r} is not a day or a range such as 'Mon-Fri'")
-    return frozenset(out)
 
 
 def parse_window(entry: Mapping[str, object]) -> Window:
@@ -151,7 +112,7 @@ def window_spans(
     windows: Sequence[Window], days: Sequence[date], tz: tzinfo,
     holidays: Collection[date] = (),
 ) -> tuple[IntArray, IntArray]:
-    """Merged UTC spans of the windows that start on the given local dates.
+    """Return the merged UTC spans of the windows that start on the given local dates.
 
     Parameters
     ----------
@@ -236,30 +197,3 @@ def within_schedule(
     j = np.searchsorted(span_s, starts, side="right") - 1
     at = np.maximum(j, 0)
     return (j >= 0) & (starts >= span_s[at]) & (ends <= span_e[at])
-
-
-_ISO_DATE = re.compile(r"\d{4}-\d{2}-\d{2}")
-
-
-def parse_holidays(values: Iterable[object]) -> tuple[date, ...]:
-    """Dates of a holiday list (``"YYYY-MM-DD"`` text or dates), sorted, unique.
-
-    Raises
-    ------
-    ValueError
-        With ``[i]`` (1-based) naming the entry that is not a date.
-    """
-    out: set[date] = set()
-    for i, value in enumerate(values, start=1):
-        if isinstance(value, date):
-            out.add(value)
-            continue
-        text = str(value).strip()
-        try:
-            if not _ISO_DATE.fullmatch(text):
-                raise ValueError(text)
-            out.add(date.fromisoformat(text))
-        except ValueError as exc:
-            raise ValueError(f"[{i}]: {value!r} is not a date; write it as '2026-12-25'"
-                             ) from exc
-    return tuple(sorted(out))
