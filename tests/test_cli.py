@@ -281,3 +281,67 @@ def test_a_symlinked_input_is_skipped_with_a_note(tmp_path: Path) -> None:
                    cwd=tmp_path)
     assert proc.returncode == 0
     assert "link.xlsx: skipped - a symbolic link" in proc.stdout
+
+
+def test_alerts_are_appended_once_across_runs_and_watch_polls(tmp_path: Path) -> None:
+    # survey_workbook: hourly LAeq 60 dB 07:00-19:00, 55 dB to 23:00, 50 dB to 07:00 (UTC).
+    # Hand-evaluated: LAeq,1h above 58 dB exactly 07:00-19:00 -> one limit episode of 12 h.
+    drop = tmp_path / "drop"
+    drop.mkdir()
+    survey_workbook(drop / "north.xlsx", position="North fence")
+    settings = tmp_path / "settings.toml"
+    settings.write_text('[[criteria]]\nname = "Daytime"\nindicator = "LAeq"\n'
+                        'interval = "1h"\nlimit_db = 58.0\n')
+    script = tmp_path / "record.py"
+    script.write_text("import sys\n"
+                      f"with open({str(tmp_path / 'calls.txt')!r}, 'a') as f:\n"
+                      "    f.write(sys.stdin.read())\n")
+    out = tmp_path / "o"
+    common = ["--settings", str(settings), "-o", str(out), "--quiet", "--settle", "0",
+              "--on-alert", f"{sys.executable} {script}"]
+    first = run_cli("run", str(drop), *common, cwd=tmp_path)
+    assert first.returncode == 0, first.stderr
+    assert first.stdout.count("ALERT limit: North fence - Daytime") == 1
+    again = run_cli("run", str(drop), *common, "--force", cwd=tmp_path)  # reprocessed
+    assert again.returncode == 0, again.stderr
+    assert "ALERT" not in again.stdout
+    lines = [json.loads(x) for x in (out / "alerts.jsonl").read_text().splitlines()]
+    assert [(x["position"], x["start"], x["end"], x["max_db"], x["severity"]) for x in lines] == [
+        ("North fence", "2026-06-01T07:00:00+00:00", "2026-06-01T19:00:00+00:00", 60.0,
+         "limit")]
+    calls = (tmp_path / "calls.txt").read_text().splitlines()
+    assert [json.loads(c) for c in calls] == lines  # the program saw each line once
+
+    proc = subprocess.Popen([sys.executable, "-m", "surveytools", "run", str(drop), *common,
+                             "--watch", "--interval", "0.3", "--max-cycles", "12"],
+                            cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            text=True)
+    try:
+        deadline = time.monotonic() + 120
+        time.sleep(1.0)
+        survey_workbook(tmp_path / "south.xlsx", position="South gate").rename(
+            drop / "south.xlsx")
+        while not (out / "south.results.json").exists():
+            assert time.monotonic() < deadline, "new file never processed"
+            time.sleep(0.2)
+    finally:
+        stdout, stderr = proc.communicate(timeout=300)
+    assert proc.returncode == 0, stderr
+    assert stdout.count("ALERT") == 1 and "ALERT limit: South gate - Daytime" in stdout
+    positions = [json.loads(x)["position"]
+                 for x in (out / "alerts.jsonl").read_text().splitlines()]
+    assert positions == ["North fence", "South gate"]
+    assert len((tmp_path / "calls.txt").read_text().splitlines()) == 2
+
+
+def test_a_failing_alert_program_is_reported_and_the_run_goes_on(tmp_path: Path) -> None:
+    survey_workbook(tmp_path / "north.xlsx", position="North fence")
+    settings = tmp_path / "settings.toml"
+    settings.write_text('[[criteria]]\nindicator = "LAeq"\nlimit_db = 58.0\n')
+    proc = run_cli("run", str(tmp_path / "north.xlsx"), "--settings", str(settings), "-o",
+                   str(tmp_path / "o"), "--quiet", "--on-alert", str(tmp_path / "missing"),
+                   cwd=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    assert "alert program missing could not be started" in proc.stderr
+    assert "Traceback" not in proc.stderr
+    assert (tmp_path / "o" / "north.results.json").exists()
