@@ -345,3 +345,29 @@ def test_a_failing_alert_program_is_reported_and_the_run_goes_on(tmp_path: Path)
     assert "alert program missing could not be started" in proc.stderr
     assert "Traceback" not in proc.stderr
     assert (tmp_path / "o" / "north.results.json").exists()
+
+
+def test_run_with_a_shared_weather_file(tmp_path: Path) -> None:
+    from datetime import datetime
+
+    from tests.validation.test_shared_weather import station_workbook
+
+    # Station (UTC+01:00) windy at 10:00 and 11:00 (+01:00) = 09:00Z-11:00Z; North
+    # (Europe/Berlin, from 07:00 CEST = 05:00Z) -> readings 5, 6 = rows 6, 7 (hand-evaluated).
+    wind = [2.0] * 24
+    wind[4] = wind[5] = 8.0
+    station = station_workbook(tmp_path / "station.xlsx", datetime(2026, 6, 1, 6, 0), wind)
+    drop = tmp_path / "drop"
+    drop.mkdir()
+    survey_workbook(drop / "north.xlsx", position="North", time_zone="Europe/Berlin")
+    out = tmp_path / "o"
+    proc = run_cli("run", str(drop), "-o", str(out), "--quiet", "--weather", str(station),
+                   cwd=tmp_path)
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    doc = json.loads((out / "north.results.json").read_text())
+    assert [(s["first_row"], s["last_row"]) for s in doc["exclusion_spans"]
+            if s["reason"] == "wind"] == [(6, 7)]
+    assert any(f["code"] == "weather-source" for f in doc["findings"])
+    missing = run_cli("run", str(drop), "-o", str(out), "--weather", str(tmp_path / "no.csv"),
+                      cwd=tmp_path)
+    assert missing.returncode == 2 and "--weather" in missing.stderr
