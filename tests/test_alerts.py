@@ -14,6 +14,7 @@ from surveytools.alerts import (
     run_on_alert,
     split_program,
 )
+from surveytools.schema_files import validator
 
 
 def results_doc(episodes: list[dict[str, Any]], position: str = "North fence") -> dict[str, Any]:
@@ -41,6 +42,7 @@ def test_each_episode_is_alerted_once_across_runs(tmp_path: Path) -> None:
     again = record_alerts(tmp_path, episodes_of(doc))
     assert [a.start for a in first] == [MON_8] and again == []
     (line,) = ledger(tmp_path)
+    assert list(validator("alert.schema.json").iter_errors(line)) == []
     assert line == {"position": "North fence", "criterion": "Working hours",
                     "severity": "warning", "start": MON_8, "end": MON_9, "max_db": 71.0,
                     "limit_db": 75.0, "warning_db": 70.0, "input": "north.xlsx"}

@@ -14,7 +14,8 @@ from surveytools.outputs.results_json import validate_overview, validate_results
 from surveytools.settings import Settings
 
 SCHEMAS = sorted((Path(__file__).resolve().parents[1] / "schemas").glob("*.json"))
-MINE = ("settings.schema.json", "results.schema.json", "overview.schema.json")
+MINE = ("settings.schema.json", "results.schema.json", "overview.schema.json",
+        "alert.schema.json")
 
 
 def load(name: str) -> dict[str, Any]:
