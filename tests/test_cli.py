@@ -313,7 +313,7 @@ def test_alerts_are_appended_once_across_runs_and_watch_polls(tmp_path: Path) ->
     assert [json.loads(c) for c in calls] == lines  # the program saw each line once
 
     proc = subprocess.Popen([sys.executable, "-m", "surveytools", "run", str(drop), *common,
-                             "--watch", "--interval", "0.3", "--max-cycles", "12"],
+                             "--watch", "--interval", "0.3", "--max-cycles", "25"],
                             cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
                             text=True)
     try:
@@ -324,9 +324,21 @@ def test_alerts_are_appended_once_across_runs_and_watch_polls(tmp_path: Path) ->
         while not (out / "south.results.json").exists():
             assert time.monotonic() < deadline, "new file never processed"
             time.sleep(0.2)
+        # North's log grows: 60 dB until 21:00, so its episode (same start) runs 14 h now;
+        # reprocessed on the next poll, but not alerted again.
+        before = (out / "north.results.json").stat().st_mtime_ns
+        survey_workbook(tmp_path / "north2.xlsx", position="North fence",
+                        levels=[60.0] * 14 + [55.0] * 2 + [50.0] * 8).rename(
+            drop / "north.xlsx")
+        while (out / "north.results.json").stat().st_mtime_ns == before:
+            assert time.monotonic() < deadline, "changed file never reprocessed"
+            time.sleep(0.2)
     finally:
         stdout, stderr = proc.communicate(timeout=300)
     assert proc.returncode == 0, stderr
+    grown = json.loads((out / "north.results.json").read_text())
+    assert [(e["start"], e["end"]) for e in grown["criteria"][0]["episodes"]] == [
+        ("2026-06-01T07:00:00+00:00", "2026-06-01T21:00:00+00:00")]
     assert stdout.count("ALERT") == 1 and "ALERT limit: South gate - Daytime" in stdout
     positions = [json.loads(x)["position"]
                  for x in (out / "alerts.jsonl").read_text().splitlines()]
