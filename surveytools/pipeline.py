@@ -157,6 +157,8 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     doc = document_header(source, settings, survey.findings, survey.finding_counts)
     doc["provenance"] = library_versions()
     doc.update(sections)
+    if weather is not None:
+        doc["weather_file"] = weather.record()
     annotations = None
     output = settings.output
     if output.include_readings or len(survey.readings) <= output.readings_row_limit:

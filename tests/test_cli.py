@@ -380,6 +380,14 @@ def test_run_with_a_shared_weather_file(tmp_path: Path) -> None:
     assert [(s["first_row"], s["last_row"]) for s in doc["exclusion_spans"]
             if s["reason"] == "wind"] == [(6, 7)]
     assert any(f["code"] == "weather-source" for f in doc["findings"])
+    assert doc["weather_file"]["file"] == "station.xlsx"
+    # verify recomputes with the recorded weather file, and notices when it changed
+    same = run_cli("verify", str(out / "north.results.json"), cwd=tmp_path)
+    assert same.returncode == 0, same.stdout + same.stderr
+    wind[5] = 2.0
+    station_workbook(station, datetime(2026, 6, 1, 6, 0), wind)
+    changed = run_cli("verify", str(out / "north.results.json"), cwd=tmp_path)
+    assert changed.returncode == 1 and "weather_file.sha256" in changed.stdout
     missing = run_cli("run", str(drop), "-o", str(out), "--weather", str(tmp_path / "no.csv"),
                       cwd=tmp_path)
     assert missing.returncode == 2 and "--weather" in missing.stderr

@@ -19,6 +19,7 @@ from pathlib import Path
 from surveytools.errors import WorkbookError
 from surveytools.inputs.kinds import CSV_SUFFIXES
 from surveytools.inputs.raw import KeyValueSheet, RawTable
+from surveytools.provenance import SourceInfo
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
 
@@ -38,12 +39,21 @@ class WeatherFile:
     findings : list of Finding
         What the reader found in the weather file's Weather and Survey sheets, worded to
         be reported on each input (:func:`relocated`).
+    source : SourceInfo or None
+        The file's identity (path, SHA-256), recorded in each input's results.
     """
 
     name: str
     weather: RawTable | None
     survey: KeyValueSheet | None = None
     findings: list[Finding] = field(default_factory=list)
+    source: SourceInfo | None = None
+
+    def record(self) -> dict[str, object]:
+        """Return the results document's ``weather_file`` entry (``file``, ``path``, ``sha256``)."""
+        return {"file": self.name,
+                "path": self.source.path if self.source is not None else None,
+                "sha256": (self.source.sha256 or None) if self.source is not None else None}
 
 
 def relocated(name: str, f: Finding) -> Finding:
@@ -58,8 +68,10 @@ def relocated(name: str, f: Finding) -> Finding:
     return Finding(f.code, f.severity, f"shared weather file {name}{where}: {f.message}")
 
 
-def _unusable(name: str, why: str) -> WeatherFile:
-    return WeatherFile(name, None, None, [Finding(
+def _unusable(path: Path, why: str) -> WeatherFile:
+    name = path.name
+    return WeatherFile(name, None, None, source=SourceInfo(str(path.resolve()), name, "", 0),
+                       findings=[Finding(
         "weather-file-unreadable", Severity.ERROR,
         f"the shared weather file {name} cannot be used: {why} — no shared weather was "
         "applied; give a workbook with a Weather sheet or a CSV with Start, wind speed and "
@@ -79,12 +91,12 @@ def read_weather_file(path: Path, settings: Settings) -> WeatherFile:
 
             raw = read_workbook(path, settings)
     except WorkbookError as exc:
-        return _unusable(name, exc.message)
+        return _unusable(path, exc.message)
     except OSError as exc:
-        return _unusable(name, exc.strerror or type(exc).__name__)
+        return _unusable(path, exc.strerror or type(exc).__name__)
     if raw.weather is None:
-        return _unusable(name, "it has no weather table (a sheet named 'Weather' with a "
+        return _unusable(path, "it has no weather table (a sheet named 'Weather' with a "
                                "Start column)")
     sheets = {raw.weather.sheet} | ({raw.survey.sheet} if raw.survey is not None else set())
     own = [relocated(name, f) for f in raw.findings if f.sheet in sheets]
-    return WeatherFile(name, raw.weather, raw.survey, own)
+    return WeatherFile(name, raw.weather, raw.survey, own, raw.source)
