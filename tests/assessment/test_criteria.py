@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+import numpy as np
 import pytest
 from conftest import build_survey, local_ms
+from hypothesis import given
+from hypothesis import strategies as st
 
 from surveytools.assessment import assess
 from surveytools.errors import SettingsError
@@ -160,3 +163,36 @@ def test_schedule_on_an_assessment_indicator_is_a_settings_error() -> None:
     crit = Criterion("rating_level", 45.0, schedule=WORKING_HOURS, name="rating")
     with pytest.raises(SettingsError, match=r"'rating'.*remove 'schedule'"):
         assess(two_days(), Settings(criteria=(crit,)))
+
+
+@given(st.lists(st.one_of(st.none(), st.floats(60.0, 80.0)), max_size=40),
+       st.lists(st.booleans(), min_size=40, max_size=40))
+def test_episodes_partition_the_figures_above_the_warning_level(
+        values: list[float | None], breaks: list[bool]) -> None:
+    # Invariants of the definition (issue contract): every figure whose reported level is
+    # above the warning level lies in exactly one episode; an episode's max is the highest
+    # reported level in it; severity is "limit" exactly when that max is above the limit.
+    from surveytools.assessment.criteria import find_episodes
+    from surveytools.indicators.reporting import reported_level
+
+    n = len(values)
+    starts = np.cumsum([0] + [HOUR_MS * (2 if b else 1) for b in breaks[: max(n - 1, 0)]])
+    starts = np.asarray(starts[:n], dtype=np.int64)
+    ends = starts + HOUR_MS
+    texts = [str(s) for s in starts.tolist()]
+    episodes = find_episodes(starts, ends, texts, [str(e) for e in ends.tolist()], values,
+                             75.0, 70.0)
+    above = [v is not None and float(reported_level(v)) > 70.0 for v in values]
+    assert sum(e["intervals"] for e in episodes) == sum(above)
+    # maximal runs: a run starts at a figure above whose predecessor is not above or not
+    # adjacent (a break of one hour between them)
+    runs = sum(1 for i in range(n)
+               if above[i] and not (i > 0 and above[i - 1] and not breaks[i - 1]))
+    assert len(episodes) == runs
+    for e in episodes:
+        first = texts.index(e["start"])
+        members = values[first: first + e["intervals"]]
+        assert all(a for a in above[first: first + e["intervals"]])
+        top = max(float(reported_level(v)) for v in members if v is not None)
+        assert e["max_db"] == top
+        assert e["severity"] == ("limit" if top > 75.0 else "warning")
