@@ -256,6 +256,21 @@ def _criteria(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
     return row
 
 
+def _episodes_line(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
+    """One line on the episodes of the criteria (the Episodes sheet lists them)."""
+    criteria = list(doc.get("criteria") or [])
+    if not any(c.get("episodes") is not None for c in criteria):
+        return row
+    episodes = [e for c in criteria for e in c.get("episodes") or []]
+    n_limit = sum(1 for e in episodes if e.get("severity") == "limit")
+    text = (f"{len(episodes)} episode(s) above a warning level or limit, {n_limit} above a "
+            "limit: see the Episodes sheet" if episodes else
+            "no episode above a warning level or limit")
+    sw.text(row, 0, "Episodes", "bold", measure=False)
+    _para(sw, row, text, "wrap")
+    return row + 1
+
+
 def _assessments(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
     assessments = list(doc.get("assessments") or [])
     if not assessments:
@@ -362,6 +377,7 @@ def add(book: Book) -> None:
     row = _figures(sw, doc, row + 1)
     ws.set_row(row, GAP_PT)
     row = _criteria(sw, doc, row + 1)
+    row = _episodes_line(sw, doc, row)
     ws.set_row(row, GAP_PT)
     if doc.get("assessments"):
         row = _assessments(sw, doc, row + 1)

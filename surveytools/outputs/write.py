@@ -3,7 +3,8 @@
 One module per sheet (``sheet_*.py``), each with ``add(book)``; :data:`SHEETS` is their
 order: a one-page Summary a manager reads in a minute (verdict first), the Charts (one per
 printed page, limits drawn as lines), then Days, Intervals, the longer-interval figures a
-criterion was judged on (e.g. Hourly), Background, Assessments, Exclusions, Readings (only
+criterion was judged on (e.g. Hourly), Background, Assessments, Exclusions, Episodes (when
+criteria are set), Readings (only
 when annotated readings are handed over), Findings and Provenance. A new sheet (spectra,
 episodes ...) is a new module in this package and one entry in :data:`SHEETS`.
 
@@ -45,6 +46,7 @@ from surveytools.outputs import (
 )
 from surveytools.outputs.book import SHEET_CHARTS, Book
 from surveytools.outputs.display import how_derived
+from surveytools.outputs.episodes import SHEET_EPISODES, write_episodes_sheet
 from surveytools.outputs.sheet_provenance import flatten_settings, library_versions
 from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
@@ -53,7 +55,19 @@ from surveytools.outputs.xlsx_style import (
     SheetWriter,
     Styles,
     parse_local_timestamp,
+    print_setup,
 )
+
+
+def add_episodes(book: Book) -> None:
+    """Add the Episodes sheet (:mod:`surveytools.outputs.episodes`) when criteria are set."""
+    if not book.doc.get("criteria"):
+        return
+    sw = book.sheet(SHEET_EPISODES)
+    write_episodes_sheet(sw, book.doc)
+    last_col = 8  # the sheet's nine columns
+    sw.wrap_notes(last_col)
+    print_setup(sw.ws, sw.printed_width(last_col), (1, 1))
 
 #: The sheets of a results workbook, in order. The Charts sheet is created right after the
 #: Summary; the sheets after it place their charts there.
@@ -65,6 +79,7 @@ SHEETS: tuple[Callable[[Book], None], ...] = (
     sheet_background.add,
     sheet_assessments.add,
     sheet_exclusions.add,
+    add_episodes,
     sheet_readings.add,
     sheet_findings.add,
     sheet_provenance.add,
