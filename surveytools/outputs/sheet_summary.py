@@ -257,17 +257,18 @@ def _criteria(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
 
 
 def _episodes_line(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
-    """One line on the episodes of the criteria (the Episodes sheet lists them)."""
+    """Write the count of episodes of the criteria (the Episodes sheet lists each one)."""
     criteria = list(doc.get("criteria") or [])
     if not any(c.get("episodes") is not None for c in criteria):
         return row
     episodes = [e for c in criteria for e in c.get("episodes") or []]
     n_limit = sum(1 for e in episodes if e.get("severity") == "limit")
-    text = (f"{len(episodes)} episode(s) above a warning level or limit, {n_limit} above a "
-            "limit: see the Episodes sheet" if episodes else
-            "no episode above a warning level or limit")
+    sw.text(row, 0, "Episodes (above a warning level or limit)", "subtitle", measure=False)
+    row += 1
     sw.text(row, 0, "Episodes", "bold", measure=False)
-    _para(sw, row, text, "wrap")
+    text = f"{len(episodes)} episodes, {n_limit} above a limit" if episodes else "none"
+    _para(sw, row, text, "fail" if n_limit else "wrap", first=1, last=3)
+    sw.text(row, 4, "each one on the Episodes sheet", "note", measure=False)
     return row + 1
 
 
