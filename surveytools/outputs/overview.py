@@ -90,11 +90,11 @@ def write_overview_workbook(path: Path, overview: dict[str, Any]) -> None:
 #: Overview columns: (header, width in characters). Every level is the reported value.
 OVERVIEW_COLUMNS: tuple[tuple[str, float], ...] = (
     ("Input file", 17.0), ("Position", 8.0), ("Site", 12.0), ("Criteria outcome", 15.0),
-    ("Data quality", 11.0), ("Conditions affecting the figures", 26.0), ("Valid [%]", 6.5),
+    ("Data quality", 11.0), ("Conditions affecting the figures", 24.0), ("Valid [%]", 6.5),
     ("Lden [dB]", 6.5), ("Lday [dB]", 6.5), ("Levening [dB]", 8.0), ("Lnight [dB]", 6.5),
-    ("Background LA90 day [dB]", 10.0), ("Background LA90 night [dB]", 10.0),
-    ("Worst excess over background [dB]", 9.5), ("Figures above limits (count)", 8.0),
-    ("Errors", 6.5), ("Warnings", 8.0), ("Results workbook", 19.0),
+    ("Background LA90 day [dB]", 11.0), ("Background LA90 night [dB]", 11.0),
+    ("Worst excess over background [dB]", 11.0), ("Figures above limits (count)", 8.0),
+    ("Errors", 6.5), ("Warnings", 8.0), ("Results workbook", 18.0),
 )
 
 
