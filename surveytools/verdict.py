@@ -165,13 +165,16 @@ def verdict_section(doc: Mapping[str, Any]) -> dict[str, Any]:
     quality = status if status in _RANK else "errors"
     if warnings and _RANK[quality] < _RANK["warnings"]:
         quality = "warnings"
+    outcome_text = outcome_words(not_met, checked, total)
+    if status == "unreadable":
+        outcome, outcome_text = "not checked", "not judged: the file could not be read"
     return {
         "criteria_total": total,
         "criteria_checked": checked,
         "criteria_not_met": not_met,
         "figures_not_meeting": figures,
         "outcome": outcome,
-        "outcome_text": outcome_words(not_met, checked, total),
+        "outcome_text": outcome_text,
         "data_quality": quality,
         "data_quality_text": data_quality_words(quality),
         "warnings_affecting_figures": warnings,

@@ -65,3 +65,10 @@ def test_excluded_share_above_the_notice_threshold() -> None:
     v = verdict_section(doc([], valid_s=530.0, excluded={"wind": 70.0}))
     assert v["warnings_affecting_figures"][0]["code"] == "excluded-share-high"
     assert "11.7 %" in v["warnings_affecting_figures"][0]["message"]
+
+
+def test_unreadable_file_is_not_judged() -> None:
+    v = verdict_section(doc([], status="unreadable"))
+    assert v["outcome"] == "not checked"
+    assert v["outcome_text"] == "not judged: the file could not be read"
+    assert v["data_quality"] == "unreadable"

@@ -106,10 +106,13 @@ def add(book: Book) -> None:
         print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 1)
         return
     first_level_col = 4
+    reporting = finite_number(d.get(doc, "settings", "reporting_interval_s"))
+    # minutes suffice for the usual intervals; a sub-minute interval keeps its seconds
+    stamp_style = "datetime" if reporting is not None and reporting < 60 else "datetime_short"
     for i, iv in enumerate(intervals):
         r = header_row + 1 + i
-        off = sw.stamp(r, 0, iv.get("start"), "datetime_short")
-        sw.stamp(r, 1, iv.get("end"), "datetime_short")
+        off = sw.stamp(r, 0, iv.get("start"), stamp_style)
+        sw.stamp(r, 1, iv.get("end"), stamp_style)
         sw.text(r, 2, off)
         period = iv.get("period")
         sw.text(r, 3, period)
