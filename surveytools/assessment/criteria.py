@@ -1,8 +1,11 @@
 """Criteria: limits on indicators, checked per assessment day, interval or assessment.
 
-A figure fails when its reported value — rounded half up to
-:data:`~surveytools.constants.REPORTED_LEVEL_DECIMALS` decimals, as the workbooks show it —
-is above the limit (so 45.04 dB passes a 45 dB limit and 45.05 dB fails it). Every figure
+A figure fails when its reported value — rounded once, half up, to
+:data:`~surveytools.constants.REPORTED_LEVEL_DECIMALS` decimals from its unrounded value by
+:func:`~surveytools.indicators.reporting.reported_level`, as every output shows it — is
+above the limit (so 45.049 dB passes a 45 dB limit and 45.05 dB fails it). The JSON levels
+the figures come from re-round to the same reported figure (``_common.db_list``); each
+failure and the criterion's ``highest`` figure carry the ``reported`` value judged. Every figure
 with a value is checked, also figures whose coverage is below the threshold: their
 failures carry ``"sufficient": false`` so a reader can discount them. ``passed`` is
 ``failed == 0``, or null when nothing could be checked.
@@ -15,12 +18,12 @@ e.g. LAeq,1h from 15-minute intervals.
 from __future__ import annotations
 
 from datetime import datetime
-from decimal import ROUND_HALF_UP, Decimal
 from typing import Any
 
-from surveytools.constants import REPORTED_LEVEL_DECIMALS
+from surveytools.assessment._common import db
 from surveytools.errors import SettingsError
 from surveytools.indicators.levels import energy_average
+from surveytools.indicators.reporting import reported_level
 from surveytools.settings import Criterion
 
 #: Indicators checked per assessment day.
@@ -35,20 +38,18 @@ def _interval_indicators(percentiles: tuple[float, ...]) -> tuple[str, ...]:
     return ("LAeq", "LAFmax", *(f"LA{p:g}" for p in percentiles))
 
 
-_QUANTUM = Decimal(1).scaleb(-REPORTED_LEVEL_DECIMALS)
-
-
-def reported_value(value: float) -> float:
-    """Return ``value`` as reported, rounded half up to the reported decimals [dB]."""
-    return float(Decimal(repr(float(value))).quantize(_QUANTUM, rounding=ROUND_HALF_UP))
+def _figure(when: str, value: float, sufficient: bool) -> dict[str, Any]:
+    """One judged figure: its JSON level and the reported value it was judged on."""
+    return {"when": when, "value": db(value), "reported": float(reported_level(value)),
+            "sufficient": sufficient}
 
 
 def _check(criterion: Criterion, applies_to: str,
            candidates: list[tuple[str, float | None, bool]]) -> dict[str, Any]:
-    checked = [(when, value, ok) for when, value, ok in candidates if value is not None]
-    failures = [{"when": when, "value": value, "reported": reported_value(value),
-                 "sufficient": ok}
-                for when, value, ok in checked if reported_value(value) > criterion.limit_db]
+    checked = [_figure(when, value, ok) for when, value, ok in candidates if value is not None]
+    failures = [f for f in checked if f["reported"] > criterion.limit_db]
+    # the highest reported figure (the first of equals): what the outcome hinges on
+    highest = max(checked, key=lambda f: f["reported"], default=None)
     result = {
         "name": criterion.name or f"{criterion.indicator} <= {criterion.limit_db:g} dB",
         "indicator": criterion.indicator,
@@ -59,6 +60,7 @@ def _check(criterion: Criterion, applies_to: str,
         "failed": len(failures),
         "passed": (len(failures) == 0) if checked else None,
         "failures": failures,
+        "highest": highest,
     }
     if criterion.interval_s is not None:
         result["interval_s"] = float(criterion.interval_s)
@@ -101,7 +103,7 @@ def _longer_intervals(intervals: list[dict[str, Any]], indicator: str, interval_
             if indicator == "LAeq":
                 level = float(energy_average([m["LAeq"] for m in valid],
                                              [m["valid_s"] for m in valid]))
-                value = round(level, 2)
+                value = level  # unrounded: judged once by reported_level
             else:
                 value = max(float(m["LAFmax"]) for m in valid)
         valid_s = sum(float(m["valid_s"]) for m in members)
