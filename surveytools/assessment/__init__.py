@@ -2,8 +2,9 @@
 
 Input: a :class:`~surveytools.survey.Survey` and :class:`~surveytools.settings.Settings`.
 
-Time runs on UTC epoch milliseconds; the position's clock (Survey metadata ``clock`` /
-``time_zone``) turns local wall-clock period boundaries into instants per calendar day
+Time runs on UTC epoch milliseconds (validation converted the readings with the meter's
+``clock``); the site's civil time (Survey ``time_zone``, with its summer time, whatever
+the meter's clock) turns wall-clock period boundaries into instants per calendar day
 (:mod:`surveytools.assessment.timegrid`). Every figure averages valid time only
 (``Survey.valid_mask``); readings straddling a boundary are split in proportion.
 Sections: :mod:`~.intervals` (overall, intervals), :mod:`~.daily` (days, survey
@@ -33,11 +34,16 @@ from surveytools.assessment.spans import (
     survey_section,
     unplaced_section,
 )
-from surveytools.assessment.timegrid import day_offset_boundaries, format_local, position_tz
+from surveytools.assessment.timegrid import (
+    day_offset_boundaries,
+    format_local,
+    position_tz,
+    site_tz,
+)
 from surveytools.settings import Settings
 from surveytools.survey import Survey
 
-__all__ = ["assess", "format_local", "position_tz", "reading_annotations"]
+__all__ = ["assess", "format_local", "position_tz", "reading_annotations", "site_tz"]
 
 
 def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
