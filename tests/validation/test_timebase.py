@@ -69,7 +69,7 @@ def test_explicit_offset_overrides_clock():
     # 22:00+02:00 is 20:00 UTC whatever the Survey clock says
     t = readings(["2026-07-03 21:00:00", None], [50.0, 51.0])
     t.columns[0].text_cells = {1: "2026-07-03T22:00:00+02:00"}
-    s = build(t, survey_with(clock="UTC+05:00"))
+    s = build(t, survey_with(clock="UTC+05:00", time_zone="Europe/Berlin"))
     assert s.readings["start_ms"].tolist() == [utc_ms(2026, 7, 3, 16), utc_ms(2026, 7, 3, 20)]
     # offset_s is the site's civil time (Europe/Berlin, CEST in July; design.md §9)
     assert s.readings["offset_s"].tolist() == [7200, 7200]
