@@ -186,3 +186,63 @@ def test_the_three_clocks_give_the_same_figures(results: dict[str, Any]) -> None
         docs = [results[f"{season}_{clock}"] for clock in CLOCKS]
         assert docs[0]["days"] == docs[1]["days"] == docs[2]["days"]
         assert docs[0]["intervals"] == docs[1]["intervals"] == docs[2]["intervals"]
+
+
+def test_a_time_zone_nobody_gave_is_a_warning_not_a_deletion(tmp_path: Path) -> None:
+    # A local-clock night over the autumn change in London with no Time zone anywhere:
+    # the meter wrote 01:00 twice (IANA tz database: 2026-10-25 02:00 BST -> 01:00 GMT).
+    folder = tmp_path / "in"
+    folder.mkdir()
+    instants = hourly_instants(LONDON, datetime(2026, 10, 24, 7), datetime(2026, 10, 25, 7))
+    site_workbook(folder / "nozone.xlsx", position="NZ", clock="local", time_zone=None,
+                  instants=instants, site=LONDON)
+    proc = run(folder, tmp_path / "out")
+    assert "Traceback" not in proc.stdout + proc.stderr
+    # run prints the warning with its stable code
+    assert "[time-zone-assumed]" in proc.stdout
+    doc = json.loads((tmp_path / "out" / "nozone.results.json").read_text())
+    assert doc["survey"]["time_zone"] == "UTC"
+    assert doc["survey"]["time_zone_assumed"] is True
+    (assumed,) = [f for f in doc["findings"] if f["code"] == "time-zone-assumed"]
+    assert assumed["severity"] == "warning" and assumed["sheet"] == "Survey"
+    # the repeated hour's duplicate asks for the Time zone, never for a deleted row
+    (duplicate,) = [f for f in doc["findings"] if f["code"] == "timestamp-duplicate"]
+    assert "enter the site's Time zone" in duplicate["message"]
+    assert "delete one of the two rows" not in duplicate["message"]
+    # with the zone given, the same readings have no duplicate and no warning
+    site_workbook(folder / "nozone.xlsx", position="NZ", clock="local", time_zone=LONDON,
+                  instants=instants, site=LONDON)
+    proc = run(folder, tmp_path / "out2", "--quiet")
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    doc = json.loads((tmp_path / "out2" / "nozone.results.json").read_text())
+    assert doc["survey"]["time_zone_assumed"] is False
+    assert {f["code"] for f in doc["findings"]}.isdisjoint(
+        {"time-zone-assumed", "timestamp-duplicate"})
+
+
+def test_settings_clock_fixed_offset_is_accepted(tmp_path: Path) -> None:
+    # README [survey]: clock = "UTC+01:00"; a CSV-like case: the Survey sheet gives no
+    # Clock, the settings do. Site Europe/Berlin in June (CEST, UTC+02:00): the meter's
+    # 06:00 is 07:00 site time (IANA tz database), so the day starts on the first reading.
+    folder = tmp_path / "in"
+    folder.mkdir()
+    berlin = "Europe/Berlin"
+    instants = hourly_instants(berlin, datetime(2026, 6, 10, 7), datetime(2026, 6, 11, 7))
+    path = site_workbook(folder / "fixed.xlsx", position="B1", clock="UTC+01:00",
+                         time_zone=berlin, instants=instants, site=berlin)
+    wb = openpyxl.load_workbook(path)
+    ws = wb["Survey"]
+    for row in ws.iter_rows():
+        if row[0].value == "Clock":
+            ws.delete_rows(row[0].row)
+            break
+    wb.save(path)
+    settings = tmp_path / "settings.toml"
+    settings.write_text('[survey]\nclock = "UTC+01:00"\n', encoding="utf-8")
+    proc = run(folder, tmp_path / "out", "--quiet", "--settings", str(settings))
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    doc = json.loads((tmp_path / "out" / "fixed.results.json").read_text())
+    assert doc["survey"]["clock"] == "UTC+01:00"
+    (day,) = doc["days"]
+    assert_periods(day)
+    assert doc["intervals"][0]["start"] == "2026-06-10T07:00:00+02:00"

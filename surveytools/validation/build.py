@@ -118,7 +118,7 @@ def _assume_time_zone(metadata: dict[str, Any], settings: Settings,
 def _clock(metadata: Mapping[str, Any], settings: Settings,
            collector: FindingCollector) -> tb.Clock:
     clock = str(metadata.get("clock", settings.survey.clock))
-    zone = str(metadata.get("time_zone", settings.survey.time_zone))
+    zone = str(metadata.get("time_zone") or "UTC")
     try:
         return tb.parse_clock(clock, zone)
     except ValueError as exc:
