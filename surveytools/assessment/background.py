@@ -91,13 +91,13 @@ class ReferenceLA90:
     basis: str
 
     def values_of(self, period: str) -> FloatArray:
-        """LA90 of the sufficient reference intervals of a period [dB]."""
+        """Return the LA90 of the sufficient reference intervals of a period [dB]."""
         k = BACKGROUND_PERIODS.index(period)
         return self.la90_db[(self.period_index == k) & self.sufficient
                             & np.isfinite(self.la90_db)]
 
     def representative(self, period: str, method: str) -> float:
-        """The period's LA90: its sufficient intervals combined by ``method``; NaN if none [dB]."""
+        """Return the period's LA90: sufficient intervals combined by ``method`` [dB]."""
         return combine_logged_levels(self.values_of(period), method)
 
 
