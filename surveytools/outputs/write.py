@@ -816,8 +816,8 @@ def _write_assessments(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
                "LAeq residual [dB]", "Level difference [dB]", "Specific level [dB]",
                "Specific level basis", "Tonal correction [dB]", "Impulsive correction [dB]",
                "Intermittency correction [dB]", "Other correction [dB]", "Rating level [dB]",
-               "Background period", "Background LA90 [dB]", "Excess over background [dB]",
-               "Impact indication", "Note"]
+               "Background period", "Background LA90 [dB]", "Background basis",
+               "Excess over background [dB]", "Impact indication", "Note"]
     sw.header(1, 0, headers)
     ws.freeze_panes(2, 1)
     if not items:
@@ -844,9 +844,11 @@ def _write_assessments(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
         sw.number(r, 16, a.get("rating_level"), "level")
         sw.text(r, 17, a.get("background_period"))
         sw.number(r, 18, a.get("background_LA90"), "whole_db" if whole else "level")
-        sw.number(r, 19, a.get("excess_over_background"), "level")
-        sw.text(r, 20, a.get("impact_indication"))
-        sw.text(r, 21, a.get("note"))
+        # where the background came from: source-free period, residual time, not available
+        sw.text(r, 19, a.get("background_basis"))
+        sw.number(r, 20, a.get("excess_over_background"), "level")
+        sw.text(r, 21, a.get("impact_indication"))
+        sw.text(r, 22, a.get("note"))
     ws.autofilter(1, 0, 1 + len(items), len(headers) - 1)
     sw.fit_columns(minimum=9.0)
 

@@ -196,6 +196,7 @@ def build_results_doc(
              "corrections_db": {"tonal": 2.0, "impulsive": 0.0, "intermittency": 0.0,
                                 "other": 0.0},
              "rating_level": 59.2, "background_period": "day", "background_LA90": 46.0,
+             "background_basis": "source-free period",
              "excess_over_background": 13.2,
              "impact_indication": "indication of significant adverse impact (BS 4142)",
              "note": "residual measured while the plant was off"},
@@ -205,7 +206,8 @@ def build_results_doc(
              "LAeq_total": None, "LAeq_residual": None, "level_difference": None,
              "specific_level": None, "specific_basis": "not available",
              "corrections_db": {}, "rating_level": None, "background_period": "night",
-             "background_LA90": 38.0, "excess_over_background": None,
+             "background_LA90": 38.0, "background_basis": "source-free period",
+             "excess_over_background": None,
              "impact_indication": None, "note": "no operating rows marked"},
         ],
         "criteria": [
