@@ -84,9 +84,14 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
     days = days_section(ctx, schemes)
     background = background_section(ctx)
     assessments = assessments_section(ctx, background)
+    # unrounded interval LAeq for criteria over longer intervals (LAeq,1h): judged once
+    # from unrounded values (design.md §9), not from the JSON levels
+    summed = (ctx.grouped_laeq(interval_bounds(ctx))
+              if ctx.n and any(c.interval_s is not None for c in settings.criteria) else None)
     criteria = criteria_section(
         settings.criteria, survey.metadata.get("position"), days, intervals, assessments,
         settings.percentiles, settings.reporting_interval_s, settings.coverage_threshold,
+        interval_laeq=None if summed is None else summed[0].tolist(),
     )
     return {
         "survey": survey_section(survey),

@@ -68,9 +68,14 @@ def _check(criterion: Criterion, applies_to: str,
 
 
 def _longer_intervals(intervals: list[dict[str, Any]], indicator: str, interval_s: float,
-                      reporting_s: float, threshold: float, name: str
+                      reporting_s: float, threshold: float, name: str,
+                      interval_laeq: list[float] | None = None,
                       ) -> list[tuple[str, float | None, bool, str]]:
     """(start, value, sufficient, period) per longer interval, from the reporting intervals.
+
+    ``interval_laeq`` holds the unrounded LAeq of each reporting interval (aligned with
+    ``intervals``); the longer interval's LAeq is their energy average over the valid time,
+    so the figure is rounded once, when judged. Without it the JSON levels are used.
 
     Raises
     ------
@@ -89,8 +94,12 @@ def _longer_intervals(intervals: list[dict[str, Any]], indicator: str, interval_
             f"criterion {name!r}: only LAeq and LAFmax can be checked over a longer interval; "
             f"{indicator} uses the reporting interval (remove 'interval')"
         )
+    unrounded = (interval_laeq if interval_laeq is not None
+                 and len(interval_laeq) == len(intervals) else None)
     groups: dict[tuple[str, str, int], list[dict[str, Any]]] = {}
-    for iv in intervals:
+    for k, iv in enumerate(intervals):
+        if unrounded is not None and indicator == "LAeq":
+            iv = {**iv, "LAeq": unrounded[k] if iv.get("LAeq") is not None else None}
         local = datetime.fromisoformat(iv["start"])
         seconds = local.hour * 3600 + local.minute * 60 + local.second
         key = (local.date().isoformat(), str(local.utcoffset()), int(seconds // interval_s))
@@ -121,6 +130,7 @@ def criteria_section(
     percentiles: tuple[float, ...],
     reporting_interval_s: float = 900.0,
     coverage_threshold: float = 0.75,
+    interval_laeq: list[float] | None = None,
 ) -> list[dict[str, Any]]:
     """Check each criterion of this position (or of every position) against the results.
 
@@ -148,7 +158,7 @@ def criteria_section(
             if criterion.interval_s is not None and criterion.interval_s != reporting_interval_s:
                 longer = _longer_intervals(intervals, indicator, criterion.interval_s,
                                            reporting_interval_s, coverage_threshold,
-                                           criterion.name or indicator)
+                                           criterion.name or indicator, interval_laeq)
                 candidates = [(start, value, ok) for start, value, ok, period in longer
                               if criterion.period in ("any", period)]
             else:
