@@ -205,6 +205,9 @@ def test_a_time_zone_nobody_gave_is_a_warning_not_a_deletion(tmp_path: Path) -> 
     assert doc["survey"]["time_zone_assumed"] is True
     (assumed,) = [f for f in doc["findings"] if f["code"] == "time-zone-assumed"]
     assert assumed["severity"] == "warning" and assumed["sheet"] == "Survey"
+    # the Summary says the zone was assumed, at its top
+    summary = openpyxl.load_workbook(tmp_path / "out" / "nozone.results.xlsx")["Summary"]
+    assert "ASSUMED" in str(summary.cell(2, 1).value)
     # the repeated hour's duplicate asks for the Time zone, never for a deleted row
     (duplicate,) = [f for f in doc["findings"] if f["code"] == "timestamp-duplicate"]
     assert "enter the site's Time zone" in duplicate["message"]

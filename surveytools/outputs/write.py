@@ -115,7 +115,9 @@ def _is_mode(doc: Mapping[str, Any]) -> bool:
 
 def _offset_note(doc: Mapping[str, Any]) -> str:
     zone = _get(doc, "survey", "time_zone") or "not stated"
-    return (f"Times are the position's local clock (time zone {zone}); the UTC offset of "
+    if _get(doc, "survey", "time_zone_assumed"):
+        zone += ", ASSUMED: no time zone was given (warning time-zone-assumed)"
+    return (f"Times are the site's civil time (time zone {zone}); the UTC offset of "
             "each row is in its own column.")
 
 
