@@ -11,7 +11,7 @@ failures carry ``"sufficient": false`` so a reader can discount them. ``passed``
 ``failed == 0``, or null when nothing could be checked.
 
 A criterion with ``interval_s`` checks LAeq (energy average over the valid time) or LAFmax
-(highest) over longer intervals built from the reporting intervals on the local clock,
+(highest) over longer intervals built from the reporting intervals in the site's civil time,
 e.g. LAeq,1h from 15-minute intervals.
 """
 
