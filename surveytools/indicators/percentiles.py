@@ -113,12 +113,18 @@ def integer_weights(weights: ArrayLike) -> IntArray:
     Returns
     -------
     numpy.ndarray of int64
+        Whole weights with a total below 2**53.
     """
     w = as_float_array(weights).ravel()
     ok = np.isfinite(w) & (w > 0)
     w = np.where(ok, w, 0.0)
     if not np.array_equal(w, np.rint(w)):
         w = np.rint(w * MS_PER_S)
+    total = float(np.sum(w))
+    if total >= _EXACT_LIMIT:
+        # beyond 2**53 units (285 years of milliseconds) a sum is no longer exact; scale
+        # down to keep the int64 arithmetic bounded (only ratios matter)
+        w = np.rint(w * (_EXACT_LIMIT / 2 / total))
     return w.astype(np.int64)
 
 

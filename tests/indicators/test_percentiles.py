@@ -484,3 +484,15 @@ def test_a_level_order_function_is_called_only_when_sorting():
     assert exceedance_levels(off_grid, [50], ms, level_order=order_of(off_grid))[0] == \
         pytest.approx(47.001)
     assert calls == [1, 1]
+
+
+def test_integer_weights_whole_seconds_ms_and_huge_totals():
+    from surveytools.indicators.percentiles import integer_weights
+
+    # whole numbers are kept (only ratios matter); other durations are seconds -> ms
+    np.testing.assert_array_equal(integer_weights([60.0, 1.0, np.nan, -1.0]), [60, 1, 0, 0])
+    np.testing.assert_array_equal(integer_weights([0.1, 0.25, 1.0]), [100, 250, 1000])
+    # a total beyond exact sums is scaled down, never overflowing int64
+    huge = integer_weights([1e300, 1e300])
+    assert huge.dtype == np.int64 and huge[0] == huge[1] > 0
+    assert exceedance_level([40.0, 50.0], 50, [1e300, 1e300]) == 40.0  # hand: 50 % above 40
