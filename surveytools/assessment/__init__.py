@@ -26,6 +26,7 @@ from surveytools.assessment.daily import (
     survey_average_section,
 )
 from surveytools.assessment.intervals import interval_bounds, intervals_section, overall_section
+from surveytools.assessment.schedule import parse_holidays
 from surveytools.assessment.sources import assessments_section
 from surveytools.assessment.spans import (
     coverage_section,
@@ -91,6 +92,8 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
     criteria = criteria_section(
         settings.criteria, survey.metadata.get("position"), days, intervals, assessments,
         settings.percentiles, settings.reporting_interval_s, settings.coverage_threshold,
+        tz=ctx.tz, periods=settings.periods,
+        holidays=parse_holidays(settings.calendar.holidays),
         interval_laeq=None if summed is None else summed[0].tolist(),
     )
     return {

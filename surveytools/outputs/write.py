@@ -29,6 +29,11 @@ import numpy as np
 import pandas as pd
 import xlsxwriter
 
+from surveytools.outputs.episodes import (
+    SHEET_EPISODES,
+    write_episodes_sheet,
+    write_summary_episodes,
+)
 from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
     SHEET_MAX_ROWS,
@@ -435,6 +440,7 @@ def _write_summary(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
                             "Provenance sheet settings", "note", measure=False)
             row += 1
     row += 1
+    row = write_summary_episodes(sw, doc, row)
 
     row = _write_summary_days(sw, doc, row)
 
@@ -1134,6 +1140,8 @@ def write_results_workbook(path: Path, doc: dict[str, Any],
         _write_background(sheet(SHEET_BACKGROUND), wb, doc)
         _write_assessments(sheet(SHEET_ASSESSMENTS), doc)
         _write_exclusions(sheet(SHEET_EXCLUSIONS), doc)
+        if doc.get("criteria"):
+            write_episodes_sheet(sheet(SHEET_EPISODES), doc)
         if annotations is not None:
             _write_readings(sheet(SHEET_READINGS), doc, annotations)
         _write_findings(sheet(SHEET_FINDINGS), doc)

@@ -14,6 +14,7 @@ problems; :mod:`.load` reads a file or mapping; :mod:`.record` writes settings b
 
 from surveytools.settings.assessments import CORRECTION_KEYS, Assessment
 from surveytools.settings.background import BACKGROUND_METHODS, Background
+from surveytools.settings.calendar import Calendar
 from surveytools.settings.calibration import Calibration
 from surveytools.settings.criteria import CRITERION_INDICATORS, Criterion
 from surveytools.settings.events import Events
@@ -34,6 +35,7 @@ __all__ = [
     "SETTINGS_SCHEMA",
     "Assessment",
     "Background",
+    "Calendar",
     "Calibration",
     "Criterion",
     "Events",

@@ -23,10 +23,12 @@ from surveytools.inputs.columns import (
     match_columns,
 )
 from surveytools.inputs.raw import RawColumn, RawTable, RawWorkbook
+from surveytools.inputs.shared_weather import WeatherFile, relocated
 from surveytools.settings import Settings
 from surveytools.survey import Exclusion, Scope, Survey
 from surveytools.validation import checks as ck
 from surveytools.validation import timebase as tb
+from surveytools.validation import weather_merge as wm
 from surveytools.validation.findings import Finding, FindingCollector, Severity
 from surveytools.validation.schema import validate_survey
 
@@ -185,7 +187,8 @@ def _missing_column(collector: FindingCollector, table: RawTable, header: str, w
         f"'{header}' in row {table.header_row}{hint}", table.sheet, table.header_row))
 
 
-def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
+def build_survey(raw: RawWorkbook, settings: Settings,
+                 shared_weather: WeatherFile | None = None) -> Survey:
     """Validate one workbook and return its :class:`Survey`.
 
     Parameters
@@ -194,6 +197,9 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
         What the reader found.
     settings : Settings
         Run settings (exclusion rules, calibration limits, survey defaults, column map).
+    shared_weather : WeatherFile, optional
+        A weather file for every input (``--weather``): applied where the workbook's own
+        Weather sheet does not cover the time (:mod:`~.weather_merge`).
 
     Returns
     -------
@@ -424,15 +430,18 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
     weather = None
     if raw.weather is not None:
         weather = _weather(raw.weather, settings, clock, collector, s_sorted, e_sorted)
-        if weather is not None and len(weather):
-            wind, rain, settle = ck.weather_masks(
-                s_sorted, e_sorted, weather["start_ms"].to_numpy(),
-                (weather["start_ms"] + weather["duration_ms"]).to_numpy(),
-                weather["wind_m_s"].to_numpy(), weather["rain_mm"].to_numpy(),
-                rules.wind_max_m_s, rules.rain_max_mm, rules.rain_settle_s)
-            add("wind", f"wind above {rules.wind_max_m_s:g} m/s", wind)
-            add("rain", f"rain above {rules.rain_max_mm:g} mm", rain)
-            add("rain-settle", f"within {rules.rain_settle_s:g} s after rain", settle)
+    if shared_weather is not None:
+        weather = _with_shared_weather(weather, raw.weather, shared_weather, settings,
+                                       collector, s_sorted, e_sorted, clock)
+    if weather is not None and len(weather):
+        wind, rain, settle = ck.weather_masks(
+            s_sorted, e_sorted, weather["start_ms"].to_numpy(),
+            (weather["start_ms"] + weather["duration_ms"]).to_numpy(),
+            weather["wind_m_s"].to_numpy(), weather["rain_mm"].to_numpy(),
+            rules.wind_max_m_s, rules.rain_max_mm, rules.rain_settle_s)
+        add("wind", f"wind above {rules.wind_max_m_s:g} m/s", wind)
+        add("rain", f"rain above {rules.rain_max_mm:g} mm", rain)
+        add("rain-settle", f"within {rules.rain_settle_s:g} s after rain", settle)
     if raw.exclusions is not None:
         exclusions.extend(_technician(raw.exclusions, settings, clock, collector,
                                       s_sorted, e_sorted))
@@ -504,6 +513,62 @@ def _weather(table: RawTable, settings: Settings, clock: tb.Clock, collector: Fi
         "wind_m_s": pd.Series(wind[placed], dtype="float64"),
         "rain_mm": pd.Series(rain[placed], dtype="float64"),
     })
+
+
+def _with_shared_weather(own: pd.DataFrame | None, own_table: RawTable | None,
+                         shared: WeatherFile, settings: Settings,
+                         collector: FindingCollector, s_sorted: np.ndarray,
+                         e_sorted: np.ndarray, clock: tb.Clock) -> pd.DataFrame | None:
+    """Return the input's weather, the shared file's applied where its own sheet is silent.
+
+    Findings about the shared file are reported on this input with the file's name; one
+    ``weather-source`` finding says which source covers which time, and one
+    ``weather-gap`` finding per stretch of the survey that no weather covers.
+    """
+    collector.extend(shared.findings)
+    if shared.weather is None:
+        return own
+    side = FindingCollector()
+    entries = shared.survey.entries if shared.survey is not None else []
+    station: dict[str, Any] = {}
+    for e in entries:  # only the clock matters in a weather file's Survey sheet
+        name = canonical_name(e.key, SURVEY_KEYS)
+        if name in ("clock", "time_zone") and e.value is not None and str(e.value).strip():
+            station[name] = str(e.value).strip()
+    station_clock = _clock(station, settings, side)
+    frame = _weather(shared.weather, settings, station_clock, side, s_sorted, e_sorted)
+    for f in side.findings():
+        collector.add(relocated(shared.name, f))
+    if frame is None or not len(frame):
+        return own
+    combined, used = wm.combine(own, frame)
+    tz = clock.tzinfo()
+    own_text = (f"its own {own_table.sheet} sheet from {_local(int(own['start_ms'].min()), tz)} "
+                f"to {_local(int((own['start_ms'] + own['duration_ms']).max()), tz)} and "
+                if own is not None and len(own) and own_table is not None else "")
+    collector.add(Finding(
+        "weather-source", Severity.INFO,
+        f"weather for wind and rain exclusions: {own_text}the shared weather file "
+        f"{shared.name} ({station_clock.label})"
+        + ("" if used else ", of which no interval falls outside the own sheet's time")))
+    if s_sorted.size:
+        gaps = wm.coverage_gaps(combined["start_ms"].to_numpy(np.int64),
+                                combined["covered_end_ms"].to_numpy(np.int64),
+                                int(s_sorted.min()), int(e_sorted.max()))
+        for a, b in gaps:  # once per gap
+            collector.add(Finding(
+                "weather-gap", Severity.WARNING,
+                f"no weather from {_local(a, tz)} to {_local(b, tz)} "
+                f"({(b - a) / 3_600_000:.1f} h): readings then are not checked for wind and "
+                "rain — add the station's rows for that time or check the conditions by hand"))
+    return combined.drop(columns=["source", "covered_end_ms"])
+
+
+def _local(ms: int, tz: Any) -> str:
+    """Local wall-clock text of an instant in the position's clock (findings)."""
+    from datetime import datetime
+
+    return datetime.fromtimestamp(ms / 1000, tz=tz).strftime("%Y-%m-%d %H:%M")
 
 
 def _technician(table: RawTable, settings: Settings, clock: tb.Clock,
