@@ -16,7 +16,11 @@ from __future__ import annotations
 
 from typing import Any
 
-from surveytools.assessment.background import background_section, reference_bounds
+from surveytools.assessment.background import (
+    background_section,
+    reference_bounds,
+    reference_la90,
+)
 from surveytools.assessment.context import build_context
 from surveytools.assessment.criteria import criteria_section
 from surveytools.assessment.daily import (
@@ -83,8 +87,9 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
     intervals, intervals_basis = intervals_section(ctx)
     schemes = assess_schemes(ctx) if ctx.n else None
     days = days_section(ctx, schemes)
-    background = background_section(ctx)
-    assessments = assessments_section(ctx, background)
+    reference = reference_la90(ctx) if ctx.n else None
+    background = background_section(ctx, reference)
+    assessments = assessments_section(ctx, reference)
     # unrounded interval LAeq for criteria over longer intervals (LAeq,1h): judged once
     # from unrounded values (design.md §9), not from the JSON levels
     summed = (ctx.grouped_laeq(interval_bounds(ctx))

@@ -145,12 +145,16 @@ def reference_la90(ctx: Context, mask: np.ndarray | None = None) -> ReferenceLA9
     return ReferenceLA90(bounds, period_index, la90, valid_s, length_s, sufficient, basis)
 
 
-def background_section(ctx: Context) -> dict[str, Any] | None:
-    """Return the ``background`` section; None without readings."""
+def background_section(ctx: Context, ref: ReferenceLA90 | None = None
+                       ) -> dict[str, Any] | None:
+    """Return the ``background`` section; None without readings.
+
+    ``ref`` is :func:`reference_la90` of ``ctx`` when the caller has it.
+    """
     if ctx.n == 0:
         return None
     method = ctx.settings.background.method
-    ref = reference_la90(ctx)
+    ref = ref if ref is not None else reference_la90(ctx)
     bounds = ref.bounds_ms
     starts = format_local(bounds[:-1], ctx.tz)
     ends = format_local(bounds[1:], ctx.tz)

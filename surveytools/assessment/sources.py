@@ -33,6 +33,7 @@ import numpy as np
 from surveytools.assessment._common import IntArray, Pieces, db, run_spans, seconds, split
 from surveytools.assessment.background import (
     BACKGROUND_PERIODS,
+    ReferenceLA90,
     majority_period,
     reference_la90,
 )
@@ -160,36 +161,35 @@ def _residual_la90(ctx: Context, pieces: Pieces, chosen: np.ndarray) -> float:
 
 def _source_free_background(
     ctx: Context, period: str | None, source_readings: np.ndarray,
-    background: dict[str, Any] | None, residual: tuple[Pieces, np.ndarray] | None,
-) -> tuple[float | None, str, str | None]:
-    """Return the background LA90 an assessment is compared with, its basis and a note.
+    reference: ReferenceLA90 | None, residual: tuple[Pieces, np.ndarray] | None,
+) -> tuple[float, str, str | None]:
+    """Return the unrounded background LA90 an assessment is compared with, basis, note.
 
     ``source_readings`` are left out of the background (on top of the background
-    exclusions, ``Operating = yes`` among them).
+    exclusions, ``Operating = yes`` among them); ``reference`` is the survey's own
+    reference-interval LA90 (used when there is nothing more to leave out). NaN when
+    there is no background. [dB]
     """
-    if period is None:
-        return None, "not available", None
+    if period is None or ctx.n == 0:
+        return float("nan"), "not available", None
     method = ctx.settings.background.method
-    if np.any(source_readings & ctx.valid_background):
-        value = reference_la90(ctx, ctx.valid_background & ~source_readings
-                               ).representative(period, method)
-    else:  # nothing more to leave out: the background section's own figure
-        given = background[period]["LA90"] if background else None
-        value = float("nan") if given is None else float(given)
+    if np.any(source_readings & ctx.valid_background) or reference is None:
+        reference = reference_la90(ctx, ctx.valid_background & ~source_readings)
+    value = reference.representative(period, method)
     if np.isfinite(value):
-        return db(value), "source-free period", None
+        return value, "source-free period", None
     if residual is not None:
         value = _residual_la90(ctx, *residual)
         if np.isfinite(value):
-            return db(value), "residual time", (
+            return value, "residual time", (
                 f"no sufficient {period}-time background without the source: the LA90 of "
                 "the residual time is used")
-    return None, "not available", (
+    return float("nan"), "not available", (
         f"no representative {period} background LA90 without the source, and no valid "
         "residual time to take it from")
 
 
-def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] | None
+def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | None
                ) -> dict[str, Any]:
     """One entry of the ``assessments`` section."""
     from surveytools.indicators.background import residual_correction
@@ -257,8 +257,9 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
                    for name in CORRECTION_NAMES}
     rating = float(rating_level(specific, *(corrections[name] for name in CORRECTION_NAMES)))
     bg, background_basis, background_note = _source_free_background(
-        ctx, period, source_readings, background, residual_pieces)
-    excess = float(excess_over_background(rating, bg if bg is not None else float("nan")))
+        ctx, period, source_readings, reference, residual_pieces)
+    # from the unrounded background: every figure is rounded once (design.md §9)
+    excess = float(excess_over_background(rating, bg))
     impact = impact_indication(excess)
 
     notes: list[str] = []
@@ -288,7 +289,7 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
         "corrections_db": corrections,
         "rating_level": db(rating),
         "background_period": period,
-        "background_LA90": bg,
+        "background_LA90": db(bg),
         "background_basis": background_basis,
         "excess_over_background": db(excess),
         "impact_indication": impact,
@@ -296,8 +297,13 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
     }
 
 
-def assessments_section(ctx: Context, background: dict[str, Any] | None) -> list[dict[str, Any]]:
-    """Assessments of this survey's position, in settings order."""
+def assessments_section(ctx: Context, reference: ReferenceLA90 | None = None
+                        ) -> list[dict[str, Any]]:
+    """Assessments of this survey's position, in settings order.
+
+    ``reference`` is the survey's own :func:`~.background.reference_la90` when the caller
+    has it (it saves computing it again).
+    """
     position = ctx.survey.metadata.get("position")
-    return [assess_one(ctx, a, background) for a in ctx.settings.assessments
+    return [assess_one(ctx, a, reference) for a in ctx.settings.assessments
             if a.position == position]
