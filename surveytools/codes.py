@@ -88,6 +88,8 @@ CODES: dict[str, Code] = {
     "survey-key-duplicate": Code("warning", "cell", "a Survey field given twice"),
     "survey-default-used": Code("info", "cell", "a Survey field taken from the settings"),
     "clock-invalid": Code("error", "cell", "a clock that is not local, UTC or UTC+hh:mm"),
+    "time-zone-assumed": Code("warning", "sheet", "no time zone given: the site's civil time "
+                                                  "(periods, days, local times) is assumed"),
     "calibration-drift": Code("warning", "cell", "calibration checks before/after differ by "
                                                  "more than the limit"),
     "calibration-missing": Code("warning", "cell", "a calibration check is not recorded"),

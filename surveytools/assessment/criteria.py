@@ -1,14 +1,17 @@
 """Criteria: limits on indicators, checked per assessment day, interval or assessment.
 
-A figure fails when its reported value — rounded half up to
-:data:`~surveytools.constants.REPORTED_LEVEL_DECIMALS` decimals, as the workbooks show it —
-is above the limit (so 45.04 dB passes a 45 dB limit and 45.05 dB fails it). Every figure
+A figure fails when its reported value — rounded once, half up, to
+:data:`~surveytools.constants.REPORTED_LEVEL_DECIMALS` decimals from its unrounded value by
+:func:`~surveytools.indicators.reporting.reported_level`, as every output shows it — is
+above the limit (so 45.049 dB passes a 45 dB limit and 45.05 dB fails it). The JSON levels
+the figures come from re-round to the same reported figure (``_common.db_list``); each
+failure and the criterion's ``highest`` figure carry the ``reported`` value judged. Every figure
 with a value is checked, also figures whose coverage is below the threshold: their
 failures carry ``"sufficient": false`` so a reader can discount them. ``passed`` is
 ``failed == 0``, or null when nothing could be checked.
 
 A criterion with ``interval_s`` checks LAeq (energy average over the valid time) or LAFmax
-(highest) over longer intervals built from the reporting intervals on the local clock,
+(highest) over longer intervals built from the reporting intervals in the site's civil time,
 e.g. LAeq,1h from 15-minute intervals. Such a criterion also lists every longer-interval
 figure under ``interval_figures`` (start, period, value, reported, sufficient, judged:
 inside the criterion's period), so the workbook can show the hourly values it judged.
@@ -24,15 +27,14 @@ from __future__ import annotations
 from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, timedelta, tzinfo
-from decimal import ROUND_HALF_UP, Decimal
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
+from surveytools.assessment._common import db
 from surveytools.assessment.schedule import parse_schedule, within_schedule
 from surveytools.assessment.timegrid import MINUTES_PER_HOUR, parse_hhmm, wall_to_utc_ms
-from surveytools.constants import REPORTED_LEVEL_DECIMALS
 from surveytools.errors import SettingsError
 from surveytools.indicators.levels import energy_average
 from surveytools.indicators.reporting import reported_level
@@ -50,20 +52,18 @@ def _interval_indicators(percentiles: tuple[float, ...]) -> tuple[str, ...]:
     return ("LAeq", "LAFmax", *(f"LA{p:g}" for p in percentiles))
 
 
-_QUANTUM = Decimal(1).scaleb(-REPORTED_LEVEL_DECIMALS)
-
-
-def reported_value(value: float) -> float:
-    """Return ``value`` as reported, rounded half up to the reported decimals [dB]."""
-    return float(Decimal(repr(float(value))).quantize(_QUANTUM, rounding=ROUND_HALF_UP))
+def _figure(when: str, value: float, sufficient: bool) -> dict[str, Any]:
+    """One judged figure: its JSON level and the reported value it was judged on."""
+    return {"when": when, "value": db(value), "reported": float(reported_level(value)),
+            "sufficient": sufficient}
 
 
 def _check(criterion: Criterion, applies_to: str,
            candidates: list[tuple[str, float | None, bool]]) -> dict[str, Any]:
-    checked = [(when, value, ok) for when, value, ok in candidates if value is not None]
-    failures = [{"when": when, "value": value, "reported": reported_value(value),
-                 "sufficient": ok}
-                for when, value, ok in checked if reported_value(value) > criterion.limit_db]
+    checked = [_figure(when, value, ok) for when, value, ok in candidates if value is not None]
+    failures = [f for f in checked if f["reported"] > criterion.limit_db]
+    # the highest reported figure (the first of equals): what the outcome hinges on
+    highest = max(checked, key=lambda f: f["reported"], default=None)
     result = {
         "name": criterion.name or f"{criterion.indicator} <= {criterion.limit_db:g} dB",
         "indicator": criterion.indicator,
@@ -74,6 +74,7 @@ def _check(criterion: Criterion, applies_to: str,
         "failed": len(failures),
         "passed": (len(failures) == 0) if checked else None,
         "failures": failures,
+        "highest": highest,
     }
     if criterion.interval_s is not None:
         result["interval_s"] = float(criterion.interval_s)
@@ -81,9 +82,14 @@ def _check(criterion: Criterion, applies_to: str,
 
 
 def _longer_intervals(intervals: list[dict[str, Any]], indicator: str, interval_s: float,
-                      reporting_s: float, threshold: float, name: str
+                      reporting_s: float, threshold: float, name: str,
+                      interval_laeq: list[float] | None = None,
                       ) -> list[tuple[str, float | None, bool, str, str]]:
     """(start, value, sufficient, period, end) per longer interval, from the reporting intervals.
+
+    ``interval_laeq`` holds the unrounded LAeq of each reporting interval (aligned with
+    ``intervals``); the longer interval's LAeq is their energy average over the valid time,
+    so the figure is rounded once, when judged. Without it the JSON levels are used.
 
     Raises
     ------
@@ -102,8 +108,12 @@ def _longer_intervals(intervals: list[dict[str, Any]], indicator: str, interval_
             f"criterion {name!r}: only LAeq and LAFmax can be checked over a longer interval; "
             f"{indicator} uses the reporting interval (remove 'interval')"
         )
+    unrounded = (interval_laeq if interval_laeq is not None
+                 and len(interval_laeq) == len(intervals) else None)
     groups: dict[tuple[str, str, int], list[dict[str, Any]]] = {}
-    for iv in intervals:
+    for k, iv in enumerate(intervals):
+        if unrounded is not None and indicator == "LAeq":
+            iv = {**iv, "LAeq": unrounded[k] if iv.get("LAeq") is not None else None}
         local = datetime.fromisoformat(iv["start"])
         seconds = local.hour * 3600 + local.minute * 60 + local.second
         key = (local.date().isoformat(), str(local.utcoffset()), int(seconds // interval_s))
@@ -116,7 +126,7 @@ def _longer_intervals(intervals: list[dict[str, Any]], indicator: str, interval_
             if indicator == "LAeq":
                 level = float(energy_average([m["LAeq"] for m in valid],
                                              [m["valid_s"] for m in valid]))
-                value = round(level, 2)
+                value = level  # unrounded: judged once by reported_level
             else:
                 value = max(float(m["LAFmax"]) for m in valid)
         valid_s = sum(float(m["valid_s"]) for m in members)
@@ -287,11 +297,13 @@ def criteria_section(
     tz: tzinfo | None = None,
     periods: Periods | None = None,
     holidays: Collection[date] = (),
+    interval_laeq: list[float] | None = None,
 ) -> list[dict[str, Any]]:
     """Check each criterion of this position (or of every position) against the results.
 
     ``tz`` is the site's civil time (schedules, day spans; UTC if not given), ``periods``
-    the period schemes (day spans), ``holidays`` the dates schedules treat as Sundays.
+    the period schemes (day spans), ``holidays`` the dates schedules treat as Sundays,
+    ``interval_laeq`` the unrounded LAeq of each reporting interval (longer intervals).
 
     Raises
     ------
@@ -328,7 +340,8 @@ def criteria_section(
             interval_figures: list[dict[str, Any]] | None = None
             if criterion.interval_s is not None and criterion.interval_s != reporting_interval_s:
                 longer = _longer_intervals(intervals, indicator, criterion.interval_s,
-                                           reporting_interval_s, coverage_threshold, label)
+                                           reporting_interval_s, coverage_threshold, label,
+                                           interval_laeq)
                 chosen = [g for g in longer if criterion.period in ("any", g[3])]
                 when = [g[0] for g in chosen]
                 ends = [g[4] for g in chosen]
@@ -338,7 +351,7 @@ def criteria_section(
                 # hourly values the criterion was judged on, not only the failures
                 interval_figures = [
                     {"start": g[0], "period": g[3], "value": g[1],
-                     "reported": None if g[1] is None else reported_value(g[1]),
+                     "reported": None if g[1] is None else float(reported_level(g[1])),
                      "sufficient": g[2], "judged": criterion.period in ("any", g[3])}
                     for g in longer]
             else:

@@ -113,7 +113,9 @@ def background_whole_db(doc: Mapping[str, Any]) -> bool:
 def offset_note(doc: Mapping[str, Any]) -> str:
     """Return the note on local times and UTC offsets."""
     zone = get(doc, "survey", "time_zone") or "not stated"
-    return (f"Times are the position's local clock (time zone {zone}); the UTC offset of "
+    if get(doc, "survey", "time_zone_assumed"):
+        zone += ", ASSUMED: no time zone was given (warning time-zone-assumed)"
+    return (f"Times are the site's civil time (time zone {zone}); the UTC offset of "
             "each row is in its own column.")
 
 

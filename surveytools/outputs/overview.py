@@ -117,8 +117,8 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
     sw.text(1, 0, f"Written by {tool.get('name', 'surveytools')} {tool.get('version', '')}. "
                   "One row per input: the criteria outcome (criteria not met of those set) "
                   "and, separately, the data quality. Levels are survey averages over all "
-                  "valid time, reported to 0.1 dB as judged; times are each position's local "
-                  "clock.", "note", measure=False)
+                  "valid time, reported to 0.1 dB as judged; times are each site's civil time "
+                  "(its time zone).", "note", measure=False)
     row = 3
     sw.text(row, 0, "CAUTIONS", "subtitle", measure=False)
     row += 1

@@ -71,6 +71,8 @@ def add(book: Book) -> None:
         ("Background period", "text", lambda a: a.get("background_period")),
         ("Background LA90 [dB]", "whole_db" if whole else "level",
          lambda a: d.level(a.get("background_LA90"), whole)),
+        # where the background came from: source-free period, residual time, not available
+        ("Background basis", "text", lambda a: a.get("background_basis")),
         ("Excess over background [dB]", "level",
          lambda a: d.level(a.get("excess_over_background"))),
         ("Impact indication", "text", lambda a: d.impact_text(a.get("impact_indication"))),

@@ -2,7 +2,8 @@
 
 A settings file is TOML, validated against ``schemas/settings.schema.json``. Each default
 comes from :mod:`surveytools.constants`, where its source is named. Times of day are
-``"HH:MM"`` strings in the position's local clock; durations are seconds.
+``"HH:MM"`` strings in the site's civil time (its time zone, with summer time);
+durations are seconds.
 
 One module per TOML section holds that section's dataclass and its builder
 (``build_<section>(given) -> (value, [(key path, problem), ...])``); :mod:`.root` puts

@@ -87,10 +87,40 @@ def _empty_readings(level_names: list[str]) -> pd.DataFrame:
     return pd.DataFrame(cols)
 
 
+def _assume_time_zone(metadata: dict[str, Any], settings: Settings,
+                      collector: FindingCollector, sheet: str | None) -> bool:
+    """Fill an assumed site zone when neither the Survey sheet nor the settings gave one.
+
+    Returns whether the zone was assumed; the warning ``time-zone-assumed`` says what was
+    assumed and what it affects (design.md §9: a time zone nobody gave is never silent).
+    """
+    if metadata.get("time_zone"):
+        metadata["time_zone_assumed"] = False
+        return False
+    clock = str(metadata.get("clock", settings.survey.clock))
+    zone = tb.assumed_site_zone(clock)
+    metadata["time_zone"] = zone
+    metadata["time_zone_assumed"] = True
+    if zone == "UTC":
+        what = "the site is assumed to keep UTC"
+        if clock == "local":
+            what += (", so the meter's local clock is read as UTC and its summer-time changes "
+                     "are not recognised (an autumn hour repeats as duplicate times)")
+    else:
+        what = f"the site is assumed to keep the meter's {zone} all year (no summer time)"
+    collector.add(Finding(
+        "time-zone-assumed", Severity.WARNING,
+        f"no time zone was given (Survey sheet 'Time zone' or survey.time_zone in the "
+        f"settings); {what}. Periods (day/evening/night), assessment days and every local "
+        "time shown follow that assumption — enter the site's time zone, an IANA name such "
+        "as Europe/London, as 'Time zone' on the Survey sheet", sheet))
+    return True
+
+
 def _clock(metadata: Mapping[str, Any], settings: Settings,
            collector: FindingCollector) -> tb.Clock:
     clock = str(metadata.get("clock", settings.survey.clock))
-    zone = str(metadata.get("time_zone", settings.survey.time_zone))
+    zone = str(metadata.get("time_zone") or "UTC")
     try:
         return tb.parse_clock(clock, zone)
     except ValueError as exc:
@@ -186,7 +216,13 @@ def build_survey(raw: RawWorkbook, settings: Settings,
             if name is not None:
                 survey_keys[i] = name
     metadata, locations = validate_survey(raw.survey, survey_keys, settings.survey, collector)
+    zone_assumed = _assume_time_zone(metadata, settings, collector,
+                                     raw.survey.sheet if raw.survey is not None else None)
     clock = _clock(metadata, settings, collector)
+    try:
+        site_zone = tb.parse_site_zone(str(metadata["time_zone"]))
+    except ValueError:  # reported by validate_survey / _clock; UTC keeps the run going
+        site_zone = tb.parse_site_zone("UTC")
     drift_excess = ck.check_calibration(metadata, locations, settings.calibration, collector)
 
     table = raw.readings
@@ -331,9 +367,17 @@ def build_survey(raw: RawWorkbook, settings: Settings,
     order = keep[np.argsort(start_ms[keep], kind="stable")]
     s_sorted = start_ms[order]
     d_sorted = dur_ms[order]
-    off_sorted = times.loc.offset_s[order]
+    # local times shown are the site's civil time (design.md §9), whatever the meter's clock
+    off_sorted = tb.site_offsets_s(s_sorted, site_zone)
+    repeated_hour_hint = None
+    if zone_assumed and str(metadata.get("clock", settings.survey.clock)) == "local":
+        repeated_hour_hint = (
+            "no time zone was given, so if the clocks went back that night this is the "
+            "repeated hour, not a copy — enter the site's Time zone on the Survey sheet "
+            "(e.g. Europe/London) rather than deleting a row")
     tc = ck.check_sorted_times(rows_all[order], s_sorted, d_sorted, off_sorted, times.letter,
-                              cols.where, collector, GAP_FACTOR)
+                              cols.where, collector, GAP_FACTOR,
+                              duplicate_hint=repeated_hour_hint)
     ck.check_level_order({k: v[order] for k, v in levels.items()},
                         {k: by[k].letter for k in levels}, cols.where, collector,
                         rows_all[order])

@@ -31,16 +31,29 @@ def test_day_criterion_counts() -> None:
     assert (c["applies_to"], c["checked"], c["failed"], c["passed"]) == ("day", 2, 1, False)
     assert c["failures"] == [{"when": "2026-06-11", "value": 58.0, "reported": 58.0,
                               "sufficient": True}]
+    assert c["highest"] == {"when": "2026-06-11", "value": 58.0, "reported": 58.0,
+                            "sufficient": True}
 
 
-@pytest.mark.parametrize(("level", "fails"), [(45.04, False), (45.05, True), (45.1, True)])
-def test_a_figure_is_judged_at_its_reported_precision(level: float, fails: bool) -> None:
-    # Common practice: compliance is judged on the figure as reported (0.1 dB, rounded half
-    # up): 45.04 -> 45.0 meets a 45 dB limit, 45.05 -> 45.1 does not.
+@pytest.mark.parametrize(("level", "fails", "reported"),
+                         [(45.04, False, 45.0), (45.049, False, 45.0), (45.0496, False, 45.0),
+                          (45.05, True, 45.1), (45.1, True, 45.1)])
+def test_a_figure_is_judged_at_its_reported_precision(level: float, fails: bool,
+                                                      reported: float) -> None:
+    # Common practice: compliance is judged on the figure as reported (0.1 dB, rounded once,
+    # half up, from the unrounded level; design.md §9): 45.049 -> 45.0 meets a 45 dB limit
+    # (rounding first to 45.05 and then to 45.1 would not), 45.05 -> 45.1 does not.
     t = local_ms("2026-06-10 23:00")
     survey = build_survey([t + h * HOUR_MS for h in range(8)], 3600, {"LAeq": [level] * 8})
-    (c,) = assess(survey, Settings(criteria=(Criterion("Lnight", 45.0),)))["criteria"]
+    result = assess(survey, Settings(criteria=(Criterion("Lnight", 45.0),)))
+    (c,) = result["criteria"]
     assert c["failed"] == (1 if fails else 0)
+    assert c["highest"]["reported"] == reported
+    # the JSON figure rounds once more to the same reported value
+    (day,) = result["days"]
+    from surveytools.indicators.reporting import reported_level
+    assert reported_level(day["Lnight"]) == reported
+    assert day["Lnight"] == pytest.approx(level, abs=0.0005)
 
 
 def test_laeq_over_one_hour_from_quarter_hours() -> None:
@@ -56,6 +69,7 @@ def test_laeq_over_one_hour_from_quarter_hours() -> None:
     (failure,) = c["failures"]
     assert failure["when"].startswith("2026-06-10T10:00:00")
     assert failure["value"] == pytest.approx(56.73, abs=0.005)
+    assert failure["reported"] == 56.7  # hand-evaluated 56.7348 -> 56.7
 
 
 def test_longer_interval_must_be_a_multiple_of_the_reporting_interval() -> None:
