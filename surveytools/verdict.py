@@ -31,6 +31,7 @@ FIGURE_AFFECTING_CODES: frozenset[str] = frozenset({
     "timestamp-out-of-order",   # rows re-sorted; intervals may be mis-assigned
     "interval-overlap",         # overlapping readings left out
     "column-duplicate",         # two columns for one quantity: the first was used
+    "time-zone-assumed",        # periods and days rest on a time zone nobody gave
 })
 
 #: Code prefixes that affect the figures (a time zone nobody stated, clock problems).

@@ -40,6 +40,13 @@ def test_no_criteria_set_and_unchecked() -> None:
     assert outcome_words(0, 0, 1) == "1 criterion set, none could be checked (no figures)"
 
 
+def test_assumed_time_zone_affects_the_figures() -> None:
+    assumed = {"severity": "warning", "code": "time-zone-assumed", "sheet": "Survey",
+               "row": None, "column": None, "message": "no time zone given: UTC assumed"}
+    v = verdict_section(doc([], [assumed], status="warnings"))
+    assert [w["code"] for w in v["warnings_affecting_figures"]] == ["time-zone-assumed"]
+
+
 def test_calibration_drift_is_listed_by_message_and_raises_quality() -> None:
     drift = {"severity": "warning", "code": "calibration-drift", "sheet": "Survey", "row": 9,
              "column": "B", "message": "calibration drift -0.60 dB exceeds the limit"}
