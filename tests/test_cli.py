@@ -271,9 +271,10 @@ def test_watch_processes_each_new_completed_file_once(tmp_path: Path) -> None:
     finally:
         out, err = proc.communicate(timeout=300)
     assert proc.returncode == 0, err
-    # Each file is reported once, however many polling cycles ran.
-    assert out.count("first.xlsx: ok") == 1
-    assert out.count("second.xlsx: ok") == 1
+    # Each file is reported once, however many polling cycles ran (verdict first: the
+    # criteria outcome, then the data quality).
+    assert out.count("first.xlsx: criteria: no criteria set; data quality: ok") == 1
+    assert out.count("second.xlsx: criteria: no criteria set; data quality: ok") == 1
 
 
 def test_a_symlinked_input_is_skipped_with_a_note(tmp_path: Path) -> None:
