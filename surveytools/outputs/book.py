@@ -25,6 +25,9 @@ CHART_SLOT_ROWS = 32
 #: Chart size on the Charts sheet [px]: about one A4 landscape page at 100 %.
 CHART_WIDTH_PX = 1000
 CHART_HEIGHT_PX = 560
+#: Last column of the printed area: the chart's width in default 64-px columns and one more
+#: for its axis labels, so nothing of a chart falls outside the printed area.
+CHART_LAST_COL = -(-CHART_WIDTH_PX // 64) + 1
 
 
 @dataclass
@@ -69,7 +72,7 @@ class Book:
         self.chart_count += 1
         breaks = [i * CHART_SLOT_ROWS for i in range(1, self.chart_count)]
         ws.set_h_pagebreaks(breaks)
-        ws.print_area(0, 0, self.chart_count * CHART_SLOT_ROWS - 1, 14)
+        ws.print_area(0, 0, self.chart_count * CHART_SLOT_ROWS - 1, CHART_LAST_COL)
 
 
 def limit_series(values: list[float | None]) -> bool:

@@ -94,7 +94,7 @@ OVERVIEW_COLUMNS: tuple[tuple[str, float], ...] = (
     ("Lden [dB]", 6.5), ("Lday [dB]", 6.5), ("Levening [dB]", 8.0), ("Lnight [dB]", 6.5),
     ("Background LA90 day [dB]", 11.0), ("Background LA90 night [dB]", 11.0),
     ("Worst excess over background [dB]", 11.0), ("Figures above limits (count)", 8.0),
-    ("Errors", 6.5), ("Warnings", 8.0), ("Results workbook", 18.0),
+    ("Errors", 6.5), ("Warnings", 8.0), ("Results workbook", 11.0),
 )
 
 
@@ -176,13 +176,15 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
             sw.number(r, 15 + j, n, f"sev_{sev}" if isinstance(n, int) and n else "int")
         name = safe_link_name(item.get("results_xlsx"))
         if name is not None:
-            ws.write_url(r, 17, "external:" + name, link_fmt, string=name)
+            # a short link text: a file name has no place to wrap and would run off the
+            # printed page; the target (and overview.json) keep the full name
+            ws.write_url(r, 17, "external:" + name, link_fmt, string="open results",
+                         tip=name)
         elif item.get("results_xlsx"):
             sw.text(r, 17, "(no link: unexpected output name)", "note")
         lines = max(wrapped_lines(str(t or ""), OVERVIEW_COLUMNS[c][1])
                     for c, t in ((0, item.get("file")), (2, item.get("site")),
-                                 (3, verdict.get("outcome_text")), (5, conditions),
-                                 (17, name)))
+                                 (3, verdict.get("outcome_text")), (5, conditions)))
         if lines > 1:
             ws.set_row(r, 15.0 * lines + 2)
     last = header_row + max(len(inputs), 1)

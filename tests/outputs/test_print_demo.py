@@ -73,6 +73,16 @@ def _smallest_text_pt(pdf: Path, page: int) -> float:
     return min(body) / BOX_PER_PT
 
 
+def _runs_off_the_right(pdf: Path, page: int) -> list[str]:
+    """Words that reach beyond the footer's right edge (the printed area): text cut off."""
+    html = _text(pdf, page, page, "-bbox")
+    height = float(re.search(r'<page width="[0-9.]+" height="([0-9.]+)"', html).group(1))  # type: ignore[union-attr]
+    words = [(float(x), float(y), w) for x, y, w in re.findall(
+        r'xMax="([0-9.]+)" yMax="([0-9.]+)">([^<]*)<', html)]
+    edge = max(x for x, y, _ in words if y >= height - 40.0)  # "... page N of M"
+    return [w for x, y, w in words if y < height - 40.0 and x > edge + 1.0]
+
+
 def _page_bound(doc: dict[str, Any], readings_rows: int) -> int:
     """Pages the results workbook may take: Summary 1, one per chart, rows / 25 per sheet."""
     bg = doc.get("background") or {}
@@ -129,9 +139,11 @@ def test_printed_results_verdict_first_one_page_summary_and_bounded(
     wb = openpyxl.load_workbook(demo_run / f"{stem}.results.xlsx", read_only=True)
     readings = wb["Readings"].max_row if "Readings" in wb.sheetnames else 0
     assert pages <= _page_bound(doc, readings or 0), pages
-    # legible: nothing smaller than about 7 pt on the Summary and the first detail pages
-    for page in (1, 2, 3):
+    # legible: nothing smaller than about 7 pt on the Summary and the first detail pages,
+    # and nothing running off the printed area
+    for page in range(1, min(pages, 12) + 1):
         assert _smallest_text_pt(pdf, page) >= MIN_TEXT_PT, page
+        assert _runs_off_the_right(pdf, page) == [], page
 
 
 def test_printed_overview_is_legible_and_counts_criteria(demo_run: Path,
@@ -139,6 +151,7 @@ def test_printed_overview_is_legible_and_counts_criteria(demo_run: Path,
     exe = _tools()
     pdf = _pdf(exe, demo_run / "overview.xlsx", tmp_path)
     assert _smallest_text_pt(pdf, 1) >= MIN_TEXT_PT
+    assert _runs_off_the_right(pdf, 1) == []
     text = " ".join(_text(pdf, 1, 1).split())
     overview = json.loads((demo_run / "overview.json").read_text(encoding="utf-8"))
     for item in overview["inputs"]:
