@@ -114,11 +114,13 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
         sw.set_width(col, width)
     total_width = sum(w for _, w in OVERVIEW_COLUMNS)
     sw.text(0, 0, "Sound survey batch overview", "title", measure=False)
-    sw.text(1, 0, f"Written by {tool.get('name', 'surveytools')} {tool.get('version', '')}. "
-                  "One row per input: the criteria outcome (criteria not met of those set) "
-                  "and, separately, the data quality. Levels are survey averages over all "
-                  "valid time, reported to 0.1 dB as judged; times are each site's civil time "
-                  "(its time zone).", "note", measure=False)
+    note = (f"Written by {tool.get('name', 'surveytools')} {tool.get('version', '')}. "
+            "One row per input: the criteria outcome (criteria not met of those set) and, "
+            "separately, the data quality. Levels are survey averages over all valid time, "
+            "reported to 0.1 dB as judged; times are each site's civil time (its time zone).")
+    ws.merge_range(1, 0, 1, last_col, "", sw.styles.get("note_across"))
+    sw.text(1, 0, note, "note_across", measure=False)
+    ws.set_row(1, 15.0 * wrapped_lines(note, total_width * 1.05) + 2)
     row = 3
     sw.text(row, 0, "CAUTIONS", "subtitle", measure=False)
     row += 1
