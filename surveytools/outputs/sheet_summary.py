@@ -368,8 +368,8 @@ def add(book: Book) -> None:
         title += f": position {survey['position']}"
     sw.text(0, 0, title, "title", measure=False)
     tool = doc.get("tool") or {}
-    sw.text(1, 0, f"Written by {tool.get('name', 'surveytools')} {tool.get('version', '')}. "
-                  f"{d.offset_note(doc)}", "note", measure=False)
+    _para(sw, 1, f"Written by {tool.get('name', 'surveytools')} {tool.get('version', '')}. "
+                 f"{d.offset_note(doc)}", "note_across", first=0)
     ws.set_row(2, GAP_PT)
     row = _verdict(sw, doc, 3)
     ws.set_row(row, GAP_PT)  # thin gaps between blocks keep the page legible at one page
