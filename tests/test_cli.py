@@ -396,3 +396,18 @@ def test_run_with_a_shared_weather_file(tmp_path: Path) -> None:
     missing = run_cli("run", str(drop), "-o", str(out), "--weather", str(tmp_path / "no.csv"),
                       cwd=tmp_path)
     assert missing.returncode == 2 and "--weather" in missing.stderr
+
+
+def test_terminal_line_is_verdict_first_with_the_reported_figures() -> None:
+    from surveytools.cli import _headline
+
+    outcome = {"overview": {
+        "position": "KL-2", "measured_s": 604800.0,
+        "survey_average": {"Lden": 58.65},
+        "coverage": {"valid_fraction": 570000.0 / 604800.0},
+        "verdict": {"outcome_text": "4 of 4 criteria not met", "data_quality_text": "ok"}}}
+    # hand-evaluated: Lden 58.65 -> 58.7 dB half up (not 58.6 as binary rounding may give);
+    # 570000 / 604800 = 0.942460... -> 94.2 %; 604800 s = 168.0 h
+    assert _headline(outcome) == ("criteria: 4 of 4 criteria not met; data quality: ok; "
+                                  "position KL-2; Lden 58.7 dB (survey average); "
+                                  "94.2 % of 168.0 h valid")
