@@ -14,13 +14,13 @@ import math
 import re
 import shutil
 import subprocess
+import sys
 from pathlib import Path
 from typing import Any
 
 import openpyxl
 import pytest
 
-from surveytools.cli import main
 from surveytools.indicators.reporting import reported_level
 
 pytestmark = pytest.mark.slow
@@ -100,11 +100,15 @@ def _page_bound(doc: dict[str, Any], readings_rows: int) -> int:
 
 @pytest.fixture(scope="module")
 def demo_run(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    # the command line in its own process, as a user runs it
     base = tmp_path_factory.mktemp("demo")
-    assert main(["demo", str(base / "in")]) == 0
+    cli = [sys.executable, "-m", "surveytools"]
+    subprocess.run([*cli, "demo", str(base / "in")], check=True, capture_output=True,
+                   cwd=base, timeout=300)
     out = base / "out"
-    main(["run", str(base / "in"), "--settings", str(base / "in" / "settings.toml"), "-o",
-          str(out), "--quiet", "--settle", "0"])
+    subprocess.run([*cli, "run", str(base / "in"), "--settings",
+                    str(base / "in" / "settings.toml"), "-o", str(out), "--quiet",
+                    "--settle", "0"], capture_output=True, cwd=base, timeout=600)
     assert (out / "overview.xlsx").exists()
     return out
 
