@@ -74,7 +74,3 @@ class Book:
         ws.set_h_pagebreaks(breaks)
         ws.print_area(0, 0, self.chart_count * CHART_SLOT_ROWS - 1, CHART_LAST_COL)
 
-
-def limit_series(values: list[float | None]) -> bool:
-    """Return True when a limit column holds at least one value (worth a chart line)."""
-    return any(v is not None for v in values)

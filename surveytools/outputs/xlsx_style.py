@@ -607,10 +607,3 @@ def severity_counts(findings: Sequence[Mapping[str, Any]],
 def _rank(severity: str) -> int:
     return {"error": 0, "warning": 1, "info": 2}.get(severity, 3)
 
-
-def fmt_db(value: object, whole: bool = False) -> str:
-    """Return a level as display text (``"55.3 dB"``), or ``"n/a"`` when missing."""
-    v = finite_number(value)
-    if v is None:
-        return "n/a"
-    return f"{v:.0f} dB" if whole else f"{v:.1f} dB"
