@@ -111,6 +111,8 @@ def add(book: Book) -> None:
     ws.autofilter(header_row, 0, last, last_col)
     sw.fit_columns(minimum=8.0, maximum=14.0)
     sw.set_width(0, 11.0)
+    sw.set_width(last_col - 2, 12.0)  # night events: a long header
+    sw.set_width(last_col - 1, 12.0)
     sw.set_width(last_col, 40.0)
     for r, note in notes.items():
         lines = wrapped_lines(note, 40.0)

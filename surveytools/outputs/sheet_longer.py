@@ -103,6 +103,9 @@ def _add_one(book: Book, interval_s: float, criteria: list[Mapping[str, Any]]) -
     last = header_row + max(len(starts), 1)
     ws.autofilter(header_row, 0, last, last_col)
     sw.fit_columns(minimum=8.0, maximum=16.0)
+    for _c, col in crit_cols:  # named limit and outcome columns: room for the name
+        sw.set_width(col, 14.0)
+        sw.set_width(col + 1, 16.0)
     sw.header_height(header_row, 0, headers)
     sw.wrap_notes(last_col)
     print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 1,
