@@ -85,18 +85,38 @@ def build_parser() -> argparse.ArgumentParser:
     check = sub.add_parser("check", help="validate survey workbooks without computing results")
     common(check)
 
-    verify = sub.add_parser("verify", help="recompute a results file and report any difference")
-    verify.add_argument("results", type=Path, metavar="RESULTS.json")
+    verify = sub.add_parser(
+        "verify", help="recompute a results file and report any difference",
+        description="Recompute a *.results.json from its input and the settings recorded in "
+                    "it, and compare every figure and finding exactly. Differences are named "
+                    "by day, interval, period or finding. Exit 0 identical, 1 different, "
+                    "2 the results file or its input cannot be read.")
+    verify.add_argument("results", type=Path, metavar="RESULTS.json",
+                        help="a results file written by 'surveytools run'")
     verify.add_argument("--input", type=Path, metavar="FILE",
                         help="input workbook (default: the path recorded in the results)")
-    verify.add_argument("--format", choices=("text", "json"), default="text")
+    verify.add_argument("--format", choices=("text", "json"), default="text",
+                        help="report format on standard output (default: text)")
 
-    demo = sub.add_parser("demo", help="write the demo workbooks and settings file")
+    demo = sub.add_parser(
+        "demo", help="write the demo workbooks and settings file",
+        description="Write three demo survey workbooks (an invented site) and a settings "
+                    "file into DIR, to try 'surveytools run' on. Existing files are never "
+                    "replaced unless --force is given.")
     demo.add_argument("directory", nargs="?", type=Path, default=Path("surveytools_demo"),
-                      metavar="DIR")
+                      metavar="DIR", help="folder to write to (default: ./surveytools_demo)")
+    demo.add_argument("--force", action="store_true",
+                      help="replace files of the same names already in DIR")
 
-    template = sub.add_parser("template", help="write a blank input workbook with guidance")
-    template.add_argument("file", type=Path, metavar="FILE")
+    template = sub.add_parser(
+        "template", help="write a blank input workbook with guidance",
+        description="Write a blank survey workbook (.xlsx) with a Guidance sheet and drop-down "
+                    "lists, to fill in and then check with 'surveytools check FILE'. An "
+                    "existing file is never replaced unless --force is given.")
+    template.add_argument("file", type=Path, metavar="FILE.xlsx",
+                          help="name of the workbook to write (must end in .xlsx)")
+    template.add_argument("--force", action="store_true",
+                          help="replace an existing file of that name")
     return parser
 
 
@@ -258,6 +278,8 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
             out.write(_summary_line(result.counts(), "Processed")
                       + f". Results in {options.out_dir}/ (overview.xlsx).\n")
         out.flush()
+        if result.output_error:
+            err.write(f"surveytools: {result.output_error}\n")
         if os.environ.get("SURVEYTOOLS_TIMINGS"):  # for developers measuring the pipeline
             for o in result.outcomes:
                 err.write(f"timings {o['file']}: {json.dumps(o.get('timings'))}\n")
@@ -315,7 +337,7 @@ def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sy
         if args.command == "demo":
             from surveytools.demo import write_demo
 
-            written = write_demo(args.directory)
+            written = write_demo(args.directory, force=args.force)
             out.write(f"Wrote {len(written)} demo files to {args.directory}/:\n")
             for p in written:
                 out.write(f"  {p.name}\n")
@@ -326,7 +348,7 @@ def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sy
         if args.command == "template":
             from surveytools.template import write_template
 
-            write_template(args.file)
+            write_template(args.file, force=args.force)
             out.write(f"Wrote a blank survey workbook to {args.file}; fill in the Survey and "
                       "Readings sheets (the Guidance sheet explains each column).\n")
             return EXIT_OK
@@ -353,4 +375,12 @@ def main(argv: list[str] | None = None) -> int:
     if args.command is None:
         parser.print_help(sys.stderr)
         return EXIT_USAGE
+    if not os.environ.get("SURVEYTOOLS_DEBUG"):
+        # A library's clean-up failing during garbage collection (a zip file closed on a
+        # full disk) would print a traceback; what failed is reported in our words instead.
+        sys.unraisablehook = _quiet_unraisable
     return execute(args)
+
+
+def _quiet_unraisable(unraisable: Any) -> None:
+    """Drop exceptions raised in finalizers (see :func:`main`); SURVEYTOOLS_DEBUG shows them."""

@@ -57,6 +57,11 @@ CODES: dict[str, Code] = {
     "worker-killed": Code("error", "file", "processing was stopped by a CPU-time or kill "
                                            "limit"),
     "internal-error": Code("error", "file", "a fault in surveytools itself on this file"),
+    "output-disk-full": Code("error", "file", "the results of this input could not be written: "
+                                              "the disk is full; it is processed again on the "
+                                              "next run"),
+    "output-not-writable": Code("error", "file", "the results of this input could not be "
+                                                 "written (read-only or no permission)"),
     # --- batch: paths not processed ------------------------------------------------------
     "path-missing": Code("error", "batch", "a path given on the command line does not exist"),
     "not-regular-file": Code("info", "batch", "a link, pipe or device in the folder: skipped"),
