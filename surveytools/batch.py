@@ -366,8 +366,10 @@ def _crash_failure(path: Path, rc: int | None, err: str) -> dict[str, Any]:
         code, msg = ("internal-error",
                      "surveytools failed on this file (a fault in the tool, not in your data); "
                      "please report it with the file")
-    if tail:
-        msg = f"{msg} [{tail}]"
+    if tail:  # the worker's last words (a library's raw text): the debug log only
+        from surveytools.debuglog import log_raw
+
+        log_raw(f"worker on {path} ended (exit status {rc})", err.strip()[-4000:] or tail)
     return _worker_failure(path, code, msg)
 
 

@@ -56,6 +56,8 @@ CODES: dict[str, Code] = {
     "worker-out-of-memory": Code("error", "file", "reading needed more memory than allowed"),
     "worker-killed": Code("error", "file", "processing was stopped by a CPU-time or kill "
                                            "limit"),
+    "cell-date-out-of-range": Code("error", "file", "a date cell beyond any calendar (e.g. "
+                                                    "-1E+308) that the reader cannot convert"),
     "internal-error": Code("error", "file", "a fault in surveytools itself on this file"),
     "output-disk-full": Code("error", "file", "the results of this input could not be written: "
                                               "the disk is full; it is processed again on the "
@@ -101,6 +103,8 @@ CODES: dict[str, Code] = {
     "calibrator-level-unusual": Code("warning", "cell", "calibrator level not near a nominal "
                                                         "value (94, 104, 114 dB)"),
     # --- timestamps ----------------------------------------------------------------------
+    "timestamp-stray": Code("error", "cell", "a reading far outside the survey's span (a "
+                                            "wrong year or month); the row is left out"),
     "timestamp-invalid": Code("error", "cell", "not a date-time (the row cannot be placed "
                                                "in time)"),
     "timestamp-missing": Code("error", "cell", "a row with values but no timestamp"),

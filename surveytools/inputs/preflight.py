@@ -41,6 +41,7 @@ from pathlib import Path
 from xml.parsers import expat
 
 from surveytools import constants as const
+from surveytools.debuglog import log_raw
 from surveytools.errors import WorkbookError
 
 _MB = 1_000_000
@@ -235,12 +236,30 @@ def _run(path: str | os.PathLike[str], limits: PreflightLimits | None, scan: boo
         raise
     except (zipfile.BadZipFile, zlib.error, EOFError, OSError, ValueError, KeyError,
             struct.error, UnicodeDecodeError, expat.ExpatError) as exc:
+        log_raw(f"preflight of {path}", exc)  # the library's own words: debug log only
         raise WorkbookError(
             "zip-corrupt",
-            f"The file is damaged or incomplete ({type(exc).__name__}: {str(exc)[:200]}). "
-            "Copy it again from the meter or the sender; if it was still being copied, "
-            "wait until the copy has finished.",
+            f"The file is damaged or incomplete ({_damage(exc)}). Copy it again from the "
+            "meter or the sender; if it was still being copied, wait until the copy has "
+            "finished.",
         ) from exc
+
+
+def _damage(exc: BaseException) -> str:
+    """Say in our words which layer of the file a library found damaged."""
+    if isinstance(exc, zlib.error | EOFError):
+        return "a compressed part does not unpack: it is cut short or altered"
+    if isinstance(exc, expat.ExpatError):
+        return "the markup of a part of the workbook is damaged"
+    if isinstance(exc, UnicodeDecodeError):
+        return "a part of the workbook is not in the text encoding it declares"
+    if isinstance(exc, OSError) and not isinstance(exc, zipfile.BadZipFile):
+        return "the file could not be read to its end"
+    if isinstance(exc, KeyError):
+        return "a part the workbook refers to is missing"
+    if "CRC" in str(exc):
+        return "a part's checksum (CRC) does not match its contents"
+    return "its zip structure is broken"
 
 
 # --------------------------------------------------------------------------------------

@@ -15,7 +15,12 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from surveytools.constants import LEVEL_ORDER_TOLERANCE_DB, SECONDS_PER_HOUR
+from surveytools.constants import (
+    LEVEL_ORDER_TOLERANCE_DB,
+    SECONDS_PER_HOUR,
+    STRAY_READINGS_GAP_DAYS,
+    STRAY_READINGS_MAX_FRACTION,
+)
 from surveytools.inputs.raw import RawColumn
 from surveytools.settings import Calibration
 from surveytools.validation.findings import Finding, FindingCollector, Severity
@@ -26,6 +31,7 @@ _PLAIN_NUMBER = re.compile(r"^\s*[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?\s*$")
 _TRUE = frozenset({"yes", "y", "true", "1", "x", "on"})
 _FALSE = frozenset({"no", "n", "false", "0", "off", "-"})
 _MS_PER_S = 1000
+MS_PER_DAY = 86_400_000
 
 #: Level columns checked for their order, highest first (LAFmax >= LAeq >= LAF90 >= LAFmin).
 LEVEL_ORDER = ("LAFmax", "LAeq", "LAF90", "LAFmin")
@@ -328,6 +334,50 @@ def _span_text(ms: int) -> str:
     if s >= SECONDS_PER_HOUR:
         return f"{s / SECONDS_PER_HOUR:g} h"
     return f"{s / 60:g} min" if s >= 60 else f"{s:g} s"
+
+
+def check_stray_times(
+    rows: np.ndarray, start_ms: np.ndarray, offset_s: np.ndarray, placed: np.ndarray,
+    letter: str | None, where: Where, collector: FindingCollector,
+) -> np.ndarray:
+    """Return the placed readings far outside the survey's span, reported (``timestamp-stray``).
+
+    Readings are split into groups wherever more than ``STRAY_READINGS_GAP_DAYS`` pass
+    without one; a group other than the largest that holds at most
+    ``STRAY_READINGS_MAX_FRACTION`` of the readings is stray (a wrong year or month typed
+    in a few rows). Its rows are left out, so no grid is sized by the span between a
+    stray time and the survey. Groups of similar size (a survey resumed after a long
+    break) are all kept.
+    """
+    stray = np.zeros(start_ms.size, bool)
+    pos = np.flatnonzero(placed)
+    if pos.size < 2:
+        return stray
+    order = pos[np.argsort(start_ms[pos], kind="stable")]
+    t = start_ms[order]
+    breaks = np.diff(t) > STRAY_READINGS_GAP_DAYS * MS_PER_DAY
+    if not breaks.any():
+        return stray
+    group = np.r_[0, np.cumsum(breaks)]
+    counts = np.bincount(group)
+    main = int(np.argmax(counts))
+    small = counts <= STRAY_READINGS_MAX_FRACTION * pos.size
+    small[main] = False
+    if not small.any():
+        return stray
+    stray[order[small[group]]] = True
+    first, last = t[group == main][[0, -1]]
+    span = _local_text(np.array([first, last]), offset_s[order[group == main]][[0, -1]])
+    hit = np.flatnonzero(stray)
+    shown = hit[:collector.room("timestamp-stray")]
+    texts = _local_text(start_ms[shown], offset_s[shown])
+    away = np.minimum(np.abs(start_ms[shown] - first), np.abs(start_ms[shown] - last))
+    collector.add_rows(
+        "timestamp-stray", Severity.ERROR, where.sheet, rows[hit], letter,
+        [f"{text} is {a / MS_PER_DAY:,.0f} days away from the other readings ({span[0]} to "
+         f"{span[1]}) — check the date (a wrong year or month?); the row is left out"
+         for text, a in zip(texts, away, strict=True)])
+    return stray
 
 
 @dataclass

@@ -35,6 +35,11 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 
+from surveytools.constants import (
+    MAX_INTERVAL_DURATION_S,
+    PLAUSIBLE_READING_YEAR_END,
+    PLAUSIBLE_READING_YEAR_MIN,
+)
 from surveytools.inputs.raw import RawColumn
 from surveytools.validation.findings import Finding, FindingCollector, Severity
 
@@ -174,8 +179,10 @@ def parse_clock(clock: str, time_zone: str) -> Clock:
         return Clock("fixed", off)
     try:
         zoneinfo.ZoneInfo(time_zone)
-    except (zoneinfo.ZoneInfoNotFoundError, ValueError) as exc:
-        raise ValueError(f"unknown time zone {time_zone!r}") from exc
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError, OSError) as exc:
+        # OSError: a name too long for a file path (the zone database is a folder tree)
+        shown = time_zone if len(time_zone) <= 60 else time_zone[:57] + "..."
+        raise ValueError(f"unknown time zone {shown!r}") from exc
     return Clock("local", 0, time_zone)
 
 
@@ -367,7 +374,7 @@ def column_datetimes(col: RawColumn, n: int) -> NaiveTimes:
                  "and time, or write ISO 8601 text such as 2026-07-03 22:00:00",
                  np.array([str(v) for v in vals[pos]], dtype=object))
     if col.kind != "text" and not col.text_cells:
-        return out  # typed cells only: no text to parse
+        return _implausible_years(out)  # typed cells only: no text to parse
     texts = _text_series(col, n)
     has_text = texts.notna().to_numpy()
     if has_text.any():
@@ -384,6 +391,29 @@ def column_datetimes(col: RawColumn, n: int) -> NaiveTimes:
         out.fail(bad, "not a date-time in a supported form — write ISO 8601 text such as "
                  "2026-07-03 22:00:00 or 2026-07-03T22:00:00+02:00, or use a date-time cell",
                  sub[~ok].to_numpy(dtype=object))
+    return _implausible_years(out)
+
+
+#: Plausible reading times, naive ms: [1980-01-01, 2100-01-01) (see constants).
+_PLAUSIBLE_FIRST_MS = int(np.datetime64(f"{PLAUSIBLE_READING_YEAR_MIN}-01-01", "ms")
+                          .astype(np.int64))
+_PLAUSIBLE_END_MS = int(np.datetime64(f"{PLAUSIBLE_READING_YEAR_END}-01-01", "ms")
+                        .astype(np.int64))
+
+
+def _implausible_years(out: NaiveTimes) -> NaiveTimes:
+    """Mark readable times outside the plausible years as problems (the row is left out).
+
+    A year typed wrong (1926, 9999) or a huge date serial must not stretch the survey to
+    a century: it is a located finding, and no later step sees the time.
+    """
+    far = out.ok & ((out.ms < _PLAUSIBLE_FIRST_MS) | (out.ms >= _PLAUSIBLE_END_MS))
+    if far.any():
+        pos = np.flatnonzero(far)
+        out.fail(pos, f"the year is outside {PLAUSIBLE_READING_YEAR_MIN}–"
+                 f"{PLAUSIBLE_READING_YEAR_END - 1}, so this cannot be when the reading was "
+                 "logged — correct the year; the row is left out", format_naive_ms(out.ms[pos]))
+        out.ms[pos] = _NAT
     return out
 
 
@@ -642,7 +672,7 @@ def durations_from_seconds(values: RawColumn | None, n: int) -> tuple[np.ndarray
     if values.formula_without_value:
         given[np.fromiter(values.formula_without_value, np.int64)] = True
     with np.errstate(invalid="ignore"):
-        valid = np.isfinite(x) & (x > 0)
+        valid = np.isfinite(x) & (x > 0) & (x <= MAX_INTERVAL_DURATION_S)
     ms = np.zeros(n, np.int64)
     ms[valid] = np.rint(x[valid] * MS_PER_S).astype(np.int64)
     valid &= ms > 0
