@@ -58,6 +58,8 @@ CODES: dict[str, Code] = {
                                            "limit"),
     "cell-date-out-of-range": Code("error", "file", "a date cell beyond any calendar (e.g. "
                                                     "-1E+308) that the reader cannot convert"),
+    "grid-too-large": Code("error", "file", "the readings span more intervals than a results "
+                                            "workbook holds at the settings' interval"),
     "internal-error": Code("error", "file", "a fault in surveytools itself on this file"),
     "output-disk-full": Code("error", "file", "the results of this input could not be written: "
                                               "the disk is full; it is processed again on the "

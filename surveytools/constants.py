@@ -310,3 +310,17 @@ STRAY_READINGS_GAP_DAYS = 31
 #: Largest share of a survey's readings a stray group may hold [1]. Own choice: a wrong
 #: year typed in a few rows, not a survey that resumed after a long break.
 STRAY_READINGS_MAX_FRACTION = 0.05
+
+#: Largest settings file read [B]: 1 MiB. Own choice: a full settings file is a few KiB;
+#: the limit stops ``--settings /dev/zero`` or a mistaken data file from filling memory.
+SETTINGS_MAX_BYTES = 1 << 20
+#: Deepest nesting of tables and arrays in a settings file [levels]. Own choice: the
+#: deepest legitimate value (``assessments[].source_on`` pairs) is 5 levels down.
+SETTINGS_MAX_DEPTH = 8
+#: Shortest reporting or background reference interval [s]. Own choice: a meter's
+#: fastest common logging step is 100 ms, but results per interval below 1 s have no use
+#: in an environmental survey and multiply the grid's size.
+MIN_RESULT_INTERVAL_S = 1.0
+#: Most intervals one results grid may hold [1]. Excel's worksheet holds 1,048,576 rows
+#: ("Excel specifications and limits", Microsoft); the intervals sheet must fit.
+MAX_GRID_INTERVALS = 1_000_000

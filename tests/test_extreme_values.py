@@ -156,3 +156,21 @@ def test_the_raw_text_goes_to_the_debug_log(tmp_path: Path, monkeypatch: pytest.
     assert outcome["status"] == "unreadable"
     assert not RAW_TEXT.search(outcome["findings"][0]["message"])
     assert "Traceback" in log.read_text()
+
+
+def test_a_grid_beyond_the_workbook_row_limit_is_refused_naming_the_key(tmp_path: Path) -> None:
+    from dataclasses import replace
+
+    # 40 daily readings span 40 days = 3,456,000 s; at 1 s that is 3,456,000 intervals,
+    # above MAX_GRID_INTERVALS (1,000,000, under Excel's 1,048,576 rows); hand-evaluated:
+    # the shortest step that fits is ceil(3,456,000 / 1,000,000) = 4 s.
+    path = survey_workbook(tmp_path / "span.xlsx", levels=[50.0] * 40, step_s=86_400)
+    doc, _ = build_document(path, replace(Settings(), reporting_interval_s=1.0))
+    assert doc["status"] == "unreadable"
+    finding = doc["findings"][0]
+    assert finding["code"] == "grid-too-large"
+    assert "reporting_interval = 1 s" in finding["message"]
+    assert "at least 4 s" in finding["message"]
+    # The default 15 min grid holds 3,840 intervals: assessed as usual.
+    ok, _ = build_document(path, Settings())
+    assert ok["status"] in ("ok", "warnings")

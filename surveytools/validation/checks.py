@@ -17,6 +17,7 @@ import pandas as pd
 
 from surveytools.constants import (
     LEVEL_ORDER_TOLERANCE_DB,
+    MAX_GRID_INTERVALS,
     SECONDS_PER_HOUR,
     STRAY_READINGS_GAP_DAYS,
     STRAY_READINGS_MAX_FRACTION,
@@ -601,3 +602,33 @@ def group_labels(labels: Sequence[str], scopes: Sequence[str]) -> dict[tuple[str
     for i, key in enumerate(zip(labels, scopes, strict=True)):
         groups.setdefault(key, []).append(i)
     return groups
+
+
+def grid_size_refusal(start_ms: np.ndarray, duration_ms: np.ndarray,
+                      steps_s: Mapping[str, float]) -> Finding | None:
+    """Return why the survey cannot be assessed on its grids (too many intervals), or None.
+
+    Parameters
+    ----------
+    start_ms, duration_ms : numpy.ndarray of int64
+        Placed readings' starts and lengths [ms].
+    steps_s : mapping of str to float
+        Settings key (``reporting_interval``) -> the grid step it sets [s].
+
+    A grid's size is the readings' span divided by its step; one beyond
+    ``MAX_GRID_INTERVALS`` is refused before any grid is built, naming the key to change.
+    """
+    if start_ms.size == 0:
+        return None
+    span_s = float(np.max(start_ms + duration_ms) - np.min(start_ms)) / _MS_PER_S
+    for key, step in steps_s.items():
+        n = span_s / step
+        if n > MAX_GRID_INTERVALS:
+            need = float(np.ceil(span_s / MAX_GRID_INTERVALS))
+            return Finding(
+                "grid-too-large", Severity.ERROR,
+                f"the readings span {span_s / 86_400:,.1f} days; at {key} = {step:g} s that is "
+                f"{n:,.0f} intervals, more than the {MAX_GRID_INTERVALS:,} a results workbook "
+                f"can hold — set {key} to at least {need:,.0f} s in the settings, or split the "
+                "survey into shorter workbooks")
+    return None
