@@ -252,31 +252,24 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
 
     _settings, key = _load_settings(args.settings)
     cycles = 0
-    seen: set[str] = set()
+    told: set[tuple[str, str, str]] = set()  # skipped/deferred paths already reported
     while True:
         progress = Progress(err, not args.quiet and args.format == "text")
         result = run_batch(options, key, progress, first_slot=early)
         early = None
         progress.finish()
         cycles += 1
+        later_poll = args.watch and cycles > 1
         if args.format == "json":
             out.write(json.dumps(overview_document(result, key), sort_keys=True, indent=1) + "\n")
         else:
-            for o in result.outcomes:
-                if args.watch and (o["path"] in seen):
-                    continue
-                reused = " (unchanged since the last run; results kept)" if o.get("reused") else ""
-                headline = _headline(o)
-                out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}{reused}"
-                          + (f" - {headline}" if headline else "") + "\n")
-                if not o.get("reused"):
-                    _render_findings(out, o, limit=5)
-            for s in result.skipped:
-                if args.watch and s.path in seen:
-                    continue
-                out.write(f"{Path(s.path).name}: {s.status} - {s.reason} [{s.code}]\n")
-            out.write(_summary_line(result.counts(), "Processed")
-                      + f". Results in {options.out_dir}/ (overview.xlsx).\n")
+            changed = _report_cycle(out, result, later_poll, told)
+            if changed or not later_poll:
+                out.write(_summary_line(result.counts(), "Processed")
+                          + f". Results in {options.out_dir}/ (overview.xlsx).\n")
+            if args.watch and cycles == 1:
+                out.write(f"Watching {', '.join(str(p) for p in options.paths)} for new or "
+                          f"changed files every {args.interval:g} s; press Ctrl+C to stop.\n")
         out.flush()
         if result.output_error:
             err.write(f"surveytools: {result.output_error}\n")
@@ -288,11 +281,41 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
         for problem in result.alert_problems:
             err.write(f"surveytools: {problem}\n")
         (out if args.format == "text" else err).flush()
-        seen.update(o["path"] for o in result.outcomes)
-        seen.update(s.path for s in result.skipped if s.status == "skipped")
         if not args.watch or (args.max_cycles and cycles >= args.max_cycles):
             return result.exit_code()
         time.sleep(max(args.interval, 0.1))
+
+
+def _report_cycle(out: TextIO, result: Any, later_poll: bool,
+                  told: set[tuple[str, str, str]]) -> bool:
+    """Print one line per input (only what changed on a later ``--watch`` poll).
+
+    Returns True when anything was printed.
+    """
+    changed = False
+    for o in result.outcomes:
+        if later_poll and o.get("reused"):
+            continue  # unchanged since the poll before: said already
+        codes = ",".join(sorted({f["code"] for f in o.get("findings") or []}))
+        said_outcome = (o["path"], f"{o.get('sha256')}:{o['status']}", codes)
+        if later_poll and said_outcome in told:
+            continue  # an input that fails again the same way (it is retried every poll)
+        told.add(said_outcome)
+        reused = " (unchanged since the last run; results kept)" if o.get("reused") else ""
+        headline = _headline(o)
+        out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}{reused}"
+                  + (f" - {headline}" if headline else "") + "\n")
+        if not o.get("reused"):
+            _render_findings(out, o, limit=5)
+        changed = True
+    for s in result.skipped:
+        said = (s.path, s.status, s.code)
+        if later_poll and said in told:
+            continue
+        told.add(said)
+        out.write(f"{Path(s.path).name}: {s.status} - {s.reason} [{s.code}]\n")
+        changed = True
+    return changed
 
 
 def execute_check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:

@@ -107,6 +107,9 @@ CODES: dict[str, Code] = {
     # --- timestamps ----------------------------------------------------------------------
     "timestamp-stray": Code("error", "cell", "a reading far outside the survey's span (a "
                                             "wrong year or month); the row is left out"),
+    "timestamp-column-unreadable": Code("error", "cell", "most timestamps of a column share one "
+                                                        "problem (e.g. day/month/year text): "
+                                                        "reported once, at the column's header"),
     "timestamp-invalid": Code("error", "cell", "not a date-time (the row cannot be placed "
                                                "in time)"),
     "timestamp-missing": Code("error", "cell", "a row with values but no timestamp"),

@@ -142,7 +142,21 @@ def test_watch_survives_an_input_whose_worker_fails(tmp_path: Path) -> None:
                    cwd=tmp_path)
     assert proc.returncode == 1, proc.stderr
     assert "internal error" not in proc.stderr
-    assert "worker-out-of-memory" in proc.stdout
+    # Retried at every poll, but said once while it fails the same way.
+    assert proc.stdout.count("worker-out-of-memory") == 1
+
+
+@pytest.mark.slow
+def test_watch_says_it_is_watching_once_and_then_only_what_changed(tmp_path: Path) -> None:
+    inputs = tmp_path / "in"
+    inputs.mkdir()
+    survey_workbook(inputs / "a.xlsx")
+    proc = run_cli("run", "in", "-o", "out", "--watch", "--interval", "0.1",
+                   "--max-cycles", "4", "--settle", "0", cwd=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.count("Watching in for new or changed files every 0.1 s") == 1
+    assert proc.stdout.count("Processed ") == 1  # the later polls found nothing new
+    assert proc.stdout.count("a.xlsx:") == 1
 
 
 # --- the output folder ----------------------------------------------------------------
@@ -238,3 +252,83 @@ def test_a_full_disk_at_the_overview_is_reported_not_raised(tmp_path: Path,
     assert result.output_error is not None and "disk is full" in result.output_error
     assert result.exit_code() == 2
     assert BatchResult().exit_code() == 0
+
+
+# --- verify names days, intervals and cells ---------------------------------------------
+
+def test_verify_names_the_day_interval_and_finding_that_differ(tmp_path: Path) -> None:
+    from surveytools.pipeline import run_file
+    from surveytools.settings import Settings
+    from surveytools.verify import verify_results
+
+    path = survey_workbook(tmp_path / "a.xlsx", levels=[60.0] * 12 + ["loud"] + [50.0] * 11)
+    out = tmp_path / "out"
+    out.mkdir()
+    run_file(path, out, "a", Settings())
+    results = out / "a.results.json"
+    doc = json.loads(results.read_text())
+    day = doc["days"][0]
+    day["Lden"] = (day["Lden"] or 0) + 1
+    interval = doc["intervals"][2]
+    interval["LAeq"] = 1.0
+    finding = next(f for f in doc["findings"] if f["row"] is not None)
+    finding["message"] = "changed"
+    results.write_text(json.dumps(doc))
+    diffs, _notes = verify_results(results, path)
+    text = "\n".join(diffs)
+    assert f"days > day {day['date']} > Lden" in text
+    assert f"intervals > interval from {interval['start']} > LAeq" in text
+    assert (f"findings > finding {finding['code']} at {finding['sheet']}!"
+            f"{finding['column']}{finding['row']} > message") in text
+    assert "days.0" not in text and "intervals.2" not in text
+
+
+def test_verify_refuses_a_file_that_is_not_json_in_our_words(tmp_path: Path) -> None:
+    from surveytools.verify import verify_results
+
+    bad = tmp_path / "x.results.json"
+    bad.write_text("{not json")
+    with pytest.raises(SurveyToolsError) as info:
+        verify_results(bad)
+    assert "not JSON at line 1" in str(info.value) and "Expecting" not in str(info.value)
+
+
+# --- saying it once ---------------------------------------------------------------------
+
+def test_a_column_of_day_first_timestamps_is_reported_once(tmp_path: Path) -> None:
+    from datetime import datetime, timedelta
+
+    from surveytools.pipeline import check_file
+    from surveytools.settings import Settings
+
+    start = datetime(2026, 6, 1, 7)
+    lines = ["Start,Duration (s),LAeq (dB)"]
+    lines += [f"{start + timedelta(hours=i):%d/%m/%Y %H:%M},3600,55.0" for i in range(250)]
+    lines.append("2026-06-12 09:00,3600,55.0")  # one row in ISO form is read
+    csv = tmp_path / "log.csv"
+    csv.write_text("\n".join(lines) + "\n")
+    outcome = check_file(csv, Settings()).to_json()
+    codes = [f["code"] for f in outcome["findings"]]
+    assert "timestamp-invalid" not in codes and "findings-truncated" not in codes
+    (column,) = [f for f in outcome["findings"] if f["code"] == "timestamp-column-unreadable"]
+    assert (column["row"], column["column"]) == (1, "A")
+    message = column["message"]
+    assert "250 of 251 timestamps" in message and "'01/06/2026 07:00' in row 2" in message
+    assert "day/month/year" in message and "ISO 8601" in message
+
+
+def test_scattered_bad_timestamps_keep_their_own_findings(tmp_path: Path) -> None:
+    from datetime import datetime, timedelta
+
+    from surveytools.pipeline import check_file
+    from surveytools.settings import Settings
+
+    start = datetime(2026, 6, 1, 7)
+    rows = [f"{start + timedelta(hours=i):%Y-%m-%d %H:%M},3600,55.0" for i in range(40)]
+    rows[5] = "05/06/2026 12:00,3600,55.0"
+    rows[20] = "yesterday,3600,55.0"
+    csv = tmp_path / "log.csv"
+    csv.write_text("Start,Duration (s),LAeq (dB)\n" + "\n".join(rows) + "\n")
+    outcome = check_file(csv, Settings()).to_json()
+    located = sorted(f["row"] for f in outcome["findings"] if f["code"] == "timestamp-invalid")
+    assert located == [7, 22]

@@ -688,8 +688,15 @@ def report_time_problems(
     loc: Localised,
     clock: Clock,
 ) -> None:
-    """Add ``timestamp-invalid``, ``timestamp-nonexistent`` and ``timestamp-ambiguous``."""
+    """Add ``timestamp-invalid``, ``timestamp-nonexistent`` and ``timestamp-ambiguous``.
+
+    A problem shared by most of the column (every timestamp written day/month/year) is
+    reported once, as ``timestamp-column-unreadable``; per-cell findings stay for the
+    scattered rest.
+    """
     bad = np.flatnonzero(naive.flagged)
+    if bad.size:
+        bad = _report_column_wide(collector, sheet, first_row, letter, naive, bad)
     if bad.size:
         msgs = [f"{_quote(naive.raw[i])}{naive.problem[i]}" for i in bad[:collector.max_per_code]]
         collector.add_rows("timestamp-invalid", Severity.ERROR, sheet, bad + first_row,
@@ -716,3 +723,43 @@ def report_time_problems(
 
 def _quote(raw: object) -> str:
     return "" if raw is None else f"'{str(raw)[:_MAX_QUOTE]}': "
+
+
+#: A timestamp problem is reported once for the column when it affects at least this many
+#: rows and this share of the column's non-empty cells. Own choice.
+COLUMN_WIDE_MIN_ROWS = 10
+COLUMN_WIDE_MIN_FRACTION = 0.5
+_DAY_FIRST = re.compile(r"^\s*\d{1,2}[./-]\d{1,2}[./-]\d{2,4}\b")
+
+
+def _report_column_wide(collector: FindingCollector, sheet: str, first_row: int,
+                        letter: str | None, naive: NaiveTimes, bad: np.ndarray) -> np.ndarray:
+    """Report the column's dominant timestamp problem once; return the positions left over.
+
+    The rows stay unplaced (left out) all the same; only the reporting is folded into one
+    finding naming the column, how many rows, an example and the fix.
+    """
+    filled = int(np.count_nonzero(~naive.empty))
+    if bad.size < COLUMN_WIDE_MIN_ROWS or bad.size < COLUMN_WIDE_MIN_FRACTION * filled:
+        return bad
+    reasons = pd.Series(naive.problem[bad], dtype=object).astype(str)
+    top = reasons.value_counts()
+    reason, count = str(top.index[0]), int(top.iloc[0])
+    if count < COLUMN_WIDE_MIN_ROWS or count < COLUMN_WIDE_MIN_FRACTION * filled:
+        return bad
+    same = bad[(reasons == reason).to_numpy()]
+    raw = pd.Series(naive.raw[same], dtype=object).astype(str)
+    day_first = raw.str.match(_DAY_FIRST).to_numpy()
+    example = f"'{str(naive.raw[same[0]])[:_MAX_QUOTE]}' in row {same[0] + first_row}"
+    where = f"column {letter}" if letter else "the time column"
+    if day_first.mean() >= COLUMN_WIDE_MIN_FRACTION:
+        why = ("they are written day/month/year (or month/day/year), an order that cannot be "
+               "told apart for days 1-12 and is never guessed — format the column as date-time "
+               "cells, or write ISO 8601 text such as 2026-07-03 22:00:00, and run again")
+    else:
+        why = reason
+    collector.add(Finding(
+        "timestamp-column-unreadable", Severity.ERROR,
+        f"{where}: {count:,} of {filled:,} timestamps cannot be read (e.g. {example}): {why}; "
+        "these rows are left out", sheet, max(first_row - 1, 1), letter))
+    return np.setdiff1d(bad, same, assume_unique=True)
