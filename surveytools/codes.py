@@ -60,6 +60,8 @@ CODES: dict[str, Code] = {
                                                     "-1E+308) that the reader cannot convert"),
     "grid-too-large": Code("error", "file", "the readings span more intervals than a results "
                                             "workbook holds at the settings' interval"),
+    "strings-count-implausible": Code("error", "file", "the shared-strings part declares more "
+                                                       "text values than it can hold"),
     "internal-error": Code("error", "file", "a fault in surveytools itself on this file"),
     "output-disk-full": Code("error", "file", "the results of this input could not be written: "
                                               "the disk is full; it is processed again on the "
