@@ -224,10 +224,17 @@ def judge_batch(paths: list[Path], timeout: float) -> list[str]:
 
 def judge_settings(folder: Path, base: Path, timeout: float) -> list[str]:
     """Run ``check`` with each settings mutant; return the broken rules."""
+    import os
+
     problems = []
-    for k, text in enumerate(SETTINGS_MUTANTS):
-        s = folder / f"settings_{k}.toml"
+    special: list[tuple[str, Path]] = [("/dev/zero", Path("/dev/zero"))]
+    if hasattr(os, "mkfifo"):
+        os.mkfifo(folder / "fifo.toml")
+        special.append(("a FIFO", folder / "fifo.toml"))
+    cases = [(text, folder / f"settings_{k}.toml") for k, text in enumerate(SETTINGS_MUTANTS)]
+    for text, s in cases:
         s.write_text(text, encoding="utf-8", errors="replace")
+    for k, (text, s) in enumerate(cases + special):
         try:
             proc = surveytools("check", str(base), "--settings", str(s), "--settle", "0",
                                timeout=timeout)
