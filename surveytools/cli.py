@@ -381,6 +381,13 @@ def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sy
     except KeyboardInterrupt:
         err.write("surveytools: interrupted\n")
         return EXIT_DATA
+    except BrokenPipeError:  # the reader of our output went away (`surveytools ... | head`)
+        try:
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+        except (OSError, ValueError):
+            pass
+        return EXIT_DATA
     except Exception as exc:  # a fault of the tool itself: say so plainly, no traceback
         err.write(f"surveytools: internal error ({type(exc).__name__}: {str(exc)[:300]}). "
                   "Results already written are complete; please report this with the "

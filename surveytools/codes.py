@@ -109,6 +109,9 @@ CODES: dict[str, Code] = {
     # --- timestamps ----------------------------------------------------------------------
     "timestamp-stray": Code("error", "cell", "a reading far outside the survey's span (a "
                                             "wrong year or month); the row is left out"),
+    "column-not-numbers": Code("error", "cell", "most cells of a level or weather column are "
+                                               "text (decimal commas, units in the cells): "
+                                               "reported once, at the column's header"),
     "timestamp-column-unreadable": Code("error", "cell", "most timestamps of a column share one "
                                                         "problem (e.g. day/month/year text): "
                                                         "reported once, at the column's header"),

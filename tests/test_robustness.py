@@ -332,3 +332,45 @@ def test_scattered_bad_timestamps_keep_their_own_findings(tmp_path: Path) -> Non
     outcome = check_file(csv, Settings()).to_json()
     located = sorted(f["row"] for f in outcome["findings"] if f["code"] == "timestamp-invalid")
     assert located == [7, 22]
+
+
+@pytest.mark.parametrize(("cell", "cause"), [
+    ("55 dB", "the unit is written in every cell"),
+    ('"55,3"', "decimal commas"),
+])
+def test_a_column_of_text_levels_is_reported_once(tmp_path: Path, cell: str, cause: str
+                                                  ) -> None:
+    from datetime import datetime, timedelta
+
+    from surveytools.pipeline import check_file
+    from surveytools.settings import Settings
+
+    start = datetime(2026, 6, 1, 7)
+    rows = [f"{start + timedelta(hours=i):%Y-%m-%d %H:%M},3600,{cell}" for i in range(60)]
+    csv = tmp_path / "log.csv"
+    csv.write_text("Start,Duration (s),LAeq (dB)\n" + "\n".join(rows) + "\n")
+    outcome = check_file(csv, Settings()).to_json()
+    codes = [f["code"] for f in outcome["findings"]]
+    assert "level-not-a-number" not in codes
+    (column,) = [f for f in outcome["findings"] if f["code"] == "column-not-numbers"]
+    assert (column["row"], column["column"]) == (1, "C")
+    assert "60 of 60 cells" in column["message"] and "row 2" in column["message"]
+    assert cause in column["message"]
+
+
+@pytest.mark.slow
+def test_output_cut_short_by_the_reader_is_not_an_internal_error(tmp_path: Path) -> None:
+    from datetime import datetime, timedelta
+
+    start = datetime(2026, 6, 1, 7)
+    rows = [f"{start + timedelta(hours=i):%Y-%m-%d %H:%M},3600,oops" for i in range(3)]
+    rows += [f"{start + timedelta(hours=i):%Y-%m-%d %H:%M},3600,5{i % 10}x"
+             for i in range(3, 400, 40)]
+    (tmp_path / "log.csv").write_text("Start,Duration (s),LAeq (dB)\n" + "\n".join(rows) + "\n")
+    reader = subprocess.Popen([sys.executable, "-m", "surveytools", "check", "log.csv"],
+                              cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    assert reader.stdout is not None
+    reader.stdout.close()  # the reader is gone before anything is written (`| head -0`)
+    _out, err = reader.communicate(timeout=120)
+    assert reader.returncode == 1
+    assert b"internal error" not in err and b"Traceback" not in err

@@ -151,6 +151,11 @@ def read_numbers(
                 [f"'{_clip(v)}' marks an overload: the row is flagged as overloaded and "
                  "the cell counts as empty" for v in tm])
         bad = ~is_marker
+        filled = int(np.count_nonzero(~np.isnan(x))) + pos.size
+        if bad.any() and _column_wide(int(np.count_nonzero(bad)), filled):
+            _report_column_not_numbers(collector, where, col, pos[bad] + rows0, t[bad],
+                                       comma[bad], filled, what, unit)
+            bad = np.zeros_like(bad)
         if bad.any():
             room = collector.room(f"{code_prefix}-not-a-number")
             tb = t[bad].iloc[:room].tolist()
@@ -188,6 +193,40 @@ def read_numbers(
         x[pos] = np.nan
         rejected[pos] = True
     return Numbers(x, rejected, marker)
+
+
+#: A problem is reported once for a column when it affects at least this many cells and
+#: this share of the column's filled cells (same rule as timestamps, see
+#: ``timebase.COLUMN_WIDE_MIN_ROWS``). Own choice.
+COLUMN_WIDE_MIN_CELLS = 10
+COLUMN_WIDE_MIN_FRACTION = 0.5
+_NUMBER_WITH_UNIT = re.compile(r"^\s*[+-]?\d+(?:[.,]\d+)?\s*[A-Za-z%()/]+\s*$")
+
+
+def _column_wide(count: int, filled: int) -> bool:
+    return count >= COLUMN_WIDE_MIN_CELLS and count >= COLUMN_WIDE_MIN_FRACTION * filled
+
+
+def _report_column_not_numbers(collector: FindingCollector, where: Where, col: RawColumn,
+                               rows: np.ndarray, texts: pd.Series, comma: np.ndarray,
+                               filled: int, what: str, unit: str) -> None:
+    """Report once that most of a number column is text, naming the likely cause and fix."""
+    count = rows.size
+    example = f"'{_clip(str(texts.iloc[0]))}' in row {rows[0]}"
+    if comma.mean() >= COLUMN_WIDE_MIN_FRACTION:
+        fix = ("the column uses decimal commas — write decimal points, or export with '.' "
+               "as the decimal separator")
+    elif texts.str.fullmatch(_NUMBER_WITH_UNIT).mean() >= COLUMN_WIDE_MIN_FRACTION:
+        fix = (f"the unit is written in every cell — keep only the number (the unit {unit} "
+               "belongs in the header)")
+    else:
+        fix = f"enter {what} in {unit} as a number, or leave the cell empty"
+    header = f" ({col.header})" if col.header else ""
+    collector.add(Finding(
+        "column-not-numbers", Severity.ERROR,
+        f"column {col.letter}{header}: {count:,} of {filled:,} cells are not {what} in {unit} "
+        f"(e.g. {example}): {fix}; these cells count as empty", where.sheet,
+        max(where.first_row - 1, 1), col.letter))
 
 
 def check_level_range(
