@@ -100,3 +100,11 @@ def test_the_cli_refuses_a_pipe_as_settings_with_exit_2(tmp_path: Path) -> None:
     assert proc.returncode == 2
     assert "fifo.toml" in proc.stderr and "a pipe" in proc.stderr
     assert "internal error" not in proc.stderr
+
+
+def test_a_bad_column_mapping_is_named_as_the_readme_names_it(tmp_path: Path) -> None:
+    # README: header spellings are mapped in the [columns] table; the message uses that name.
+    path = tmp_path / "s.toml"
+    path.write_text('[columns]\nLeq = "Nonsense"\n')
+    message = _refused(path)
+    assert "columns.Leq" in message and "column_map" not in message
