@@ -129,7 +129,7 @@ def test_verify_passes_on_the_original_and_fails_on_an_altered_reading(tmp_path:
     bad = run_cli("verify", str(out / "v.results.json"), "--input", str(altered), cwd=tmp_path)
     assert bad.returncode == 1
     assert "input > sha256" in bad.stdout
-    assert "overall.LAeq" in bad.stdout
+    assert "overall > LAeq" in bad.stdout
 
 
 def test_check_reports_located_findings_as_text_and_json(tmp_path: Path) -> None:
