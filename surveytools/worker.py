@@ -218,7 +218,7 @@ def _is_output_fault(exc: OSError, out_dir: Path) -> bool:
 
     if exc.errno in (errno.ENOSPC, errno.EDQUOT, errno.EFBIG, errno.EROFS):
         return True
-    names = [n for n in (exc.filename, exc.filename2) if n]
+    names = [n for n in (exc.filename, exc.filename2) if isinstance(n, str | bytes) and n]
     return any(Path(os.fsdecode(n)).parent == out_dir for n in names)
 
 
