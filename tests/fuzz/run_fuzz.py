@@ -193,17 +193,28 @@ def make_mutants(folder: Path, count: int, rng: random.Random) -> list[Path]:
     return out
 
 
+#: Where the runs' debug log goes (a library's raw text behind each message), set by main.
+DEBUG_LOG: Path | None = None
+
+
 def surveytools(*args: str, timeout: float) -> subprocess.CompletedProcess[str]:
     """Run the command line (a fresh interpreter, as a user would)."""
+    import os
+
+    env = dict(os.environ)
+    if DEBUG_LOG is not None:
+        env["SURVEYTOOLS_DEBUG_LOG"] = str(DEBUG_LOG)
     return subprocess.run([sys.executable, "-m", "surveytools", *args], capture_output=True,
-                          text=True, timeout=timeout, check=False, cwd=ROOT)
+                          text=True, timeout=timeout, check=False, cwd=ROOT, env=env)
 
 
-def judge_batch(paths: list[Path], timeout: float) -> list[str]:
-    """Check a batch of inputs; return the broken rules, one line each."""
+def judge_batch(paths: list[Path], timeout: float, mode: str = "run",
+                out: Path | None = None) -> list[str]:
+    """Process a batch of inputs (``run`` or ``check``); return the broken rules, one each."""
     problems = []
+    extra = ["-o", str(out)] if mode == "run" and out is not None else []
     try:
-        proc = surveytools("check", *map(str, paths), "--format", "json", "--settle", "0",
+        proc = surveytools(mode, *map(str, paths), *extra, "--format", "json", "--settle", "0",
                            "--timeout", "60", "--memory-limit", "1", timeout=timeout)
     except subprocess.TimeoutExpired:
         return [f"batch of {len(paths)} from {paths[0].name}: no answer in {timeout:g} s"]
@@ -213,7 +224,14 @@ def judge_batch(paths: list[Path], timeout: float) -> list[str]:
         return problems
     doc = json.loads(proc.stdout)
     for rec in doc["inputs"]:
-        for f in rec.get("findings") or []:
+        findings = rec.get("findings")
+        if mode == "run":  # the overview holds totals: the findings are in each results file
+            findings = []
+            if out is not None and rec.get("results_json"):
+                findings = json.loads((out / rec["results_json"]).read_text())["findings"]
+            elif rec.get("reason"):
+                findings = [{"code": "?", "message": rec["reason"]}]
+        for f in findings or []:
             if f["code"] == "internal-error":
                 problems.append(f"{rec['file']}: internal-error: {f['message'][:200]}")
             elif RAW_TEXT.search(f["message"]):
@@ -257,10 +275,14 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--seed", type=int, default=1)
     parser.add_argument("--batch", type=int, default=25, help="inputs per command run")
     parser.add_argument("--keep", action="store_true", help="keep the mutants' folder")
+    parser.add_argument("--mode", choices=("run", "check"), default="run",
+                        help="run (validate, assess and write; default) or check only")
     args = parser.parse_args(argv)
     rng = random.Random(args.seed)
     started = time.monotonic()
     folder = Path(tempfile.mkdtemp(prefix="surveytools-fuzz-"))
+    global DEBUG_LOG
+    DEBUG_LOG = folder / "debug.log"
     problems: list[str] = []
     try:
         paths = make_mutants(folder, min(args.count, 5000), rng)
@@ -270,7 +292,8 @@ def main(argv: list[str] | None = None) -> int:
                 print(f"time limit reached after {done} inputs")
                 break
             chunk = paths[i:i + args.batch]
-            problems += judge_batch(chunk, timeout=max(60.0, 30.0 * len(chunk)))
+            problems += judge_batch(chunk, timeout=max(60.0, 30.0 * len(chunk)),
+                                    mode=args.mode, out=folder / "_results")
             done += len(chunk)
         if time.monotonic() - started <= args.seconds:
             problems += judge_settings(folder, folder / "_seed" / "base.xlsx", timeout=60)
@@ -278,6 +301,9 @@ def main(argv: list[str] | None = None) -> int:
               f"{time.monotonic() - started:.0f} s; {len(problems)} problem(s)")
         for p in problems:
             print("  " + p)
+        if problems and DEBUG_LOG.exists():  # the raw text behind the messages
+            print("debug log (last 4000 characters):")
+            print(DEBUG_LOG.read_text(encoding="utf-8", errors="replace")[-4000:])
     finally:
         if args.keep:
             print(f"mutants kept in {folder}")
