@@ -7,6 +7,7 @@ was logged is a located error and its row is left out; the rest of the survey is
 
 from __future__ import annotations
 
+import json
 import re
 import zipfile
 from datetime import datetime
@@ -66,6 +67,9 @@ def test_a_wrong_year_inside_the_plausible_years_is_a_stray_reading(tmp_path: Pa
     assert "2016-06-01 10:00:00" in message and "3,652 days" in message  # 2016-06-01..2026-06-01
     assert [u["reason"] for u in doc["unplaced"]] == ["timestamp-stray"]
     assert doc["coverage"]["measured_s"] == 23 * 3600
+    from surveytools.outputs.results_json import validate_results
+
+    assert validate_results(json.loads(json.dumps(doc))) == []  # the JSON contract holds
 
 
 def test_a_survey_resumed_after_a_long_break_is_kept_whole(tmp_path: Path) -> None:
@@ -171,6 +175,9 @@ def test_a_grid_beyond_the_workbook_row_limit_is_refused_naming_the_key(tmp_path
     assert finding["code"] == "grid-too-large"
     assert "reporting_interval = 1 s" in finding["message"]
     assert "at least 4 s" in finding["message"]
+    from surveytools.outputs.results_json import validate_results
+
+    assert validate_results(json.loads(json.dumps(doc))) == []
     # The default 15 min grid holds 3,840 intervals: assessed as usual.
     ok, _ = build_document(path, Settings())
     assert ok["status"] in ("ok", "warnings")
