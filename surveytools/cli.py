@@ -303,7 +303,10 @@ def _report_cycle(out: TextIO, result: Any, later_poll: bool,
         told.add(said_outcome)
         reused = " (unchanged since the last run; results kept)" if o.get("reused") else ""
         headline = _headline(o)
-        out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}{reused}"
+        words = STATUS_WORDS.get(o["status"], o["status"])
+        if any(f["code"].startswith("output-") for f in o.get("findings") or []):
+            words = "read, but its results could not be written"
+        out.write(f"{o['file']}: {words}{reused}"
                   + (f" - {headline}" if headline else "") + "\n")
         if not o.get("reused"):
             _render_findings(out, o, limit=5)

@@ -374,3 +374,18 @@ def test_output_cut_short_by_the_reader_is_not_an_internal_error(tmp_path: Path)
     _out, err = reader.communicate(timeout=120)
     assert reader.returncode == 1
     assert b"internal error" not in err and b"Traceback" not in err
+
+
+def test_an_input_whose_results_could_not_be_written_is_not_called_unreadable() -> None:
+    import io
+
+    from surveytools.batch import write_failure
+    from surveytools.cli import _report_cycle
+
+    outcome = write_failure(Path("/data/a.xlsx"), Path("/results"),
+                            OSError(errno.ENOSPC, "No space left on device"))
+    out = io.StringIO()
+    _report_cycle(out, BatchResult(outcomes=[outcome]), later_poll=False, told=set())
+    text = out.getvalue()
+    assert text.startswith("a.xlsx: read, but its results could not be written")
+    assert "could not be read" not in text and "[output-disk-full]" in text
