@@ -635,16 +635,18 @@ class _OnceInBackground:
 def _run_batch(options: BatchOptions, settings_key: str,
                progress: Callable[[int, int, str], None] | None, result: BatchResult,
                first_slot: WorkerSlot) -> BatchResult:
+    out_dir = options.out_dir
+    if options.mode == "run":  # before anything else: finding inputs, waiting for copies
+        assert out_dir is not None
+        check_output_folder(out_dir)
     candidates, skipped = discover(options.paths)
     result.skipped.extend(skipped)
     ready, deferred = settle(candidates, options.settle_s)
     result.skipped.extend(deferred)
     stems = output_stems(ready)
-    out_dir = options.out_dir
     manifest: dict[str, Any] = {}
     if options.mode == "run":
         assert out_dir is not None
-        check_output_folder(out_dir)
         from surveytools.outputs.atomic import remove_stale_parts
 
         remove_stale_parts(out_dir)
