@@ -347,9 +347,16 @@ def execute_check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     return result.exit_code()
 
 
-def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sys.stderr) -> int:
-    """Execute parsed arguments; return the exit code. Errors of our own inputs -> 2."""
+def execute(args: argparse.Namespace, out: TextIO | None = None,
+            err: TextIO | None = None) -> int:
+    """Execute parsed arguments; return the exit code. Errors of our own inputs -> 2.
+
+    ``out`` and ``err`` default to the standard streams as they are at the call.
+    """
     from surveytools.errors import SurveyToolsError
+
+    out = sys.stdout if out is None else out
+    err = sys.stderr if err is None else err
 
     try:
         if args.command == "run":
