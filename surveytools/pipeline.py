@@ -155,6 +155,11 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     from surveytools.validation import build_survey
 
     survey = build_survey(raw, settings, shared_weather=weather)
+    too_large = _grid_refusal(survey, settings)
+    if too_large is not None:  # refused before any grid is allocated
+        doc = unreadable_document(source, [too_large, *survey.findings], settings)
+        doc["provenance"] = library_versions()
+        return doc, None
     sections = assess(survey, settings)
     doc = document_header(source, settings, survey.findings, survey.finding_counts)
     doc["provenance"] = library_versions()
@@ -167,6 +172,19 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     if output.include_readings or len(survey.readings) <= output.readings_row_limit:
         annotations = reading_annotations(survey, with_levels=True)
     return doc, annotations
+
+
+def _grid_refusal(survey: Any, settings: Settings) -> Finding | None:
+    """Return the refusal of a survey whose result grids would be too large, or None."""
+    from surveytools.validation.checks import grid_size_refusal
+
+    readings = survey.readings
+    steps = {"reporting_interval": settings.reporting_interval_s,
+             "background.reference_interval_day": settings.background.reference_interval_day_s,
+             "background.reference_interval_night":
+                 settings.background.reference_interval_night_s}
+    return grid_size_refusal(readings["start_ms"].to_numpy(), readings["duration_ms"].to_numpy(),
+                             steps)
 
 
 def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: str | None

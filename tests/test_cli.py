@@ -132,8 +132,8 @@ def test_verify_passes_on_the_original_and_fails_on_an_altered_reading(tmp_path:
     wb.save(altered)
     bad = run_cli("verify", str(out / "v.results.json"), "--input", str(altered), cwd=tmp_path)
     assert bad.returncode == 1
-    assert "input.sha256" in bad.stdout
-    assert "overall.LAeq" in bad.stdout
+    assert "input > sha256" in bad.stdout
+    assert "overall > LAeq" in bad.stdout
 
 
 def test_check_reports_located_findings_as_text_and_json(tmp_path: Path) -> None:
@@ -392,7 +392,7 @@ def test_run_with_a_shared_weather_file(tmp_path: Path) -> None:
     wind[5] = 2.0
     station_workbook(station, datetime(2026, 6, 1, 6, 0), wind)
     changed = run_cli("verify", str(out / "north.results.json"), cwd=tmp_path)
-    assert changed.returncode == 1 and "weather_file.sha256" in changed.stdout
+    assert changed.returncode == 1 and "weather_file > sha256" in changed.stdout
     missing = run_cli("run", str(drop), "-o", str(out), "--weather", str(tmp_path / "no.csv"),
                       cwd=tmp_path)
     assert missing.returncode == 2 and "--weather" in missing.stderr
