@@ -212,7 +212,24 @@ def _render_findings(out: TextIO, outcome: dict[str, Any], limit: int | None) ->
             break
 
 
-def _summary_line(counts: dict[str, int], verb: str) -> str:
+def _summary_line(counts: dict[str, int], verb: str,
+                  outcomes: list[dict[str, Any]] | None = None) -> str:
+    """Return the closing line of a run or check.
+
+    With ``outcomes`` (a run), the counts are the data quality each input's verdict states
+    (so the line agrees with the per-input lines and the Summary), led by how many
+    positions did not meet their criteria.
+    """
+    counts = dict(counts)
+    not_met = 0
+    if outcomes is not None:
+        for o in outcomes:
+            verdict = (o.get("overview") or {}).get("verdict") or {}
+            quality = verdict.get("data_quality")
+            if quality in counts and quality != o["status"]:
+                counts[o["status"]] -= 1
+                counts[quality] += 1
+            not_met += bool(verdict.get("criteria_not_met"))
     total = sum(counts.values()) - counts.get("skipped", 0)
     parts = [f"{counts.get('ok', 0)} ok", f"{counts.get('warnings', 0)} with warnings",
              f"{counts.get('errors', 0)} with errors", f"{counts.get('unreadable', 0)} unreadable"]
@@ -220,7 +237,12 @@ def _summary_line(counts: dict[str, int], verb: str) -> str:
         parts.append(f"{counts['deferred']} deferred")
     if counts.get("skipped"):
         parts.append(f"{counts['skipped']} skipped")
-    return f"{verb} {total} file{'s' if total != 1 else ''}: " + ", ".join(parts)
+    head = f"{verb} {total} file{'s' if total != 1 else ''}: "
+    if outcomes is None:
+        return head + ", ".join(parts)
+    criteria = (f"criteria not met at {not_met} of {len(outcomes)} "
+                f"input{'s' if len(outcomes) != 1 else ''}; ")
+    return head + criteria + "data quality " + ", ".join(parts)
 
 
 def _batch_options(args: argparse.Namespace, mode: str) -> Any:
@@ -284,7 +306,7 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
         else:
             changed = _report_cycle(out, result, later_poll, told)
             if changed or not later_poll:
-                out.write(_summary_line(result.counts(), "Processed")
+                out.write(_summary_line(result.counts(), "Processed", result.outcomes)
                           + f". Results in {options.out_dir}/ (overview.xlsx).\n")
             if args.watch and cycles == 1:
                 out.write(f"Watching {', '.join(str(p) for p in options.paths)} for new or "
