@@ -88,6 +88,10 @@ def build_parser() -> argparse.ArgumentParser:
 
     template = sub.add_parser("template", help="write a blank input workbook with guidance")
     template.add_argument("file", type=Path, metavar="FILE")
+
+    from surveytools.archive.command import add_parser as add_archive_parser
+
+    add_archive_parser(sub)
     return parser
 
 
@@ -280,6 +284,10 @@ def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sy
             return execute_run(args, out, err)
         if args.command == "check":
             return execute_check(args, out, err)
+        if args.command == "archive":
+            from surveytools.archive.command import execute_archive
+
+            return execute_archive(args, out, err)
         if args.command == "verify":
             from surveytools.verify import execute_verify
 

@@ -12,7 +12,7 @@ of the configured scheme (``scheme_hours``), as the Directive's formula does.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, tzinfo
 from typing import Any
 
 import numpy as np
@@ -126,8 +126,14 @@ def penalised(levels: FloatArray, scheme: PeriodScheme) -> FloatArray:
 
 def all_scheme_times(ctx: Context) -> list[list[str]]:
     """Local start times of every scheme: Lden, Ldn, CNEL and the 16 h / 8 h pair."""
-    p = ctx.settings.periods
-    return [scheme_times(p.lden), scheme_times(p.ldn), scheme_times(p.cnel), _pair_times(ctx)]
+    return scheme_times_of(ctx.settings)
+
+
+def scheme_times_of(settings: Settings) -> list[list[str]]:
+    """Local start times of every scheme of the settings (see :func:`all_scheme_times`)."""
+    p = settings.periods
+    return [scheme_times(p.lden), scheme_times(p.ldn), scheme_times(p.cnel),
+            [p.laeq16_start, p.laeq16_end, p.laeq16_end]]
 
 
 def _pair_times(ctx: Context) -> list[str]:
@@ -138,10 +144,15 @@ def _pair_times(ctx: Context) -> list[str]:
 
 def period_of_instants(ctx: Context, instants_ms: IntArray) -> list[str]:
     """Lden period (``day``/``evening``/``night``) holding each instant."""
-    if not ctx.candidate_days:
+    return lden_period_names(ctx.candidate_days, ctx.settings, ctx.tz, instants_ms)
+
+
+def lden_period_names(days: list[date], settings: Settings, tz: tzinfo, instants_ms: IntArray
+                      ) -> list[str]:
+    """Lden period (``day``/``evening``/``night``) of each instant, on candidate ``days``."""
+    if not days:
         return []
-    bounds = day_offset_boundaries(ctx.candidate_days, scheme_times(ctx.settings.periods.lden),
-                                   ctx.tz)
+    bounds = day_offset_boundaries(days, scheme_times(settings.periods.lden), tz)
     segment = np.searchsorted(bounds, instants_ms, side="right")
     names = np.array(PERIOD_NAMES, dtype=object)
     return list(names[(segment - 1) % N_PERIODS])
