@@ -40,3 +40,14 @@ def write_settings(path: Path, position: str, extra: str = "") -> Path:
     path.write_text(f'[survey]\nposition = "{position}"\ntime_zone = "Europe/Berlin"\n{extra}',
                     encoding="utf-8")
     return path
+
+
+def cli(*args: str) -> tuple[int, str, str]:
+    """Run the command line in this process; return (exit code, stdout, stderr)."""
+    import io
+
+    from surveytools.cli import build_parser, execute
+
+    out, err = io.StringIO(), io.StringIO()
+    code = execute(build_parser().parse_args(list(args)), out, err)
+    return code, out.getvalue(), err.getvalue()
