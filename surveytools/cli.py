@@ -44,7 +44,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     def common(p: argparse.ArgumentParser) -> None:
         p.add_argument("paths", nargs="+", type=Path, metavar="PATH",
-                       help="survey workbooks (.xlsx, .xlsm, .csv) or folders holding them")
+                       help="survey workbooks (.xlsx, .xlsm, .csv, .parquet) or folders "
+                            "holding them")
         p.add_argument("--settings", type=Path, metavar="FILE", help="settings file (TOML)")
         p.add_argument("--jobs", type=int, default=os.cpu_count() or 1, metavar="N",
                        help="inputs processed at once (default: number of cores)")

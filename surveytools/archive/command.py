@@ -60,7 +60,7 @@ def add_parser(sub: Any) -> None:
 
 
 def _bar(stream: TextIO, enabled: bool) -> Any:
-    """A one-line progress bar on a terminal; silent elsewhere."""
+    """Return a one-line progress bar on a terminal (silent elsewhere)."""
     start = time.monotonic()
     show = enabled and stream.isatty()
 
@@ -144,8 +144,7 @@ def execute_report(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
 
 def write_report(out_dir: Path, doc: dict[str, Any]) -> list[Path]:
     """Write ``archive-report.xlsx`` then ``archive-report.json`` atomically."""
-    from surveytools.outputs.archive_report import write_archive_report_json, \
-        write_archive_workbook
+    from surveytools.outputs.archive_report import write_archive_report_json, write_archive_workbook
     from surveytools.outputs.atomic import atomic_path
 
     out_dir.mkdir(parents=True, exist_ok=True)

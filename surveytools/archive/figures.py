@@ -111,7 +111,7 @@ def _year_span(key: int) -> tuple[date, date]:
 
 
 def interval_rows(parts: PositionParts, settings: Settings, tz: tzinfo) -> list[dict[str, Any]]:
-    """Reporting intervals as ``run`` lists them (the keys the criteria use)."""
+    """Return the reporting intervals as ``run`` lists them (the keys criteria use)."""
     iv = parts.intervals
     if iv.start_ms.size == 0:
         return []

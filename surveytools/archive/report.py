@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
 from typing import Any
 
-from surveytools.archive.store import RECORDS_FILE, ArchiveError, IngestRecord, LAYOUT_VERSION
+from surveytools.archive.store import LAYOUT_VERSION, RECORDS_FILE, ArchiveError, IngestRecord
 from surveytools.archive.window import DateWindow
 from surveytools.assessment.parts import PositionParts
 from surveytools.settings import Settings
@@ -61,14 +61,14 @@ class ReportOptions:
 
 
 def _filesystem(archive: str) -> tuple[Any, str]:
-    """The fsspec filesystem and root path of an archive folder or URL.
+    """Return the fsspec filesystem and root path of an archive folder or URL.
 
     Raises
     ------
     ArchiveError
         If the URL's filesystem package is not installed.
     """
-    from fsspec.core import url_to_fs
+    from fsspec.core import url_to_fs  # type: ignore[import-untyped]
 
     try:
         fs, root = url_to_fs(archive)
@@ -146,7 +146,7 @@ def partition_tasks(archive: str, records: list[IngestRecord], options: ReportOp
 
 
 def _read_partition(task: PartitionTask) -> Any:
-    """The partition's readings as one pandas DataFrame sorted by start."""
+    """Return the partition's readings as one pandas DataFrame sorted by start."""
     import pandas as pd
     import pyarrow.parquet as pq
     from fsspec.core import url_to_fs
@@ -171,7 +171,8 @@ def partition_parts(task: PartitionTask, settings: Settings, window: DateWindow
     from surveytools.provenance import SourceInfo
     from surveytools.survey import Exclusion, Survey
 
-    metadata = {"position": task.position, "clock": task.clock, "time_zone": task.time_zone}
+    metadata: dict[str, object] = {"position": task.position, "clock": task.clock,
+                                   "time_zone": task.time_zone}
     tz = position_tz(metadata)
     frame = _read_partition(task)
     low, high = window.instants_ms(settings.periods.lden.day_start, tz)
@@ -199,7 +200,7 @@ def partition_parts(task: PartitionTask, settings: Settings, window: DateWindow
 
 @contextmanager
 def dask_client(options: ReportOptions) -> Iterator[Any]:
-    """A Dask client: on the named scheduler, or on an embedded local cluster.
+    """Yield a Dask client: on the named scheduler, or on an embedded local cluster.
 
     Raises
     ------
@@ -251,8 +252,7 @@ def compute_parts(tasks: list[PartitionTask], options: ReportOptions,
         futures = client.map(partition_parts, tasks, settings=options.settings,
                              window=options.window, pure=False)
         which = {future.key: task for future, task in zip(futures, tasks, strict=True)}
-        done = 0
-        for future in as_completed(futures):
+        for done, future in enumerate(as_completed(futures), start=1):
             task = which[future.key]
             try:
                 parts = future.result()
@@ -264,7 +264,6 @@ def compute_parts(tasks: list[PartitionTask], options: ReportOptions,
             if parts is not None:
                 before = merged.get(task.position)
                 merged[task.position] = parts if before is None else before + parts
-            done += 1
             if progress is not None:
                 progress(done, len(tasks))
     return merged, problems
@@ -291,7 +290,7 @@ def build_report(options: ReportOptions,
     positions = []
     for position in sorted(merged):
         clock, zone = clocks[position]
-        tz = position_tz({"clock": clock, "time_zone": zone})
+        tz = position_tz(dict[str, object](clock=clock, time_zone=zone))
         section = position_section(position, merged[position], options.settings, tz,
                                    options.window)
         section["clock"] = clock
@@ -322,7 +321,7 @@ def build_report(options: ReportOptions,
 
 
 def parse_date(text: str, option: str) -> date:
-    """A ``YYYY-MM-DD`` option value.
+    """Return the date of a ``YYYY-MM-DD`` option value.
 
     Raises
     ------

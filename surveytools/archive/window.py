@@ -21,7 +21,7 @@ class DateWindow:
             self.last is None or day <= self.last)
 
     def clip(self, first: date, last: date) -> tuple[date, date]:
-        """A span of days cut to the window."""
+        """Return a span of days cut to the window."""
         if self.first is not None:
             first = max(first, self.first)
         if self.last is not None:

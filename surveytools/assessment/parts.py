@@ -64,7 +64,7 @@ def _rescale(energy: FloatArray, from_db: float, to_db: float) -> FloatArray:
 
 
 def _common_reference(a: float, b: float) -> float:
-    """The reference two parts merge on: the higher one (keeps every term bounded)."""
+    """Return the reference two parts merge on: the higher one (keeps terms bounded)."""
     return max(a, b)
 
 
@@ -109,7 +109,7 @@ class DayParts:
         return [first + timedelta(days=k) for k in range(self.n_days)]
 
     def _widened(self, first_day: int, n_days: int, reference_db: float) -> DayParts:
-        """The same parts on a wider day range and another reference."""
+        """Return the same parts on a wider day range and another reference."""
         at = self.first_day - first_day
         rows = slice(at, at + self.n_days)
         energy = np.zeros((N_SCHEMES, n_days, N_PERIODS))
@@ -138,7 +138,7 @@ class DayParts:
                         highest)
 
     def levels_db(self, scheme: int) -> FloatArray:
-        """``(n_days, 3)`` energy-average level per day and period of one scheme. [dB]"""
+        """Return the level per day and period of one scheme, ``(n_days, 3)`` [dB]."""
         return level_from_energy_sums(self.energy[scheme], self.valid_ms[scheme],
                                       self.reference_db)
 
@@ -193,14 +193,14 @@ class IntervalParts:
         return IntervalParts(
             start_ms=unique.astype(np.int64),
             end_ms=ends[first],
-            energy=np.bincount(group, weights=energy, minlength=n),
-            valid_ms=np.bincount(group, weights=valid, minlength=n),
+            energy=np.bincount(group, weights=energy, minlength=n).astype(np.float64),
+            valid_ms=np.bincount(group, weights=valid, minlength=n).astype(np.float64),
             lafmax=grouped_max(lafmax, group, n),
             reference_db=reference,
         )
 
     def levels_db(self) -> FloatArray:
-        """Energy-average LAeq of each interval. [dB]"""
+        """Return the energy-average LAeq of each interval [dB]."""
         return level_from_energy_sums(self.energy, self.valid_ms, self.reference_db)
 
 
@@ -286,8 +286,8 @@ def position_parts(ctx: Context) -> PositionParts | None:
         valid[k] = t.reshape(n_days, N_PERIODS)
         if k == 0:
             lden_group = group
-            touched = ctx.touched_groups(bounds, pieces, group).reshape(n_days, N_PERIODS
-                                                                          ).any(axis=1)
+            touched = np.asarray(ctx.touched_groups(bounds, pieces, group).reshape(
+                n_days, N_PERIODS).any(axis=1))
     count, highest = night_highest(ctx, scheme_bounds[0], n_days)
     day_parts = DayParts(days[0].toordinal(), energy, valid, touched, reference, count,
                          highest)

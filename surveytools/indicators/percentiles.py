@@ -40,8 +40,8 @@ __all__ = [
     "exceedance_levels",
     "exceedance_levels_from_step_times",
     "grouped_exceedance_levels",
-    "level_step_times",
     "level_order",
+    "level_step_times",
     "whole_db_distribution",
 ]
 
@@ -424,7 +424,7 @@ def _histogram_levels(
         return None
     cell = group_index * n_steps + (steps - low)
     time_per_step = np.bincount(cell, weights=weights, minlength=n_groups * n_steps)
-    return _levels_from_step_times(time_per_step.reshape(n_groups, n_steps), low,
+    return _levels_from_step_times(time_per_step.reshape(n_groups, n_steps).astype(np.float64), low,
                                    steps_per_db, targets)
 
 
@@ -491,7 +491,7 @@ def level_step_times(
                     0, n_steps - 1)
     cell = group_index[keep] * n_steps + steps
     table = np.bincount(cell, weights=weights[keep], minlength=n_groups * n_steps)
-    return table.reshape(n_groups, n_steps)
+    return table.reshape(n_groups, n_steps).astype(np.float64)
 
 
 def exceedance_levels_from_step_times(

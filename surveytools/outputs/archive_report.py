@@ -44,7 +44,7 @@ PERIODS = ("day", "evening", "night")
 
 
 def validate_archive_report(doc: Any) -> list[str]:
-    """Schema problems of a report document (empty when valid)."""
+    """Return the schema problems of a report document (empty when valid)."""
     return [f"{'/'.join(str(p) for p in e.absolute_path)}: {e.message}"
             for e in validator(ARCHIVE_REPORT_SCHEMA).iter_errors(doc)]
 
