@@ -178,8 +178,7 @@ def position_section(position: str, parts: PositionParts, settings: Settings, tz
     schemes = parts.days.scheme_results(scheme_times_of(settings), tz)
     events = ((parts.days.night_count, parts.days.night_highest[:, -1])
               if parts.has_lafmax else None)
-    days = [d for d in day_entries(parts.days.days, settings, (schemes[0], schemes[1],
-                                                               schemes[2], schemes[3]), events)
+    days = [d for d in day_entries(parts.days.days, settings, schemes, events)
             if window.holds(date.fromisoformat(d["date"]))]
     years = _grouped_spans(parts, window, lambda d: d.year, _year_span, settings, tz, "year")
     months = _grouped_spans(parts, window, lambda d: f"{d.year:04d}-{d.month:02d}",

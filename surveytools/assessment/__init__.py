@@ -18,7 +18,12 @@ from typing import Any
 from surveytools.assessment.background import background_section, reference_bounds
 from surveytools.assessment.context import build_context
 from surveytools.assessment.criteria import criteria_section
-from surveytools.assessment.daily import all_scheme_times, days_section, survey_average_section
+from surveytools.assessment.daily import (
+    all_scheme_times,
+    assess_schemes,
+    days_section,
+    survey_average_section,
+)
 from surveytools.assessment.intervals import interval_bounds, intervals_section, overall_section
 from surveytools.assessment.sources import assessments_section
 from surveytools.assessment.spans import (
@@ -67,9 +72,10 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
         grids = [interval_bounds(ctx), reference_bounds(ctx)[0]]
         grids += [day_offset_boundaries(ctx.candidate_days, times, ctx.tz)
                   for times in all_scheme_times(ctx)]
-        ctx.share_boundaries(grids)
+        ctx = ctx.with_shared_split(grids)
     intervals, intervals_basis = intervals_section(ctx)
-    days = days_section(ctx)
+    schemes = assess_schemes(ctx) if ctx.n else None
+    days = days_section(ctx, schemes)
     background = background_section(ctx)
     assessments = assessments_section(ctx, background)
     criteria = criteria_section(
@@ -83,7 +89,7 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
         "intervals": intervals,
         "intervals_basis": intervals_basis,
         "days": days,
-        "survey_average": survey_average_section(ctx),
+        "survey_average": survey_average_section(ctx, schemes),
         "background": background,
         "assessments": assessments,
         "criteria": criteria,

@@ -73,8 +73,9 @@ def background_section(ctx: Context) -> dict[str, Any] | None:
     pieces, group = ctx.pieces_in(bounds)
     valid_group = np.where(ctx.valid_background[pieces.index], group, -1)
     levels = ctx.piece_levels(pieces)
-    kept_levels, kept_s, kept = ctx.valid_pieces(pieces, "background")
-    valid_s = grouped_valid_duration(kept_levels, kept_s, group[kept], n_groups)
+    kept = ctx.valid_pieces(pieces, "background")
+    valid_s = grouped_valid_duration(kept.levels_db, kept.duration_s, group[kept.position],
+                                     n_groups)
     length_s = np.diff(bounds) / MS_PER_S
 
     logged = ctx.logged("LAF90")

@@ -68,20 +68,18 @@ def scheme_times(scheme: PeriodScheme) -> list[str]:
 
 
 def assess_scheme(ctx: Context, times: list[str]) -> SchemeResult:
-    """Energy average and valid time per candidate day and period of one scheme (cached)."""
-    cached = ctx.cache.get(tuple(times))
-    if isinstance(cached, SchemeResult):
-        return cached
+    """Energy average and valid time per candidate day and period of one scheme."""
     days = ctx.candidate_days
     n_days = len(days)
     n_groups = n_days * N_PERIODS
     bounds = day_offset_boundaries(days, times, ctx.tz)
     pieces, group = ctx.pieces_in(bounds)
     # the valid pieces with a finite LAeq, taken once for all schemes
-    levels, durations_s, chosen = ctx.valid_pieces(pieces)
+    # the valid pieces with a finite LAeq, taken once for all schemes
+    kept = ctx.valid_pieces(pieces)
     summed = ctx.grouped_laeq(bounds)
     level, valid_s = summed if summed is not None else grouped_energy_average_and_duration(
-        levels, durations_s, group[chosen], n_groups)
+        kept.levels_db, kept.duration_s, group[kept.position], n_groups)
     touched_groups = ctx.touched_groups(bounds, pieces, group)
     result = SchemeResult(
         level_db=level.reshape(n_days, N_PERIODS),
@@ -90,8 +88,29 @@ def assess_scheme(ctx: Context, times: list[str]) -> SchemeResult:
         bounds_ms=bounds,
         touched=np.asarray(touched_groups.reshape(n_days, N_PERIODS).any(axis=1)),
     )
-    ctx.cache[tuple(times)] = result
     return result
+
+
+@dataclass(frozen=True)
+class SchemeResults:
+    """Every scheme assessed once, read by both the days and the survey average."""
+
+    lden: SchemeResult
+    ldn: SchemeResult
+    cnel: SchemeResult
+    #: The 16 h / 8 h pair (a scheme with an empty evening).
+    pair: SchemeResult
+
+
+def assess_schemes(ctx: Context) -> SchemeResults:
+    """Assess Lden, Ldn, CNEL and the 16 h / 8 h pair on the candidate days."""
+    periods = ctx.settings.periods
+    return SchemeResults(
+        lden=assess_scheme(ctx, scheme_times(periods.lden)),
+        ldn=assess_scheme(ctx, scheme_times(periods.ldn)),
+        cnel=assess_scheme(ctx, scheme_times(periods.cnel)),
+        pair=assess_scheme(ctx, _pair_times(ctx)),
+    )
 
 
 def scheme_average(result: SchemeResult) -> tuple[FloatArray, FloatArray]:
@@ -203,22 +222,16 @@ def night_highest(ctx: Context, bounds_ms: IntArray, n_days: int) -> tuple[IntAr
     return counts.astype(np.int64), highest
 
 
-def days_section(ctx: Context) -> list[dict[str, Any]]:
-    """One entry per assessment day touched by readings."""
-    if ctx.n == 0:
+def days_section(ctx: Context, schemes: SchemeResults | None) -> list[dict[str, Any]]:
+    """One entry per assessment day touched by readings (``schemes`` None without any)."""
+    if ctx.n == 0 or schemes is None:
         return []
-    periods = ctx.settings.periods
-    lden = assess_scheme(ctx, scheme_times(periods.lden))
-    ldn = assess_scheme(ctx, scheme_times(periods.ldn))
-    cnel = assess_scheme(ctx, scheme_times(periods.cnel))
-    pair = assess_scheme(ctx, _pair_times(ctx))
-    counts, nth = night_events(ctx, lden.bounds_ms, len(ctx.candidate_days))
-    return day_entries(ctx.candidate_days, ctx.settings, (lden, ldn, cnel, pair),
+    counts, nth = night_events(ctx, schemes.lden.bounds_ms, len(ctx.candidate_days))
+    return day_entries(ctx.candidate_days, ctx.settings, schemes,
                        (counts, nth) if ctx.level("LAFmax") is not None else None)
 
 
-def day_entries(days: list[date], settings: Settings,
-                schemes: tuple[SchemeResult, SchemeResult, SchemeResult, SchemeResult],
+def day_entries(days: list[date], settings: Settings, schemes: SchemeResults,
                 events: tuple[IntArray, FloatArray] | None) -> list[dict[str, Any]]:
     """Day entries from the scheme results of candidate days (shared by ``run`` and archive).
 
@@ -228,7 +241,7 @@ def day_entries(days: list[date], settings: Settings,
         Candidate days the scheme results are laid out on.
     settings : Settings
         Periods, coverage threshold and night-event settings.
-    schemes : tuple of SchemeResult
+    schemes : SchemeResults
         Lden, Ldn, CNEL and the 16 h / 8 h pair, per candidate day.
     events : (counts, nth highest) or None
         Night LAFmax events per candidate day; None without an LAFmax column.
@@ -238,7 +251,7 @@ def day_entries(days: list[date], settings: Settings,
     list of dict
         One entry per day touched by readings (the ``days`` section of the results).
     """
-    lden, ldn, cnel, pair = schemes
+    lden, ldn, cnel, pair = schemes.lden, schemes.ldn, schemes.cnel, schemes.pair
     periods = settings.periods
     threshold = settings.coverage_threshold
     values = {
@@ -301,15 +314,19 @@ def day_entries(days: list[date], settings: Settings,
     return out
 
 
-def survey_average_section(ctx: Context) -> dict[str, Any] | None:
-    """Energy average of all valid time of each period type over the survey, then formulas."""
-    if ctx.n == 0:
+def survey_average_section(ctx: Context, schemes: SchemeResults | None
+                           ) -> dict[str, Any] | None:
+    """Energy average of all valid time of each period type over the survey, then formulas.
+
+    None without readings (``schemes`` None).
+    """
+    if ctx.n == 0 or schemes is None:
         return None
     periods = ctx.settings.periods
-    lden, lden_valid = scheme_average(assess_scheme(ctx, scheme_times(periods.lden)))
-    ldn, _ = scheme_average(assess_scheme(ctx, scheme_times(periods.ldn)))
-    cnel, _ = scheme_average(assess_scheme(ctx, scheme_times(periods.cnel)))
-    pair, _ = scheme_average(assess_scheme(ctx, _pair_times(ctx)))
+    lden, lden_valid = scheme_average(schemes.lden)
+    ldn, _ = scheme_average(schemes.ldn)
+    cnel, _ = scheme_average(schemes.cnel)
+    pair, _ = scheme_average(schemes.pair)
     return {
         "Lday": db(lden[0]),
         "Levening": db(lden[1]),

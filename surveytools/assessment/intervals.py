@@ -117,10 +117,10 @@ def intervals_section(ctx: Context) -> tuple[list[dict[str, Any]], dict[str, Any
     pieces, group = ctx.pieces_in(bounds)
     valid_group = np.where(ctx.valid[pieces.index], group, -1)
     piece_levels = ctx.piece_levels(pieces)
-    chosen_levels, chosen_s, chosen = ctx.valid_pieces(pieces)
+    kept = ctx.valid_pieces(pieces)
     summed = ctx.grouped_laeq(bounds)
     leq, valid_s = summed if summed is not None else grouped_energy_average_and_duration(
-        chosen_levels, chosen_s, group[chosen], n_groups)
+        kept.levels_db, kept.duration_s, group[kept.position], n_groups)
     lengths_s = np.diff(bounds) / 1000.0
     valid_fraction = np.divide(valid_s, lengths_s, out=np.zeros(n_groups), where=lengths_s > 0)
     lafmax_col = ctx.level("LAFmax")

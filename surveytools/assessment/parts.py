@@ -28,6 +28,7 @@ from surveytools.assessment.context import Context
 from surveytools.assessment.daily import (
     N_PERIODS,
     SchemeResult,
+    SchemeResults,
     all_scheme_times,
     night_highest,
 )
@@ -142,8 +143,8 @@ class DayParts:
         return level_from_energy_sums(self.energy[scheme], self.valid_ms[scheme],
                                       self.reference_db)
 
-    def scheme_results(self, times: list[list[str]], tz: tzinfo) -> list[SchemeResult]:
-        """Per-day :class:`SchemeResult` of each scheme, as ``run`` computes them."""
+    def scheme_results(self, times: list[list[str]], tz: tzinfo) -> SchemeResults:
+        """Per-day results of each scheme, as ``run``'s :func:`assess_schemes` gives them."""
         out = []
         for k, scheme_times in enumerate(times):
             bounds = day_offset_boundaries(self.days, scheme_times, tz)
@@ -154,7 +155,7 @@ class DayParts:
                 bounds_ms=bounds,
                 touched=self.touched,
             ))
-        return out
+        return SchemeResults(lden=out[0], ldn=out[1], cnel=out[2], pair=out[3])
 
 
 @dataclass(frozen=True)
@@ -269,10 +270,12 @@ def position_parts(ctx: Context) -> PositionParts | None:
     n_days = len(days)
     scheme_bounds = [day_offset_boundaries(days, times, ctx.tz) for times in all_scheme_times(ctx)]
     grid = interval_bounds(ctx)
-    ctx.share_boundaries([grid, *scheme_bounds])
-    pieces = ctx.shared["pieces"]
-    levels, _, chosen = ctx.valid_pieces(pieces)
-    reference = float(levels.max()) if levels.size else 0.0
+    ctx = ctx.with_shared_split([grid, *scheme_bounds])
+    assert ctx.split is not None
+    pieces = ctx.split.pieces
+    kept = ctx.split.valid_all
+    levels, chosen = kept.levels_db, kept.position
+    reference = ctx.split.segment_energy.reference_db
     weights = pieces.weights_ms[chosen]
 
     energy = np.zeros((N_SCHEMES, n_days, N_PERIODS))

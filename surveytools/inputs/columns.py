@@ -2,9 +2,11 @@
 
 Headers are compared after :func:`normalise_header`, which ignores case, spaces,
 punctuation, a trailing unit (``(dB)``, ``dB(A)``, ``[s]``, ``(m/s)``, ``(mm)``, ...) and a
-trailing time-base suffix (``,T``, ``,1min``, ``,15min``). Only trade notation (IEC 61672-1
-/ ISO 1996-1 symbols) is recognised automatically; any other spelling is mapped with the
-``column_map`` of the settings (``"Leq" = "LAeq"``).
+trailing time-base suffix (``,T``, ``,1min``, ``,15min``). The built-in spellings are trade
+notation (IEC 61672-1 / ISO 1996-1 symbols such as ``LAeq``, ``LAeq,T``, ``LAFmax``,
+``LAF90``, ``LA90``, ``LCpeak``), units in brackets and plain English words. Any other
+spelling reaches a canonical column through the settings' ``[columns]`` table
+(``"Leq A" = "LAeq"``).
 
 Statistical levels: ``LA10``, ``LA90`` ... (no time weighting given) are taken as the
 meter's fast-weighted statistics ``LAF10``, ``LAF90`` ... Common practice: sound level
@@ -105,22 +107,22 @@ READINGS_COLUMNS: dict[str, tuple[str, ...]] = {
     "Date": ("Date", "Start date"),
     "Time": ("Time", "Start time of day", "Time of day"),
     "Duration": ("Duration (s)", "Duration", "Interval (s)", "Interval length (s)"),
-    "LAeq": ("LAeq", "LAeq,T", "LAeq (dB)", "Leq A", "LeqA", "LAeq,1min", "LAeq,15min"),
-    "LAFmax": ("LAFmax", "LAmax", "LAFmax (dB)", "LmaxA", "Lmax A"),
-    "LAFmin": ("LAFmin", "LAmin", "LminA", "Lmin A"),
+    "LAeq": ("LAeq", "LAeq,T", "LAeq (dB)", "LAeq,1min", "LAeq,15min"),
+    "LAFmax": ("LAFmax", "LAmax", "LAFmax (dB)"),
+    "LAFmin": ("LAFmin", "LAmin"),
     "LASmax": ("LASmax",),
     "LASmin": ("LASmin",),
-    "LAF1": ("LAF1", "LA1", "LAF1.0", "LA1.0"),
+    "LAF1": ("LAF1", "LA1"),
     "LAF5": ("LAF5", "LA5"),
-    "LAF10": ("LAF10", "LA10", "LAF10.0", "LA10.0"),
-    "LAF50": ("LAF50", "LA50", "LAF50.0", "LA50.0"),
-    "LAF90": ("LAF90", "LA90", "LAF90.0", "LA90.0"),
-    "LAF95": ("LAF95", "LA95", "LAF95.0", "LA95.0"),
+    "LAF10": ("LAF10", "LA10"),
+    "LAF50": ("LAF50", "LA50"),
+    "LAF90": ("LAF90", "LA90"),
+    "LAF95": ("LAF95", "LA95"),
     "LAF99": ("LAF99", "LA99"),
-    "LCeq": ("LCeq", "Leq C", "LeqC"),
-    "LCpeak": ("LCpeak", "LCpk", "Lpeak C", "LpeakC", "LCPeak"),
-    "LZeq": ("LZeq", "Leq Z", "LeqZ"),
-    "Overload": ("Overload", "Overloaded", "OVL", "Over range"),
+    "LCeq": ("LCeq",),
+    "LCpeak": ("LCpeak", "LCpk"),
+    "LZeq": ("LZeq",),
+    "Overload": ("Overload", "Overloaded", "OVL"),
     "Operating": ("Operating", "Source operating", "Source on"),
     "Note": ("Note", "Notes", "Comment", "Comments", "Remark", "Remarks"),
 }

@@ -162,7 +162,7 @@ def read_parquet_table(path: str | Path, settings: Settings | None = None) -> Ra
             "header-missing", Severity.ERROR,
             "No readings column was recognised among the Parquet file's columns "
             f"({', '.join(map(str, parquet.schema_arrow.names[:12]))}). Name them Start, "
-            "LAeq ... or map them with [column_map] in the settings.", sheet=sheet)
+            "LAeq ... or map them in the settings' [columns] table.", sheet=sheet)
         return RawWorkbook(source=source, readings=None, findings=[finding])
     _check_extent(parquet, chosen)
     try:

@@ -67,8 +67,8 @@ def _match(table: RawTable, vocabulary: Mapping[str, Any], column_map: Mapping[s
             collector.add(Finding(
                 "column-unknown", Severity.INFO,
                 f"column '{c.header}' is not a known column and is ignored — rename it or "
-                "map it with column_map in the settings", table.sheet, table.header_row,
-                c.letter))
+                f"map it in the settings' [columns] table (\"{c.header}\" = \"LAeq\", "
+                "naming the column it holds)", table.sheet, table.header_row, c.letter))
     return _Columns(table, {name: table.columns[i] for name, i in matched.items()}, where)
 
 
@@ -138,11 +138,21 @@ def _table_times(cols: _Columns, n: int, clock: tb.Clock, end_mode: bool,
     return _Times(naive, loc, letter, is_end)
 
 
-def _missing_column(collector: FindingCollector, table: RawTable, header: str, why: str) -> None:
+def _missing_column(collector: FindingCollector, table: RawTable, header: str, why: str,
+                    cols: _Columns | None = None) -> None:
+    unknown = [] if cols is None else [
+        c for c in table.columns
+        if c.header not in (None, "") and all(c is not m for m in cols.by_name.values())]
+    hint = ""
+    if unknown:
+        first = unknown[0]
+        names = ", ".join(f"'{c.header}' ({c.letter})" for c in unknown[:3])
+        hint = (f"; if one of the columns {names} holds it, map it in the settings' "
+                f"[columns] table, e.g. \"{first.header}\" = \"{header}\"")
     collector.add(Finding(
         "column-missing", Severity.ERROR,
         f"the {table.sheet} sheet has no '{header}' column ({why}) — add a column headed "
-        f"'{header}' in row {table.header_row}", table.sheet, table.header_row))
+        f"'{header}' in row {table.header_row}{hint}", table.sheet, table.header_row))
 
 
 def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
@@ -206,14 +216,15 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
     n = table.n_rows
     level_names = [name for name in by if is_level_column(name)]
     if "LAeq" not in by:
-        _missing_column(collector, table, "LAeq", "the per-interval level is required")
+        _missing_column(collector, table, "LAeq", "the per-interval level is required",
+                        cols)
         return finish(_empty_readings(["LAeq", *level_names]), {}, [], None, None)
     level_names = ["LAeq", *[x for x in level_names if x != "LAeq"]]
     end_mode = settings.survey.timestamps == "end"
     times = _table_times(cols, n, clock, end_mode, collector)
     if times is None:
         _missing_column(collector, table, "End" if end_mode else "Start",
-                        "each reading needs its time")
+                        "each reading needs its time", cols)
         return finish(_empty_readings(level_names), {}, [], None, None)
 
     # ---- empty rows (all recognised cells empty) -------------------------------------

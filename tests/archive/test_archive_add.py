@@ -6,9 +6,14 @@ import json
 from pathlib import Path
 
 import pyarrow.parquet as pq
+import pytest
 
-from tests.archive.conftest import cli, write_csv_log, write_settings
+from tests.archive.archive_inputs import cli, demo_folder, write_csv_log, write_settings
 
+
+@pytest.fixture(scope="module")
+def demo_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    return demo_folder(tmp_path_factory)
 
 def _records(archive: Path) -> list[dict]:
     return json.loads((archive / "ingest.json").read_text(encoding="utf-8"))["inputs"]

@@ -11,7 +11,12 @@ import openpyxl
 import pytest
 
 from surveytools.outputs.archive_report import validate_archive_report
-from tests.archive.conftest import cli, write_csv_log, write_settings
+from tests.archive.archive_inputs import cli, demo_folder, write_csv_log, write_settings
+
+
+@pytest.fixture(scope="module")
+def demo_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    return demo_folder(tmp_path_factory)
 
 DAY_LEVELS = ("Lday", "Levening", "Lnight", "Lden", "Ldn", "CNEL", "LAeq_16h", "LAeq_8h")
 

@@ -15,7 +15,7 @@ from pathlib import Path
 
 import pytest
 
-from tests.archive.conftest import cli, write_csv_log, write_settings
+from tests.archive.archive_inputs import cli, write_csv_log, write_settings
 
 pytestmark = pytest.mark.slow
 

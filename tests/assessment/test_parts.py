@@ -64,7 +64,7 @@ def _days_from(parts: PositionParts, survey: Survey, settings: Settings) -> list
     schemes = parts.days.scheme_results(scheme_times_of(settings), tz)
     events = ((parts.days.night_count, parts.days.night_highest[:, -1])
               if parts.has_lafmax else None)
-    return day_entries(parts.days.days, settings, tuple(schemes), events)
+    return day_entries(parts.days.days, settings, schemes, events)
 
 
 @pytest.mark.parametrize("name", ["kl1_north_boundary.xlsx", "kl2_garden.xlsx"])

@@ -24,8 +24,6 @@ READINGS_CASES = [
     ("LAeq, T (dB)", "LAeq"),
     ("LAeq (dB)", "LAeq"),
     ("LAeq dB(A)", "LAeq"),
-    ("Leq A", "LAeq"),
-    ("LeqA", "LAeq"),
     ("LAeq,1min", "LAeq"),
     ("LAeq,15min", "LAeq"),
     (" LAFmax ", "LAFmax"),
@@ -106,7 +104,7 @@ def test_normalise_header_examples() -> None:
 
 
 def test_match_columns_any_order_unknown_and_duplicates() -> None:
-    headers = ["Note", "LAeq (dB)", "Start time", "Wind", "LeqA", None, "Level X"]
+    headers = ["Note", "LAeq (dB)", "Start time", "Wind", "LAeq,T", None, "Level X"]
     matched, unknown, dups = match_columns(headers, READINGS_COLUMNS)
     assert matched == {"Note": 0, "LAeq": 1, "Start": 2}
     assert unknown == [3, 6]
@@ -117,6 +115,26 @@ def test_column_map_extends_vocabulary() -> None:
     matched, unknown, _ = match_columns(["Leq", "Zeit"], READINGS_COLUMNS,
                                         {"Leq": "LAeq", "zeit": "Start"})
     assert matched == {"LAeq": 0, "Start": 1}
+    assert unknown == []
+
+
+# Spellings that read like particular export files' labels rather than trade notation
+# (IEC 61672-1 / ISO 1996-1 symbols) or plain English: not built in, mapped in [columns].
+NOT_BUILT_IN = ["LAF10.0", "LA10.0", "LAF90.0", "LA90.0", "LAF1.0", "LA95.0", "Leq A", "LeqA",
+                "Lmax A", "LmaxA", "Lmin A", "LminA", "Lpeak C", "LpeakC", "Leq C", "LeqC",
+                "Leq Z", "LeqZ", "Over range"]
+
+
+@pytest.mark.parametrize("header", NOT_BUILT_IN)
+def test_export_style_spellings_are_not_built_in(header: str) -> None:
+    assert canonical_name(header, READINGS_COLUMNS) is None
+
+
+def test_columns_table_reaches_export_style_spellings() -> None:
+    column_map = {"Leq A": "LAeq", "Lmax A": "LAFmax", "LAF90.0": "LAF90", "Over range": "Overload"}
+    matched, unknown, _ = match_columns(["Leq A", "Lmax A", "LAF90.0", "Over range"],
+                                        READINGS_COLUMNS, column_map)
+    assert matched == {"LAeq": 0, "LAFmax": 1, "LAF90": 2, "Overload": 3}
     assert unknown == []
 
 

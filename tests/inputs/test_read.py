@@ -80,13 +80,13 @@ def test_columns_any_order_and_spelling_variants(tmp_path: Path) -> None:
     wb = openpyxl.Workbook()
     ws = wb.active
     ws.title = "READINGS "
-    ws.append(["Notes", "Leq A", "LAeq,T", "Start time", "LA90", "1 kHz"])
+    ws.append(["Notes", "LAeq (dB)", "LAeq,T", "Start time", "LA90", "1 kHz"])
     ws.append(["", 50.1, 50.2, dt.datetime(2026, 7, 1), 40.0, 33.3])
     wb.save(p)
     t = read_workbook(p).readings
     assert t is not None
     headers = [c.header for c in t.columns]
-    assert headers == ["Notes", "Leq A", "LAeq,T", "Start time", "LA90", "1 kHz"]
+    assert headers == ["Notes", "LAeq (dB)", "LAeq,T", "Start time", "LA90", "1 kHz"]
     matched, unknown, dups = match_columns(headers, READINGS_COLUMNS)
     assert matched == {"Note": 0, "LAeq": 1, "Start": 3, "LAF90": 4, "LZeq_1000Hz": 5}
     assert dups == [("LAeq", [1, 2])]

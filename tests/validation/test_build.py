@@ -293,6 +293,27 @@ def test_no_laeq_column():
     assert s.readings.empty
 
 
+def test_export_style_level_header_says_how_to_map_it():
+    # "Leq A" is not built in (trade notation is LAeq): a column-unknown note on its cell,
+    # and the missing LAeq names that column and the [columns] line that maps it.
+    t = table("Readings", [dt_col("Start", "A", m(2)), num_col("Leq A", "B", [50.0, 51.0])])
+    s = build(t)
+    assert sorted(located(s), key=str) == [("Readings", 1, "B", "column-unknown"),
+                                           ("Readings", 1, None, "column-missing")]
+    by_code = {f.code: f for f in s.findings}
+    unknown, missing = by_code["column-unknown"], by_code["column-missing"]
+    assert "[columns]" in unknown.message and "column_map" not in unknown.message
+    assert "'Leq A' (B)" in missing.message
+    assert '"Leq A" = "LAeq"' in missing.message
+
+
+def test_export_style_header_mapped_in_settings_is_used():
+    t = table("Readings", [dt_col("Start", "A", m(2)), num_col("Leq A", "B", [50.0, 51.0])])
+    s = build(t, settings=Settings(column_map={"Leq A": "LAeq"}))
+    assert located(s) == []
+    assert s.readings["LAeq"].tolist() == [50.0, 51.0]
+
+
 def test_no_timestamp_column():
     t = table("Readings", [num_col("LAeq", "A", [50.0, 51.0])])
     s = build(t)

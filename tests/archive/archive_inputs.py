@@ -1,4 +1,4 @@
-"""Shared inputs of the archive tests: the demo and small generated CSV logs."""
+"""Shared inputs of the archive tests: the demo, small generated CSV logs, the CLI."""
 
 from __future__ import annotations
 
@@ -10,9 +10,8 @@ import pytest
 from surveytools.demo import write_demo
 
 
-@pytest.fixture(scope="session")
-def demo_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    """The demo workbooks and settings (written once per session)."""
+def demo_folder(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """Write the demo workbooks and settings to a new temporary folder."""
     folder = tmp_path_factory.mktemp("demo")
     write_demo(folder)
     return folder

@@ -1,0 +1,143 @@
+"""Reading a settings file or mapping: TOML decoding, schema check, building, located errors.
+
+Every problem becomes one line ``source: key.path: expected ..., found ...`` of a
+:class:`~surveytools.errors.SettingsError`; all problems of a stage are listed at once.
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from collections.abc import Mapping
+from datetime import date, datetime, time
+from pathlib import Path
+from typing import Any
+
+from surveytools.errors import SettingsError
+from surveytools.settings._parse import Problem, drop_none, show
+from surveytools.settings.root import Settings, build_settings
+from surveytools.settings.schema_check import schema_problems
+
+_TOML_POSITION = re.compile(r"\(at line (\d+), column (\d+)\)")
+
+
+def _plain_toml(value: Any) -> Any:
+    """Turn TOML's native date/time values into the text forms the schema describes.
+
+    ``07:00:00`` (a TOML local time) becomes ``"07:00"``; ``2026-07-03T22:00:00`` (a TOML
+    local date-time) becomes ``"2026-07-03 22:00"``. Offset date-times keep their offset so
+    that the window check can reject them (windows are local clock times).
+    """
+    if isinstance(value, dict):
+        return {k: _plain_toml(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_plain_toml(v) for v in value]
+    if isinstance(value, datetime):
+        text = value.isoformat(sep=" ", timespec="seconds")
+        return text[:16] + text[19:] if value.second == 0 else text
+    if isinstance(value, time):
+        return value.strftime("%H:%M" if value.second == 0 else "%H:%M:%S")
+    if isinstance(value, date):
+        return value.isoformat()
+    return value
+
+
+def _raise(source: str, problems: list[Problem]) -> None:
+    unique = sorted(set(problems))
+    lines = [f"{source}: {path}: {text}" for path, text in unique]
+    if len(lines) == 1:
+        raise SettingsError(lines[0])
+    raise SettingsError(f"{source}: {len(lines)} problems in the settings:\n" + "\n".join(lines))
+
+
+def settings_from_mapping(data: Mapping[str, Any], source: str = "settings") -> Settings:
+    """Validate a settings mapping in the TOML layout and build :class:`Settings`.
+
+    Parameters
+    ----------
+    data : mapping
+        Parsed TOML (or an equivalent dict); omitted keys keep their defaults. TOML local
+        times (``07:00:00``) and local date-times are accepted as well as text. The output
+        of :meth:`Settings.to_dict` (a results file's ``settings``) is accepted too: its
+        ``column_map`` stands for ``columns`` and ``None`` values for omitted keys.
+    source : str
+        Name used at the start of every error message (the settings file name).
+
+    Returns
+    -------
+    Settings
+        The effective settings.
+
+    Raises
+    ------
+    SettingsError
+        Listing every problem, one line each: ``source: key.path: expected ..., found ...``.
+    """
+    if not isinstance(data, Mapping):
+        raise SettingsError(f"{source}: expected a table of settings, found {show(data)}")
+    mapping = dict(data)
+    if "column_map" in mapping and "columns" not in mapping:  # Settings.to_dict() spelling
+        mapping["columns"] = mapping.pop("column_map")
+    plain = _plain_toml(drop_none(mapping))
+    problems = schema_problems(plain)
+    if problems:
+        _raise(source, problems)
+    settings, problems = build_settings(plain)
+    if problems:
+        _raise(source, problems)
+    return settings
+
+
+def settings_from_dict(data: Mapping[str, Any], source: str = "results settings") -> Settings:
+    """Rebuild settings from :meth:`Settings.to_dict` output (e.g. a results file's ``settings``).
+
+    Raises
+    ------
+    SettingsError
+        When the recorded settings are not valid (a damaged or foreign results file).
+    """
+    return settings_from_mapping(data, source)
+
+
+def load_settings(path: str | Path | None) -> Settings:
+    """Read, validate and build the settings of a run.
+
+    Parameters
+    ----------
+    path : str or Path or None
+        TOML settings file; ``None`` gives the documented defaults (``Settings()``).
+
+    Returns
+    -------
+    Settings
+        The effective settings.
+
+    Raises
+    ------
+    SettingsError
+        The file cannot be read, is not UTF-8 TOML (line and column named), or breaks the
+        schema or a domain rule (every problem listed with its key path).
+    """
+    if path is None:
+        return Settings()
+    p = Path(path)
+    label = p.name or str(p)
+    try:
+        raw = p.read_bytes()
+    except OSError as exc:
+        raise SettingsError(f"{label}: cannot read the settings file ({exc.strerror or exc}); "
+                            "check the path given to --settings") from exc
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise SettingsError(f"{label}: expected UTF-8 text, found a byte that is not UTF-8 at "
+                            f"offset {exc.start}; save the file as UTF-8") from exc
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        m = _TOML_POSITION.search(msg)
+        where = f"line {m.group(1)}, column {m.group(2)}: " if m else ""
+        detail = _TOML_POSITION.sub("", msg).strip()
+        raise SettingsError(f"{label}: {where}not valid TOML: {detail}") from exc
+    return settings_from_mapping(data, label)

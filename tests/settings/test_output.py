@@ -1,0 +1,17 @@
+"""[output]: what result workbooks hold."""
+
+from __future__ import annotations
+
+import pytest
+
+from tests.settings.example import assert_names_the_key
+
+BAD = [
+    # (settings text, regex the message must match)
+    ("[output]\nreadings_row_limit = -1\n", r"output\.readings_row_limit: expected a number >= 0"),
+]
+
+
+@pytest.mark.parametrize(("text", "pattern"), BAD, ids=[f"bad{i}" for i in range(len(BAD))])
+def test_bad_settings_name_the_key(tmp_path, text, pattern):
+    assert_names_the_key(tmp_path, text, pattern)
