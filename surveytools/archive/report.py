@@ -235,12 +235,23 @@ def dask_client(options: ReportOptions) -> Iterator[Any]:
         cluster.close()
 
 
+def _peak_rss_mib() -> float:
+    """Peak resident memory of this process [MiB] (run on each worker)."""
+    import resource
+    import sys
+
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    return peak / (1 << 20) if sys.platform == "darwin" else peak / 1024
+
+
 def compute_parts(tasks: list[PartitionTask], options: ReportOptions,
-                  progress: Callable[[int, int], None] | None = None
+                  progress: Callable[[int, int], None] | None = None,
+                  usage: dict[str, float] | None = None,
                   ) -> tuple[dict[str, PositionParts], list[str]]:
     """Run the partition tasks on Dask and merge the parts per position.
 
-    Returns the merged parts and one problem line per partition that failed.
+    Returns the merged parts and one problem line per partition that failed; ``usage``
+    (when given) receives ``peak_worker_rss_mib``, the highest peak memory of a worker.
     """
     from distributed import as_completed
 
@@ -266,6 +277,9 @@ def compute_parts(tasks: list[PartitionTask], options: ReportOptions,
                 merged[task.position] = parts if before is None else before + parts
             if progress is not None:
                 progress(done, len(tasks))
+        if usage is not None:
+            peaks = client.run(_peak_rss_mib)
+            usage["peak_worker_rss_mib"] = round(max(peaks.values(), default=0.0), 1)
     return merged, problems
 
 
@@ -285,7 +299,8 @@ def build_report(options: ReportOptions,
 
     records = read_records(options.archive)
     tasks, cautions = partition_tasks(options.archive, records, options)
-    merged, problems = compute_parts(tasks, options, progress)
+    usage: dict[str, float] = {}
+    merged, problems = compute_parts(tasks, options, progress, usage)
     clocks = {t.position: (t.clock, t.time_zone) for t in tasks}
     positions = []
     for position in sorted(merged):
@@ -312,7 +327,7 @@ def build_report(options: ReportOptions,
         "window": options.window.to_json(),
         "engine": {"name": "dask", "scheduler": options.scheduler or "local",
                    "workers": None if options.scheduler else options.workers,
-                   "partitions": len(tasks)},
+                   "partitions": len(tasks), **usage},
         "settings": options.settings.to_dict(),
         "positions": positions,
         "problems": problems,
