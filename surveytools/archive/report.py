@@ -155,7 +155,8 @@ def _read_partition(task: PartitionTask) -> Any:
     for path in task.files:
         fs, local = url_to_fs(path)
         with fs.open(local, "rb") as handle:
-            frames.append(pq.read_table(handle).to_pandas())
+            # one thread per task: the workers are the parallelism (no oversubscription)
+            frames.append(pq.read_table(handle, use_threads=False).to_pandas(use_threads=False))
     frame = pd.concat(frames, ignore_index=True) if len(frames) > 1 else frames[0]
     return frame.sort_values("start_ms", kind="stable").reset_index(drop=True)
 
@@ -222,9 +223,16 @@ def dask_client(options: ReportOptions) -> Iterator[Any]:
         finally:
             client.close()
         return
-    cluster = LocalCluster(n_workers=options.workers, threads_per_worker=1, processes=True,
-                           memory_limit=options.memory_limit, host="127.0.0.1",
-                           dashboard_address=None, silence_logs=logging.CRITICAL)
+    try:
+        cluster = LocalCluster(n_workers=options.workers, threads_per_worker=1,
+                               processes=True, memory_limit=options.memory_limit,
+                               host="127.0.0.1", dashboard_address=None,
+                               silence_logs=logging.CRITICAL)
+    except (RuntimeError, OSError, TimeoutError, ValueError) as exc:
+        raise ArchiveError(
+            f"the local Dask cluster could not start ({type(exc).__name__}: "
+            f"{str(exc)[:200]}); check --workers and --memory-limit, or name a running "
+            "cluster with --scheduler") from exc
     try:
         client = Client(cluster)
         try:
