@@ -120,3 +120,20 @@ def test_a_folder_that_is_not_an_archive_is_refused(tmp_path):
     log = write_csv_log(tmp_path / "a.csv", "2026-07-01 07:00:00", 1, 600, 50.0)
     code, _, err = cli("archive", "add", str(log), "--archive", str(archive))
     assert code == 2 and "not an archive record file" in err
+
+
+def test_any_position_name_is_a_safe_partition_folder(tmp_path):
+    archive = tmp_path / "archive"
+    settings = write_settings(tmp_path / "s.toml", "North/Gate 2 ..")
+    log = write_csv_log(tmp_path / "n.csv", "2026-07-01 07:00:00", 1, 600, 50.0)
+    assert cli("archive", "add", str(log), "--archive", str(archive), "--settings",
+               str(settings))[0] == 0
+    (record,) = _records(archive)
+    assert record["files"][0].startswith("readings/position=North%2FGate%202%20../month=")
+    parts = list((archive / "readings").iterdir())
+    assert [p.name for p in parts] == ["position=North%2FGate%202%20.."]
+    code, _, err = cli("archive", "report", str(archive), "-o", str(tmp_path / "out"),
+                       "--settings", str(settings), "--workers", "1", "--quiet")
+    assert code == 0, err
+    doc = json.loads((tmp_path / "out" / "archive-report.json").read_text(encoding="utf-8"))
+    assert [p["position"] for p in doc["positions"]] == ["North/Gate 2 .."]
