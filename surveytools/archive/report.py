@@ -32,6 +32,8 @@ REPORT_SCHEMA_VERSION = "1.0"
 #: Memory limit of each embedded worker (own choice: a position-month at 1 s, about
 #: 2.7 million readings, is assessed in well under this; see the README benchmark).
 DEFAULT_WORKER_MEMORY = "2GiB"
+#: Stored columns the figures do not need (not read by the report's tasks).
+UNUSED_COLUMNS = ("exclusion", "row")
 #: Seconds to wait for a named scheduler to answer (own choice).
 SCHEDULER_TIMEOUT_S = 30
 
@@ -155,8 +157,12 @@ def _read_partition(task: PartitionTask) -> Any:
     for path in task.files:
         fs, local = url_to_fs(path)
         with fs.open(local, "rb") as handle:
-            # one thread per task: the workers are the parallelism (no oversubscription)
-            frames.append(pq.read_table(handle, use_threads=False).to_pandas(use_threads=False))
+            # one thread per task: the workers are the parallelism (no oversubscription);
+            # the reason text and row numbers are for people, not for the figures
+            parquet = pq.ParquetFile(handle)
+            wanted = [c for c in parquet.schema_arrow.names if c not in UNUSED_COLUMNS]
+            table = parquet.read(columns=wanted, use_threads=False)
+            frames.append(table.to_pandas(use_threads=False))
     frame = pd.concat(frames, ignore_index=True) if len(frames) > 1 else frames[0]
     return frame.sort_values("start_ms", kind="stable").reset_index(drop=True)
 
@@ -192,8 +198,8 @@ def partition_parts(task: PartitionTask, settings: Settings, window: DateWindow
     exclusions = [Exclusion("stored", "excluded at ingest", "all", ~valid),
                   Exclusion("stored-background", "excluded from background at ingest",
                             "background", valid & ~background)]
-    levels = [c for c in frame.columns if c not in ("start_ms", "duration_ms", "row",
-                                                   "exclusion", "valid", "valid_background")]
+    levels = [c for c in frame.columns if c not in ("start_ms", "duration_ms", "valid",
+                                                   "valid_background")]
     survey = Survey(SourceInfo(task.files[0], task.month, "", 0), metadata, frame,
                     dict.fromkeys(levels, ""), exclusions=exclusions)
     return position_parts(build_context(survey, settings))

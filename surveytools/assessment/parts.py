@@ -35,7 +35,6 @@ from surveytools.assessment.daily import (
 from surveytools.assessment.intervals import interval_bounds
 from surveytools.assessment.timegrid import day_offset_boundaries
 from surveytools.indicators.levels import (
-    grouped_energy_sums,
     grouped_max,
     level_from_energy_sums,
     to_energy,
@@ -262,7 +261,8 @@ def position_parts(ctx: Context) -> PositionParts | None:
     """Compute the parts of one set of readings (None without readings).
 
     Splits the readings once at every grid the parts use (as :func:`assess` does) and
-    sums each group with :func:`grouped_energy_sums`.
+    sums each group from the split's segment sums (:meth:`Context.grouped_energy`, one
+    :func:`~surveytools.indicators.levels.grouped_energy_sums` pass).
     """
     if ctx.n == 0:
         return None
@@ -278,26 +278,28 @@ def position_parts(ctx: Context) -> PositionParts | None:
     reference = ctx.split.segment_energy.reference_db
     weights = pieces.weights_ms[chosen]
 
+    def sums_of(bounds: IntArray) -> tuple[FloatArray, FloatArray]:
+        """Energy and valid time per interval of a grid of the shared split."""
+        grouped = ctx.grouped_energy(bounds)
+        assert grouped is not None  # every grid is part of the shared split
+        return grouped.energy, grouped.time_ms
+
     energy = np.zeros((N_SCHEMES, n_days, N_PERIODS))
     valid = np.zeros((N_SCHEMES, n_days, N_PERIODS))
-    touched = np.zeros(n_days, dtype=bool)
-    lden_group: IntArray = np.zeros(0, dtype=np.int64)
     for k, bounds in enumerate(scheme_bounds):
-        _, group = ctx.pieces_in(bounds)
-        e, t = grouped_energy_sums(levels, weights, group[chosen], n_days * N_PERIODS, reference)
+        e, t = sums_of(bounds)
         energy[k] = e.reshape(n_days, N_PERIODS)
         valid[k] = t.reshape(n_days, N_PERIODS)
-        if k == 0:
-            lden_group = group
-            touched = np.asarray(ctx.touched_groups(bounds, pieces, group).reshape(
-                n_days, N_PERIODS).any(axis=1))
+    _, lden_group = ctx.pieces_in(scheme_bounds[0])
+    touched = np.asarray(ctx.touched_groups(scheme_bounds[0], pieces, lden_group).reshape(
+        n_days, N_PERIODS).any(axis=1))
     count, highest = night_highest(ctx, scheme_bounds[0], n_days)
     day_parts = DayParts(days[0].toordinal(), energy, valid, touched, reference, count,
                          highest)
 
     n_intervals = max(grid.size - 1, 0)
     _, interval_group = ctx.pieces_in(grid)
-    e, t = grouped_energy_sums(levels, weights, interval_group[chosen], n_intervals, reference)
+    e, t = sums_of(grid)
     lafmax_col = ctx.level("LAFmax")
     valid_group = np.where(ctx.valid[pieces.index], interval_group, -1)
     lafmax = (grouped_max(lafmax_col[pieces.index], valid_group, n_intervals)
