@@ -154,3 +154,20 @@ def test_report_of_a_folder_without_an_archive_is_refused(tmp_path):
     code, _, err = cli("archive", "report", str(tmp_path), "-o", str(tmp_path / "o"),
                        "--from", "July")
     assert code == 2 and "YYYY-MM-DD" in err
+
+
+def test_a_damaged_partition_is_a_problem_and_the_rest_is_reported(tmp_path):
+    settings = write_settings(tmp_path / "s.toml", "Mast")
+    log = write_csv_log(tmp_path / "two_months.csv", "2026-07-25 07:00:00", 14, 600, 50.0)
+    archive = tmp_path / "archive"
+    assert cli("archive", "add", str(log), "--archive", str(archive), "--settings",
+               str(settings))[0] == 0
+    (july,) = (archive / "readings").rglob("month=2026-07/*.parquet")
+    july.write_bytes(b"not parquet any more")
+    code, out, _ = cli("archive", "report", str(archive), "-o", str(tmp_path / "out"),
+                       "--settings", str(settings), "--workers", "1", "--quiet")
+    assert code == 1
+    assert "problem: position Mast, month 2026-07: could not be read" in out
+    doc = json.loads((tmp_path / "out" / "archive-report.json").read_text(encoding="utf-8"))
+    assert [m["month"] for m in doc["positions"][0]["months"]] == ["2026-07", "2026-08"]
+    assert doc["positions"][0]["days"][0]["date"] == "2026-07-31"
