@@ -16,6 +16,7 @@ Rules:
 
 from __future__ import annotations
 
+import shutil
 from collections.abc import Callable, Iterator
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
@@ -26,12 +27,15 @@ from typing import Any
 import numpy as np
 
 from surveytools.archive.store import (
+    STAGING_DIR,
     IngestRecord,
     load_records,
     locked,
     part_path,
     save_records,
 )
+from surveytools.errors import WorkbookError
+from surveytools.inputs.source import source_info
 from surveytools.settings import Settings, settings_sha256
 
 #: Parquet compression of readings files (zstd: about half the size of snappy on 0.1 dB
@@ -41,10 +45,13 @@ PARQUET_COMPRESSION = "zstd"
 
 @dataclass
 class Prepared:
-    """One input read and validated, ready to store (built in a worker process)."""
+    """One input read, validated and written to the staging folder (in a worker process).
+
+    ``staged`` maps each final relative path of its readings files to the staged file.
+    """
 
     record: IngestRecord
-    table: Any = None  # pyarrow.Table of the readings, None when nothing can be stored
+    staged: dict[str, str] = field(default_factory=dict)
 
 
 @dataclass
@@ -69,8 +76,12 @@ def _utc_text(ms: int) -> str:
     return str(np.datetime64(int(ms), "ms")) + "Z"
 
 
-def prepare_input(path: Path, settings: Settings) -> Prepared:
-    """Read and validate one input as ``run`` does; never raises for a bad input."""
+def prepare_input(path: Path, settings: Settings, staging: Path) -> Prepared:
+    """Read and validate one input as ``run`` does and stage its readings files.
+
+    Never raises for a bad input. The files are written under ``staging`` (inside the
+    archive folder, so that moving them into place is a rename); the caller moves them.
+    """
     import pyarrow as pa
 
     from surveytools.pipeline import read_input
@@ -125,26 +136,28 @@ def prepare_input(path: Path, settings: Settings) -> Prepared:
     record.last_ms = int((start + duration).max())
     record.first = _utc_text(record.first_ms)
     record.last = _utc_text(record.last_ms)
-    return Prepared(record, pa.table(columns))
+    return Prepared(record, _stage_parts(staging, record, pa.table(columns)))
 
 
-def _prepared(paths: list[Path], settings: Settings, jobs: int) -> Iterator[Prepared]:
+def _prepared(paths: list[Path], settings: Settings, jobs: int, staging: Path
+              ) -> Iterator[Prepared]:
     """Prepare inputs in order, ``jobs`` at a time in worker processes."""
     if jobs <= 1 or len(paths) <= 1:
         for path in paths:
-            yield _safe_prepare(path, settings)
+            yield _safe_prepare(path, settings, staging)
         return
     import multiprocessing
 
     context = multiprocessing.get_context("spawn")
     with ProcessPoolExecutor(max_workers=jobs, mp_context=context) as pool:
-        yield from pool.map(_safe_prepare, paths, [settings] * len(paths))
+        yield from pool.map(_safe_prepare, paths, [settings] * len(paths),
+                            [staging] * len(paths))
 
 
-def _safe_prepare(path: Path, settings: Settings) -> Prepared:
+def _safe_prepare(path: Path, settings: Settings, staging: Path) -> Prepared:
     """:func:`prepare_input`, with an unexpected failure recorded instead of raised."""
     try:
-        return prepare_input(path, settings)
+        return prepare_input(path, settings, staging)
     except Exception as exc:  # one bad input never stops the others
         record = IngestRecord(file=path.name, path=str(path), sha256="",
                               settings_sha256=settings_sha256(settings), status="failed",
@@ -159,26 +172,35 @@ def _month_keys(start_ms: np.ndarray) -> np.ndarray:
     return start_ms.astype("datetime64[ms]").astype("datetime64[M]").astype(str)
 
 
-def _write_parts(root: Path, prepared: Prepared) -> list[str]:
-    """Write the input's readings, one file per position-month; return their paths."""
+def _stage_parts(staging: Path, record: IngestRecord, table: Any) -> dict[str, str]:
+    """Write the input's readings, one file per position-month, under ``staging``.
+
+    Returns final relative path -> staged file.
+    """
     import pyarrow as pa
     import pyarrow.parquet as pq
 
-    from surveytools.outputs.atomic import atomic_path
-
-    record, table = prepared.record, prepared.table
     assert record.position is not None
     months = _month_keys(table.column("start_ms").to_numpy())
-    written = []
-    for month in np.unique(months):
+    folder = staging / f"{record.sha256[:20]}-{record.settings_sha256[:8]}"
+    folder.mkdir(parents=True, exist_ok=True)
+    staged = {}
+    for k, month in enumerate(np.unique(months)):
         rel = part_path(record.position, str(month), record.sha256, record.settings_sha256)
+        target = folder / f"{k:04d}.parquet"
+        pq.write_table(table.filter(pa.array(months == month)), target,
+                       compression=PARQUET_COMPRESSION)
+        staged[rel] = str(target)
+    return staged
+
+
+def _move_into_place(root: Path, staged: dict[str, str]) -> list[str]:
+    """Move staged files to their final paths (renames within the archive folder)."""
+    for rel, tmp in staged.items():
         target = root / rel
         target.parent.mkdir(parents=True, exist_ok=True)
-        part = table.filter(pa.array(months == month))
-        with atomic_path(target) as tmp:
-            pq.write_table(part, tmp, compression=PARQUET_COMPRESSION)
-        written.append(rel)
-    return written
+        Path(tmp).replace(target)
+    return list(staged)
 
 
 def _remove_span(root: Path, old: IngestRecord, first_ms: int, last_ms: int,
@@ -252,27 +274,46 @@ def add_inputs(paths: list[Path], root: Path, settings: Settings, jobs: int = 1,
     settings_hash = settings_sha256(settings)
     with locked(root):
         records = load_records(root)
-        for prepared in _prepared([c.path for c in candidates], settings, jobs):
-            new = prepared.record
-            same = [r for r in records if r.sha256 == new.sha256 and new.sha256
-                    and r.settings_sha256 == settings_hash
-                    and r.status in ("stored", "replaced", "unreadable", "failed")]
-            if same:
-                result.unchanged.append(new.file)
+        known = {(r.sha256, r.settings_sha256) for r in records if r.sha256}
+        todo = []
+        for candidate in candidates:
+            try:
+                digest = source_info(candidate.path).sha256
+            except WorkbookError:
+                digest = ""  # reading it records why
+            if (digest, settings_hash) in known:
+                # the same input with the same settings again: nothing changes
+                result.unchanged.append(candidate.path.name)
                 if progress is not None:
-                    progress(new.file)
-                continue
-            if new.status == "stored":
-                assert new.first_ms is not None and new.last_ms is not None
-                new.files = _write_parts(root, prepared)
-                for old in records:
-                    if (old.status == "stored" and old.position == new.position
-                            and old.first_ms is not None and old.last_ms is not None
-                            and old.first_ms < new.last_ms and new.first_ms < old.last_ms):
-                        _remove_span(root, old, new.first_ms, new.last_ms, new.sha256)
-            records.append(new)
-            save_records(root, records)
-            result.records.append(new)
-            if progress is not None:
-                progress(new)
+                    progress(candidate.path.name)
+            else:
+                todo.append(candidate.path)
+        staging = root / STAGING_DIR
+        shutil.rmtree(staging, ignore_errors=True)  # what a killed run left
+        try:
+            for prepared in _prepared(todo, settings, jobs, staging):
+                new = prepared.record
+                if new.sha256 and (new.sha256, settings_hash) in known:
+                    # the same content given twice in this run
+                    result.unchanged.append(new.file)
+                    if progress is not None:
+                        progress(new.file)
+                    continue
+                if new.status == "stored":
+                    assert new.first_ms is not None and new.last_ms is not None
+                    new.files = _move_into_place(root, prepared.staged)
+                    for old in records:
+                        if (old.status == "stored" and old.position == new.position
+                                and old.first_ms is not None and old.last_ms is not None
+                                and old.first_ms < new.last_ms
+                                and new.first_ms < old.last_ms):
+                            _remove_span(root, old, new.first_ms, new.last_ms, new.sha256)
+                records.append(new)
+                known.add((new.sha256, settings_hash))
+                save_records(root, records)
+                result.records.append(new)
+                if progress is not None:
+                    progress(new)
+        finally:
+            shutil.rmtree(staging, ignore_errors=True)
     return result

@@ -42,6 +42,8 @@ LAYOUT_VERSION = 1
 RECORDS_FILE = "ingest.json"
 READINGS_DIR = "readings"
 LOCK_FILE = ".archive.lock"
+#: Where ``archive add`` workers write files before they are moved into place.
+STAGING_DIR = ".staging"
 #: Columns every readings file has besides the level columns.
 BASE_COLUMNS = ("start_ms", "duration_ms", "row", "exclusion", "valid", "valid_background")
 

@@ -137,3 +137,18 @@ def test_any_position_name_is_a_safe_partition_folder(tmp_path):
     assert code == 0, err
     doc = json.loads((tmp_path / "out" / "archive-report.json").read_text(encoding="utf-8"))
     assert [p["position"] for p in doc["positions"]] == ["North/Gate 2 .."]
+
+
+def test_the_same_content_under_two_names_is_stored_once(tmp_path):
+    archive = tmp_path / "archive"
+    inputs = tmp_path / "in"
+    inputs.mkdir()
+    settings = write_settings(tmp_path / "s.toml", "Gate")
+    log = write_csv_log(inputs / "a.csv", "2026-07-01 07:00:00", 1, 600, 50.0)
+    (inputs / "b.csv").write_bytes(log.read_bytes())
+    code, out, _ = cli("archive", "add", str(inputs), "--archive", str(archive), "--settings",
+                       str(settings), "--jobs", "2")
+    assert code == 0 and "b.csv: already in the archive" in out
+    assert [r["file"] for r in _records(archive)] == ["a.csv"]
+    assert _stored_rows(archive) == 144
+    assert not (archive / ".staging").exists()
