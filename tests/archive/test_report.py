@@ -21,7 +21,7 @@ def demo_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
 DAY_LEVELS = ("Lday", "Levening", "Lnight", "Lden", "Ldn", "CNEL", "LAeq_16h", "LAeq_8h")
 
 
-def _report(archive: Path, out: Path, *extra: str) -> dict:
+def _report(archive: Path | str, out: Path, *extra: str) -> dict:
     code, stdout, err = cli("archive", "report", str(archive), "-o", str(out), "--workers",
                             "1", "--quiet", *extra)
     assert code == 0, (stdout, err)
@@ -171,3 +171,12 @@ def test_a_damaged_partition_is_a_problem_and_the_rest_is_reported(tmp_path):
     doc = json.loads((tmp_path / "out" / "archive-report.json").read_text(encoding="utf-8"))
     assert [m["month"] for m in doc["positions"][0]["months"]] == ["2026-07", "2026-08"]
     assert doc["positions"][0]["days"][0]["date"] == "2026-07-31"
+
+
+def test_an_fsspec_url_reads_the_same_archive(july_archive, tmp_path):
+    # fsspec's "file://" protocol stands in for a remote filesystem (s3:// needs s3fs).
+    archive, settings = july_archive
+    by_path = _report(archive, tmp_path / "path", "--settings", str(settings))
+    by_url = _report(archive.as_uri(), tmp_path / "url", "--settings", str(settings))
+    assert by_url["archive"]["location"].startswith("file:///")
+    assert by_url["positions"] == by_path["positions"]
