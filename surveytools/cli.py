@@ -276,8 +276,14 @@ def execute_check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     return result.exit_code()
 
 
-def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sys.stderr) -> int:
-    """Execute parsed arguments; return the exit code. Errors of our own inputs -> 2."""
+def execute(args: argparse.Namespace, out: TextIO | None = None, err: TextIO | None = None
+            ) -> int:
+    """Execute parsed arguments; return the exit code. Errors of our own inputs -> 2.
+
+    ``out`` / ``err`` default to the streams in ``sys`` at the time of the call.
+    """
+    out = sys.stdout if out is None else out
+    err = sys.stderr if err is None else err
     from surveytools.errors import SurveyToolsError
 
     try:

@@ -9,7 +9,6 @@ Kept import-light: the heavy modules load only when a subcommand runs.
 from __future__ import annotations
 
 import argparse
-import sys
 import time
 from pathlib import Path
 from typing import Any, TextIO
@@ -156,8 +155,7 @@ def write_report(out_dir: Path, doc: dict[str, Any]) -> list[Path]:
     return [js, xlsx]
 
 
-def execute_archive(args: argparse.Namespace, out: TextIO = sys.stdout,
-                    err: TextIO = sys.stderr) -> int:
+def execute_archive(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """Run one ``archive`` subcommand; errors of the tool's own inputs raise to the caller."""
     if args.archive_command == "add":
         return execute_add(args, out, err)
