@@ -81,6 +81,11 @@ class BatchOptions:
     memory_bytes: int | None = DEFAULT_MEMORY_BYTES
     timeout_s: float = DEFAULT_TIMEOUT_S
     force: bool = False
+    #: Program and arguments run once per new alert (``--on-alert``), None for none.
+    on_alert: list[str] | None = None
+    on_alert_timeout_s: float = 30.0
+    #: Shared weather file applied to every input (``--weather``).
+    weather_path: Path | None = None
 
 
 @dataclass
@@ -90,6 +95,10 @@ class BatchResult:
     outcomes: list[dict[str, Any]] = field(default_factory=list)
     skipped: list[Skipped] = field(default_factory=list)
     reused: list[str] = field(default_factory=list)
+    #: Alerts appended to the ledger by this run (:class:`surveytools.alerts.Alert`).
+    alerts: list[Any] = field(default_factory=list)
+    #: What went wrong writing the ledger or running the alert program (never fatal).
+    alert_problems: list[str] = field(default_factory=list)
 
     def counts(self) -> dict[str, int]:
         """Return the number of inputs per final status."""
@@ -543,18 +552,23 @@ def _run_batch(options: BatchOptions, settings_key: str,
         manifest = load_manifest(out_dir)
 
     jobs: list[dict[str, Any]] = []  # JSON job descriptions for the workers
+    weather = options.weather_path
+    weather_key = f":weather={_file_sha256(weather)}" if weather is not None else ""
     for c in ready:
         job: dict[str, Any] = {"mode": options.mode, "path": str(c.path.resolve()),
                "settings_path": str(options.settings_path) if options.settings_path else None,
                "include_readings": options.include_readings,
                "memory_bytes": options.memory_bytes}
+        if weather is not None:
+            job["weather_path"] = str(weather.resolve())
         sha = _file_sha256(c.path)
         job["sha256"] = sha
         if options.mode == "run":
             assert out_dir is not None
             job["out_dir"] = str(out_dir.resolve())
             job["stem"] = stems[str(c.path)]
-            key = f"{sha}:{settings_key}:{__version__}:{options.include_readings}"
+            key = (f"{sha}:{settings_key}:{__version__}:{options.include_readings}"
+                   f"{weather_key}")
             entry = manifest.get(str(c.path.resolve()))
             if (not options.force and sha and entry and entry.get("key") == key
                     and (out_dir / entry["results_json"]).exists()
@@ -625,7 +639,33 @@ def _run_batch(options: BatchOptions, settings_key: str,
         assert out_dir is not None
         save_manifest(out_dir, manifest)
         write_overview(out_dir, result, settings_key)
+        raise_alerts(options, out_dir, result)
     return result
+
+
+def raise_alerts(options: BatchOptions, out_dir: Path, result: BatchResult) -> None:
+    """Append this run's new episodes to the alert ledger and run the alert program.
+
+    Only inputs processed in this run are read (a reused input's episodes were alerted
+    when it was processed). Nothing here stops the batch: problems are collected in
+    ``result.alert_problems``.
+    """
+    from surveytools.alerts import ALERTS_NAME, alerts_from_results, record_alerts, run_on_alert
+
+    names = [o["results_json"] for o in result.outcomes
+             if o.get("results_json") and not o.get("reused")]
+    try:
+        result.alerts = record_alerts(out_dir, alerts_from_results(out_dir, names))
+    except OSError as exc:
+        result.alert_problems.append(
+            f"the alert ledger {out_dir / ALERTS_NAME} could not be written "
+            f"({exc.strerror or type(exc).__name__}); new episodes are in the results files")
+        return
+    if options.on_alert:
+        for alert in result.alerts:
+            problem = run_on_alert(options.on_alert, alert, options.on_alert_timeout_s)
+            if problem:
+                result.alert_problems.append(problem)
 
 
 def _reuse(out_dir: Path, entry: dict[str, Any], path: Path) -> dict[str, Any] | None:

@@ -73,6 +73,15 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--interval", type=float, default=10.0, metavar="SECONDS",
                      help="polling interval for --watch (default: 10)")
     run.add_argument("--max-cycles", type=int, default=0, help=argparse.SUPPRESS)
+    run.add_argument("--weather", type=Path, metavar="FILE",
+                     help="weather for every input: a workbook with a Weather sheet or a CSV "
+                          "with the Weather columns (an input's own Weather sheet wins for "
+                          "the time it covers)")
+    run.add_argument("--on-alert", metavar="PROGRAM",
+                     help="run PROGRAM (no shell) once per new alert, with the alert's JSON "
+                          "line on standard input")
+    run.add_argument("--on-alert-timeout", type=float, default=30.0, metavar="SECONDS",
+                     help="time limit for one run of the --on-alert program (default: 30)")
 
     check = sub.add_parser("check", help="validate survey workbooks without computing results")
     common(check)
@@ -181,14 +190,28 @@ def _summary_line(counts: dict[str, int], verb: str) -> str:
 
 
 def _batch_options(args: argparse.Namespace, mode: str) -> Any:
+    from surveytools.alerts import split_program
     from surveytools.batch import BatchOptions
+    from surveytools.errors import SettingsError
 
     memory = int(args.memory_limit * 1024**3) if args.memory_limit > 0 else None
+    on_alert = None
+    if getattr(args, "on_alert", None) is not None:
+        try:
+            on_alert = split_program(args.on_alert)
+        except ValueError as exc:
+            raise SettingsError(str(exc)) from exc
+    weather = getattr(args, "weather", None)
+    if weather is not None and not weather.is_file():
+        raise SettingsError(f"--weather {weather}: no such file; give a workbook with a "
+                            "Weather sheet or a CSV with the Weather columns")
     return BatchOptions(paths=list(args.paths), out_dir=getattr(args, "output", None),
                         settings_path=args.settings, jobs=max(1, args.jobs), mode=mode,
                         include_readings=getattr(args, "readings", False), settle_s=args.settle,
                         memory_bytes=memory, timeout_s=args.timeout,
-                        force=getattr(args, "force", False))
+                        force=getattr(args, "force", False), on_alert=on_alert,
+                        on_alert_timeout_s=max(getattr(args, "on_alert_timeout", 30.0), 0.1),
+                        weather_path=weather)
 
 
 def execute_run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
@@ -243,6 +266,11 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
         if os.environ.get("SURVEYTOOLS_TIMINGS"):  # for developers measuring the pipeline
             for o in result.outcomes:
                 err.write(f"timings {o['file']}: {json.dumps(o.get('timings'))}\n")
+        for alert in result.alerts:  # new episodes, in text and JSON modes alike
+            (out if args.format == "text" else err).write(alert.describe() + "\n")
+        for problem in result.alert_problems:
+            err.write(f"surveytools: {problem}\n")
+        (out if args.format == "text" else err).flush()
         seen.update(o["path"] for o in result.outcomes)
         seen.update(s.path for s in result.skipped if s.status == "skipped")
         if not args.watch or (args.max_cycles and cycles >= args.max_cycles):

@@ -91,6 +91,8 @@ CODES: dict[str, Code] = {
     "survey-key-duplicate": Code("warning", "cell", "a Survey field given twice"),
     "survey-default-used": Code("info", "cell", "a Survey field taken from the settings"),
     "clock-invalid": Code("error", "cell", "a clock that is not local, UTC or UTC+hh:mm"),
+    "time-zone-assumed": Code("warning", "sheet", "no time zone given: the site's civil time "
+                                                  "(periods, days, local times) is assumed"),
     "calibration-drift": Code("warning", "cell", "calibration checks before/after differ by "
                                                  "more than the limit"),
     "calibration-missing": Code("warning", "cell", "a calibration check is not recorded"),
@@ -127,6 +129,13 @@ CODES: dict[str, Code] = {
     "weather-not-a-number": Code("error", "cell", "text in a wind or rain cell"),
     "weather-not-finite": Code("error", "cell", "an infinite or NaN wind or rain value"),
     "weather-out-of-range": Code("error", "cell", "a wind or rain value outside its range"),
+    "weather-file-unreadable": Code("error", "sheet", "the shared weather file (--weather) "
+                                                      "cannot be used; no shared weather "
+                                                      "applied"),
+    "weather-source": Code("info", "sheet", "which weather (own sheet, shared file) covers "
+                                            "which time"),
+    "weather-gap": Code("warning", "sheet", "a stretch of the survey that no weather covers "
+                                            "(once per gap)"),
     "exclusion-span-invalid": Code("error", "cell", "an exclusion whose To is not after From"),
     "exclusion-scope-unknown": Code("error", "cell", "Applies to is neither all nor "
                                                      "background"),

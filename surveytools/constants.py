@@ -71,6 +71,9 @@ LAEQ16_END_H = 23.0
 HOURS_PER_DAY = 24.0
 #: Seconds in an hour [s]. Definition (ISO 80000-3: 1 h = 3600 s).
 SECONDS_PER_HOUR = 3600.0
+#: Milliseconds in a second [ms/s]: the time resolution of durations. Definition (SI
+#: prefix milli, 10^-3).
+MS_PER_S = 1000
 
 # --------------------------------------------------------------------------------------
 # Residual sound correction (ISO 1996-2)

@@ -132,12 +132,13 @@ def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
 
 
 def build_document(path: Path, settings: Settings, source: SourceInfo | None = None,
-                   expected_sha256: str | None = None, read: ReadResult | None = None
-                   ) -> tuple[dict[str, Any], Any]:
+                   expected_sha256: str | None = None, read: ReadResult | None = None,
+                   weather: Any = None) -> tuple[dict[str, Any], Any]:
     """Read, validate and assess one input; return (results document, annotations or None).
 
     Never raises for a bad input: an unreadable file gives a document with status
-    ``"unreadable"`` and the fatal finding. ``read`` is the read phase when already done.
+    ``"unreadable"`` and the fatal finding. ``read`` is the read phase when already done;
+    ``weather`` a shared :class:`~surveytools.inputs.shared_weather.WeatherFile`.
     """
     from surveytools.outputs.results_json import document_header, unreadable_document
 
@@ -155,11 +156,13 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     from surveytools.assessment import assess, reading_annotations
     from surveytools.validation import build_survey
 
-    survey = build_survey(raw, settings)
+    survey = build_survey(raw, settings, shared_weather=weather)
     sections = assess(survey, settings)
     doc = document_header(source, settings, survey.findings, survey.finding_counts)
     doc["provenance"] = library_versions()
     doc.update(sections)
+    if weather is not None:
+        doc["weather_file"] = weather.record()
     annotations = None
     output = settings.output
     if output.include_readings or len(survey.readings) <= output.readings_row_limit:
@@ -205,7 +208,7 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
 
 
 def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
-             read: ReadResult | None = None) -> FileOutcome:
+             read: ReadResult | None = None, weather: Any = None) -> FileOutcome:
     """Process one input and write ``<stem>.results.xlsx`` then ``<stem>.results.json``.
 
     Outputs are written to temporary names and renamed into place; the JSON goes last, as
@@ -215,7 +218,7 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
     from surveytools.outputs.results_json import dumps_results
     from surveytools.outputs.write import write_results_workbook
 
-    doc, annotations = build_document(path, settings, read=read)
+    doc, annotations = build_document(path, settings, read=read, weather=weather)
     xlsx = out_dir / f"{stem}.results.xlsx"
     js = out_dir / f"{stem}.results.json"
     with atomic_path(xlsx) as tmp:
@@ -227,6 +230,31 @@ def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,
                        sha256=doc["input"]["sha256"], findings=findings,
                        finding_totals=_totals(findings),
                        overview=overview_row(doc, js.name, xlsx.name))
+
+
+def load_weather(path: str | None, settings: Settings) -> Any:
+    """Return the shared weather file of a job, read once per worker while unchanged."""
+    if not path:
+        return None
+    from surveytools.inputs.shared_weather import read_weather_file
+
+    p = Path(path)
+    try:
+        stat = p.stat()
+        key = (str(p), stat.st_size, stat.st_mtime_ns, settings.column_map.__repr__())
+    except OSError:
+        key = None
+    if key is not None and key in _WEATHER_CACHE:
+        return _WEATHER_CACHE[key]
+    weather = read_weather_file(p, settings)
+    if key is not None:
+        _WEATHER_CACHE.clear()
+        _WEATHER_CACHE[key] = weather
+    return weather
+
+
+#: The last shared weather file read by this process (one batch uses one file).
+_WEATHER_CACHE: dict[Any, Any] = {}
 
 
 def check_file(path: Path, settings: Settings, read: ReadResult | None = None) -> FileOutcome:

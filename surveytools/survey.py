@@ -15,7 +15,7 @@ column             dtype     meaning
 ``row``            int64     spreadsheet row number in the Readings sheet
 ``start_ms``       int64     interval start, UTC, milliseconds since 1970-01-01
 ``duration_ms``    int64     interval length [ms] (> 0)
-``offset_s``       int32     UTC offset of the position's local clock at ``start_ms`` [s]
+``offset_s``       int32     UTC offset of the site's civil time at ``start_ms`` [s]
 ``LAeq`` ...       float64   every level column present, canonical names (see
                              ``surveytools.inputs.columns``); NaN where empty or unusable [dB]
 ``overload``       bool      meter flagged an overload (False where the column is absent)

@@ -16,9 +16,10 @@ from surveytools import constants
 SURVEY_FIELDS: tuple[tuple[str, str], ...] = (
     ("Position", "Required. Your name for the monitoring position, e.g. P1 or North fence."),
     ("Site", "Site or project name."),
-    ("Time zone", "IANA time zone of the site, e.g. Europe/Berlin, America/Chicago."),
+    ("Time zone", "IANA time zone of the site, e.g. Europe/Berlin, America/Chicago. Every "
+                  "period (day/evening/night) and local time in the results follows it."),
     ("Clock", "How the meter's clock runs: local (follows summer time), UTC, or a fixed "
-              "offset such as UTC+01:00."),
+              "offset such as UTC+01:00. Readings are converted; periods follow Time zone."),
     ("Meter class", "1 or 2 (IEC 61672-1 performance class)."),
     ("Calibration before (dB)", "Level shown when the calibrator was applied before logging."),
     ("Calibration after (dB)", "Level shown when the calibrator was applied after logging."),

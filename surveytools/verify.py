@@ -16,7 +16,7 @@ from typing import Any, TextIO
 from surveytools.errors import SurveyToolsError
 
 #: Keys that may legitimately differ between the recorded and the recomputed document.
-NOT_COMPARED = {("input", "path"), ("provenance",)}
+NOT_COMPARED = {("input", "path"), ("provenance",), ("weather_file", "path")}
 
 
 def differences(recorded: Any, recomputed: Any, path: tuple[str, ...] = ()) -> list[str]:
@@ -76,8 +76,23 @@ def verify_results(results_path: Path, input_path: Path | None = None
     if source.sha256 != recorded["input"].get("sha256"):
         diffs.append(f"input.sha256: recorded {recorded['input'].get('sha256')}, the file now has "
                      f"{source.sha256} (the input was changed or is a different file)")
-    recomputed, _ = build_document(source_path, settings, source)
-    diffs.extend(d for d in differences(recorded, recomputed) if not d.startswith("input.sha256"))
+    weather = None
+    shared = recorded.get("weather_file")
+    if isinstance(shared, dict):  # the run used a shared weather file (--weather)
+        from surveytools.pipeline import load_weather
+
+        weather_path = Path(str(shared.get("path") or ""))
+        if not weather_path.is_file():
+            raise SurveyToolsError(f"{results_path}: the recorded weather file {weather_path} "
+                                   "is not there; put it back to verify these results")
+        weather = load_weather(str(weather_path), settings)
+        now = weather.record().get("sha256")
+        if now != shared.get("sha256"):
+            diffs.append(f"weather_file.sha256: recorded {shared.get('sha256')}, the file now "
+                         f"has {now} (the weather file was changed)")
+    recomputed, _ = build_document(source_path, settings, source, weather=weather)
+    diffs.extend(d for d in differences(recorded, recomputed)
+                 if not d.startswith(("input.sha256", "weather_file.sha256")))
     if recorded.get("provenance") != recomputed.get("provenance"):
         notes.append("library versions differ from the recorded run (see provenance); the "
                      "figures were compared exactly all the same")

@@ -163,7 +163,7 @@ def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[
     import time
 
     from surveytools.inputs.kinds import WORKBOOK_SUFFIXES
-    from surveytools.pipeline import check_file, read_input, run_file
+    from surveytools.pipeline import check_file, load_weather, read_input, run_file
     from surveytools.settings import load_settings
 
     t0 = time.perf_counter()
@@ -193,8 +193,8 @@ def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[
     if job["mode"] == "check":
         outcome = check_file(path, settings, read=read).to_json()
     else:
-        outcome = run_file(path, Path(job["out_dir"]), job["stem"], settings,
-                           read=read).to_json()
+        outcome = run_file(path, Path(job["out_dir"]), job["stem"], settings, read=read,
+                           weather=load_weather(job.get("weather_path"), settings)).to_json()
     # Where a worker's time went, for `SURVEYTOOLS_TIMINGS=1 surveytools run ...` [s].
     outcome["timings"] = {"read_s": round(t_read - t0, 3),
                           "wait_for_imports_s": round(t_ready - t_read, 3),

@@ -281,3 +281,113 @@ def test_a_symlinked_input_is_skipped_with_a_note(tmp_path: Path) -> None:
                    cwd=tmp_path)
     assert proc.returncode == 0
     assert "link.xlsx: skipped - a symbolic link" in proc.stdout
+
+
+def test_alerts_are_appended_once_across_runs_and_watch_polls(tmp_path: Path) -> None:
+    # survey_workbook: hourly LAeq 60 dB 07:00-19:00, 55 dB to 23:00, 50 dB to 07:00 (UTC).
+    # Hand-evaluated: LAeq,1h above 58 dB exactly 07:00-19:00 -> one limit episode of 12 h.
+    drop = tmp_path / "drop"
+    drop.mkdir()
+    survey_workbook(drop / "north.xlsx", position="North fence")
+    settings = tmp_path / "settings.toml"
+    settings.write_text('[[criteria]]\nname = "Daytime"\nindicator = "LAeq"\n'
+                        'interval = "1h"\nlimit_db = 58.0\n')
+    script = tmp_path / "record.py"
+    script.write_text("import sys\n"
+                      f"with open({str(tmp_path / 'calls.txt')!r}, 'a') as f:\n"
+                      "    f.write(sys.stdin.read())\n")
+    out = tmp_path / "o"
+    common = ["--settings", str(settings), "-o", str(out), "--quiet", "--settle", "0",
+              "--on-alert", f"{sys.executable} {script}"]
+    first = run_cli("run", str(drop), *common, cwd=tmp_path)
+    assert first.returncode == 0, first.stderr
+    assert first.stdout.count("ALERT limit: North fence - Daytime") == 1
+    again = run_cli("run", str(drop), *common, "--force", cwd=tmp_path)  # reprocessed
+    assert again.returncode == 0, again.stderr
+    assert "ALERT" not in again.stdout
+    lines = [json.loads(x) for x in (out / "alerts.jsonl").read_text().splitlines()]
+    assert [(x["position"], x["start"], x["end"], x["max_db"], x["severity"]) for x in lines] == [
+        ("North fence", "2026-06-01T07:00:00+00:00", "2026-06-01T19:00:00+00:00", 60.0,
+         "limit")]
+    calls = (tmp_path / "calls.txt").read_text().splitlines()
+    assert [json.loads(c) for c in calls] == lines  # the program saw each line once
+
+    proc = subprocess.Popen([sys.executable, "-m", "surveytools", "run", str(drop), *common,
+                             "--watch", "--interval", "0.3", "--max-cycles", "25"],
+                            cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            text=True)
+    try:
+        deadline = time.monotonic() + 120
+        time.sleep(1.0)
+        survey_workbook(tmp_path / "south.xlsx", position="South gate").rename(
+            drop / "south.xlsx")
+        while not (out / "south.results.json").exists():
+            assert time.monotonic() < deadline, "new file never processed"
+            time.sleep(0.2)
+        # North's log grows: 60 dB until 21:00, so its episode (same start) runs 14 h now;
+        # reprocessed on the next poll, but not alerted again.
+        before = (out / "north.results.json").stat().st_mtime_ns
+        survey_workbook(tmp_path / "north2.xlsx", position="North fence",
+                        levels=[60.0] * 14 + [55.0] * 2 + [50.0] * 8).rename(
+            drop / "north.xlsx")
+        while (out / "north.results.json").stat().st_mtime_ns == before:
+            assert time.monotonic() < deadline, "changed file never reprocessed"
+            time.sleep(0.2)
+    finally:
+        stdout, stderr = proc.communicate(timeout=300)
+    assert proc.returncode == 0, stderr
+    grown = json.loads((out / "north.results.json").read_text())
+    assert [(e["start"], e["end"]) for e in grown["criteria"][0]["episodes"]] == [
+        ("2026-06-01T07:00:00+00:00", "2026-06-01T21:00:00+00:00")]
+    assert stdout.count("ALERT") == 1 and "ALERT limit: South gate - Daytime" in stdout
+    positions = [json.loads(x)["position"]
+                 for x in (out / "alerts.jsonl").read_text().splitlines()]
+    assert positions == ["North fence", "South gate"]
+    assert len((tmp_path / "calls.txt").read_text().splitlines()) == 2
+
+
+def test_a_failing_alert_program_is_reported_and_the_run_goes_on(tmp_path: Path) -> None:
+    survey_workbook(tmp_path / "north.xlsx", position="North fence")
+    settings = tmp_path / "settings.toml"
+    settings.write_text('[[criteria]]\nindicator = "LAeq"\nlimit_db = 58.0\n')
+    proc = run_cli("run", str(tmp_path / "north.xlsx"), "--settings", str(settings), "-o",
+                   str(tmp_path / "o"), "--quiet", "--on-alert", str(tmp_path / "missing"),
+                   cwd=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    assert "alert program missing could not be started" in proc.stderr
+    assert "Traceback" not in proc.stderr
+    assert (tmp_path / "o" / "north.results.json").exists()
+
+
+def test_run_with_a_shared_weather_file(tmp_path: Path) -> None:
+    from datetime import datetime
+
+    from tests.validation.test_shared_weather import station_workbook
+
+    # Station (UTC+01:00) windy at 10:00 and 11:00 (+01:00) = 09:00Z-11:00Z; North
+    # (Europe/Berlin, from 07:00 CEST = 05:00Z) -> readings 5, 6 = rows 6, 7 (hand-evaluated).
+    wind = [2.0] * 24
+    wind[4] = wind[5] = 8.0
+    station = station_workbook(tmp_path / "station.xlsx", datetime(2026, 6, 1, 6, 0), wind)
+    drop = tmp_path / "drop"
+    drop.mkdir()
+    survey_workbook(drop / "north.xlsx", position="North", time_zone="Europe/Berlin")
+    out = tmp_path / "o"
+    proc = run_cli("run", str(drop), "-o", str(out), "--quiet", "--weather", str(station),
+                   cwd=tmp_path)
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    doc = json.loads((out / "north.results.json").read_text())
+    assert [(s["first_row"], s["last_row"]) for s in doc["exclusion_spans"]
+            if s["reason"] == "wind"] == [(6, 7)]
+    assert any(f["code"] == "weather-source" for f in doc["findings"])
+    assert doc["weather_file"]["file"] == "station.xlsx"
+    # verify recomputes with the recorded weather file, and notices when it changed
+    same = run_cli("verify", str(out / "north.results.json"), cwd=tmp_path)
+    assert same.returncode == 0, same.stdout + same.stderr
+    wind[5] = 2.0
+    station_workbook(station, datetime(2026, 6, 1, 6, 0), wind)
+    changed = run_cli("verify", str(out / "north.results.json"), cwd=tmp_path)
+    assert changed.returncode == 1 and "weather_file.sha256" in changed.stdout
+    missing = run_cli("run", str(drop), "-o", str(out), "--weather", str(tmp_path / "no.csv"),
+                      cwd=tmp_path)
+    assert missing.returncode == 2 and "--weather" in missing.stderr

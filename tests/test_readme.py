@@ -32,7 +32,12 @@ def test_the_settings_reference_block_is_a_valid_settings_file(tmp_path: Path) -
     assert settings.residual == defaults.residual
     assert settings.events == defaults.events
     assert settings.output == defaults.output
-    assert len(settings.assessments) == 1 and len(settings.criteria) == 1
+    assert len(settings.assessments) == 1 and len(settings.criteria) == 2
+    working = settings.criteria[1]
+    assert (working.warning_db, working.interval_s) == (70.0, 3600.0)
+    assert working.schedule == ({"days": "Mon-Fri", "from": "07:00", "to": "19:00"},
+                                {"days": "Sat", "from": "08:00", "to": "13:00"})
+    assert settings.calendar.holidays == ("2026-12-25", "2026-12-26")
     assert settings.column_map == {"Leq": "LAeq"}
 
 

@@ -14,7 +14,8 @@ from surveytools.outputs.results_json import validate_overview, validate_results
 from surveytools.settings import Settings
 
 SCHEMAS = sorted((Path(__file__).resolve().parents[1] / "schemas").glob("*.json"))
-MINE = ("settings.schema.json", "results.schema.json", "overview.schema.json")
+MINE = ("settings.schema.json", "results.schema.json", "overview.schema.json",
+        "alert.schema.json")
 
 
 def load(name: str) -> dict[str, Any]:
@@ -119,11 +120,21 @@ def results_doc() -> dict[str, Any]:
                          "corrections_db": {"tonal": 2.0, "impulsive": 0.0,
                                             "intermittency": 0.0, "other": 0.0},
                          "rating_level": 56.74, "background_period": "day",
-                         "background_LA90": 49.0, "excess_over_background": 7.74,
+                         "background_LA90": 49.0, "background_basis": "source-free period",
+                         "excess_over_background": 7.74,
                          "impact_indication": "adverse impact likely", "note": None}],
         "criteria": [{"name": "Day limit", "indicator": "Lday", "period": "any",
                       "limit_db": 55.0, "applies_to": "day", "checked": 1, "failed": 1,
-                      "passed": False, "failures": [{"when": "2026-06-10", "value": 55.1}]}],
+                      "passed": False,
+                      "failures": [{"when": "2026-06-10", "value": 55.1, "reported": 55.1,
+                                    "sufficient": True}],
+                      "highest": {"when": "2026-06-10", "value": 55.1, "reported": 55.1,
+                                  "sufficient": True},
+                      "warning_db": 50.0, "outside_schedule": 0,
+                      "schedule": [{"days": "Mon-Fri", "from": "07:00", "to": "19:00"}],
+                      "episodes": [{"start": "2026-06-10T07:00:00+02:00",
+                                    "end": "2026-06-10T19:00:00+02:00", "intervals": 1,
+                                    "max_db": 55.1, "severity": "limit"}]}],
         "exclusion_spans": [{"from": t0, "to": "2026-06-10T12:01:00+02:00", "first_row": 2,
                              "last_row": 61, "rows": 60, "reason": "wind", "scope": "all",
                              "label": None}],
@@ -177,6 +188,7 @@ BROKEN = [
     ("assessments.0.specific_basis", "guess"),
     ("criteria.0.indicator", "Lmax"),
     ("criteria.0.applies_to", "week"),
+    ("criteria.0.episodes.0.severity", "alarm"),
     ("exclusion_spans.0.scope", "some"),
     ("schema_version", "2.0"),
 ]

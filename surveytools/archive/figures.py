@@ -35,6 +35,7 @@ from surveytools.assessment.parts import (
     LEVEL_STEPS_PER_DB,
     PositionParts,
 )
+from surveytools.assessment.schedule import parse_holidays
 from surveytools.assessment.timegrid import day_offset_boundaries, format_local
 from surveytools.indicators.levels import level_from_energy_sums
 from surveytools.indicators.percentiles import exceedance_levels_from_step_times
@@ -122,8 +123,9 @@ def interval_rows(parts: PositionParts, settings: Settings, tz: tzinfo) -> list[
     sufficient = np.divide(valid_s, length_s, out=np.zeros(valid_s.size),
                            where=length_s > 0) >= settings.coverage_threshold
     starts = format_local(iv.start_ms, tz)
+    ends = format_local(iv.end_ms, tz)
     periods = lden_period_names(parts.days.days, settings, tz, iv.start_ms)
-    return [{"start": starts[j], "LAeq": levels[j], "LAFmax": lafmax[j],
+    return [{"start": starts[j], "end": ends[j], "LAeq": levels[j], "LAFmax": lafmax[j],
              "valid_s": float(valid_s[j]), "sufficient": bool(sufficient[j]),
              "period": periods[j]} for j in range(iv.start_ms.size)]
 
@@ -142,8 +144,11 @@ def criteria_counts(parts: PositionParts, position: str, days: list[dict[str, An
         return []
     needs_intervals = any(c.indicator not in DAY_INDICATORS for c in wanted)
     intervals = interval_rows(parts, settings, tz) if needs_intervals else []
-    checked = criteria_section(wanted, position, days, intervals, [], settings.percentiles,
-                               settings.reporting_interval_s, settings.coverage_threshold)
+    checked = criteria_section(
+        wanted, position, days, intervals, [], settings.percentiles,
+        settings.reporting_interval_s, settings.coverage_threshold, tz=tz,
+        periods=settings.periods, holidays=parse_holidays(settings.calendar.holidays),
+        interval_laeq=parts.intervals.levels_db().tolist() if needs_intervals else None)
     out = []
     for item in checked:
         failures = item["failures"]

@@ -174,13 +174,13 @@ def partition_parts(task: PartitionTask, settings: Settings, window: DateWindow
 
     from surveytools.assessment.context import build_context
     from surveytools.assessment.parts import position_parts
-    from surveytools.assessment.timegrid import position_tz
+    from surveytools.assessment.timegrid import site_tz
     from surveytools.provenance import SourceInfo
     from surveytools.survey import Exclusion, Survey
 
     metadata: dict[str, object] = {"position": task.position, "clock": task.clock,
                                    "time_zone": task.time_zone}
-    tz = position_tz(metadata)
+    tz = site_tz(metadata)
     frame = _read_partition(task)
     low, high = window.instants_ms(settings.periods.lden.day_start, tz)
     start = frame["start_ms"].to_numpy(dtype=np.int64)
@@ -308,7 +308,7 @@ def build_report(options: ReportOptions,
     """
     from surveytools import __version__
     from surveytools.archive.figures import position_section
-    from surveytools.assessment.timegrid import position_tz
+    from surveytools.assessment.timegrid import site_tz
     from surveytools.outputs.xlsx_style import cautions_lines
 
     records = read_records(options.archive)
@@ -319,7 +319,7 @@ def build_report(options: ReportOptions,
     positions = []
     for position in sorted(merged):
         clock, zone = clocks[position]
-        tz = position_tz(dict[str, object](clock=clock, time_zone=zone))
+        tz = site_tz(dict[str, object](clock=clock, time_zone=zone))
         section = position_section(position, merged[position], options.settings, tz,
                                    options.window)
         section["clock"] = clock

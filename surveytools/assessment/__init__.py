@@ -2,8 +2,9 @@
 
 Input: a :class:`~surveytools.survey.Survey` and :class:`~surveytools.settings.Settings`.
 
-Time runs on UTC epoch milliseconds; the position's clock (Survey metadata ``clock`` /
-``time_zone``) turns local wall-clock period boundaries into instants per calendar day
+Time runs on UTC epoch milliseconds (validation converted the readings with the meter's
+``clock``); the site's civil time (Survey ``time_zone``, with its summer time, whatever
+the meter's clock) turns wall-clock period boundaries into instants per calendar day
 (:mod:`surveytools.assessment.timegrid`). Every figure averages valid time only
 (``Survey.valid_mask``); readings straddling a boundary are split in proportion.
 Sections: :mod:`~.intervals` (overall, intervals), :mod:`~.daily` (days, survey
@@ -15,7 +16,11 @@ from __future__ import annotations
 
 from typing import Any
 
-from surveytools.assessment.background import background_section, reference_bounds
+from surveytools.assessment.background import (
+    background_section,
+    reference_bounds,
+    reference_la90,
+)
 from surveytools.assessment.context import build_context
 from surveytools.assessment.criteria import criteria_section
 from surveytools.assessment.daily import (
@@ -25,6 +30,7 @@ from surveytools.assessment.daily import (
     survey_average_section,
 )
 from surveytools.assessment.intervals import interval_bounds, intervals_section, overall_section
+from surveytools.assessment.schedule import parse_holidays
 from surveytools.assessment.sources import assessments_section
 from surveytools.assessment.spans import (
     coverage_section,
@@ -33,11 +39,16 @@ from surveytools.assessment.spans import (
     survey_section,
     unplaced_section,
 )
-from surveytools.assessment.timegrid import day_offset_boundaries, format_local, position_tz
+from surveytools.assessment.timegrid import (
+    day_offset_boundaries,
+    format_local,
+    position_tz,
+    site_tz,
+)
 from surveytools.settings import Settings
 from surveytools.survey import Survey
 
-__all__ = ["assess", "format_local", "position_tz", "reading_annotations"]
+__all__ = ["assess", "format_local", "position_tz", "reading_annotations", "site_tz"]
 
 
 def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
@@ -76,11 +87,19 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
     intervals, intervals_basis = intervals_section(ctx)
     schemes = assess_schemes(ctx) if ctx.n else None
     days = days_section(ctx, schemes)
-    background = background_section(ctx)
-    assessments = assessments_section(ctx, background)
+    reference = reference_la90(ctx) if ctx.n else None
+    background = background_section(ctx, reference)
+    assessments = assessments_section(ctx, reference)
+    # unrounded interval LAeq for criteria over longer intervals (LAeq,1h): judged once
+    # from unrounded values (design.md §9), not from the JSON levels
+    summed = (ctx.grouped_laeq(interval_bounds(ctx))
+              if ctx.n and any(c.interval_s is not None for c in settings.criteria) else None)
     criteria = criteria_section(
         settings.criteria, survey.metadata.get("position"), days, intervals, assessments,
         settings.percentiles, settings.reporting_interval_s, settings.coverage_threshold,
+        tz=ctx.tz, periods=settings.periods,
+        holidays=parse_holidays(settings.calendar.holidays),
+        interval_laeq=None if summed is None else summed[0].tolist(),
     )
     return {
         "survey": survey_section(survey),

@@ -13,29 +13,40 @@ from numpy.typing import ArrayLike, NDArray
 from surveytools.constants import WHOLE_DB_HALF_STEP_DB, WHOLE_DB_STEP_DB
 from surveytools.indicators.percentiles import COMBINE_METHODS
 from surveytools.indicators.periods import split_at_boundaries
+from surveytools.indicators.reporting import reported_level
 
 IntArray = NDArray[np.int64]
 FloatArray = NDArray[np.float64]
 
-#: Decimals of levels in JSON (0.01 dB) and of durations (1 ms). results_spec.md.
-LEVEL_DECIMALS = 2
+#: Decimals of levels in JSON (0.001 dB; full precision where 0.001 dB would report
+#: differently, see :func:`db_list`) and of durations (1 ms). README "Results JSON".
+LEVEL_DECIMALS = 3
 SECONDS_DECIMALS = 3
 #: Milliseconds per second [ms/s]. Definition (SI prefix milli).
 MS_PER_S = 1000.0
 
 
 def db(value: Any) -> float | None:
-    """Return a level for JSON: rounded to 0.01 dB, None when not a finite number."""
+    """Return a level for JSON (see :func:`db_list`); None when not a finite number."""
     try:
         number = float(value)
     except (TypeError, ValueError):
         return None
-    return round(number, LEVEL_DECIMALS) if math.isfinite(number) else None
+    return db_list([number])[0] if math.isfinite(number) else None
 
 
 def db_list(values: ArrayLike) -> list[float | None]:
-    """Levels for JSON, vectorised rounding; NaN -> None."""
-    arr = np.round(np.asarray(values, dtype=np.float64), LEVEL_DECIMALS)
+    """Levels for JSON: 0.001 dB, re-rounding to the reported figure; NaN -> None.
+
+    A JSON level rounded once more by :func:`~surveytools.indicators.reporting.reported_level`
+    must give the figure reported and judged from the unrounded level (design.md §9, one
+    rounding): a level within 0.0005 dB of a reporting tie (45.0496 would become 45.050
+    and then 45.1, where the level itself reports 45.0) is written at full precision.
+    """
+    raw = np.asarray(values, dtype=np.float64).ravel()
+    short = np.round(raw, LEVEL_DECIMALS)
+    same = np.asarray(reported_level(short)) == np.asarray(reported_level(raw))
+    arr = np.where(same | ~np.isfinite(raw), short, raw) + 0.0
     return [v if math.isfinite(v) else None for v in arr.tolist()]
 
 

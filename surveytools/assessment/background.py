@@ -16,6 +16,7 @@ and night LA90 combine the LA90 of the *sufficient* reference intervals (valid f
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -28,7 +29,7 @@ from surveytools.assessment._common import (
     db_list,
     seconds_list,
 )
-from surveytools.assessment.context import Context
+from surveytools.assessment.context import Context, valid_pieces_of
 from surveytools.assessment.intervals import logged_per_group, same_interval
 from surveytools.assessment.timegrid import day_offset_boundaries, format_local, stepped_grid
 from surveytools.constants import BACKGROUND_PERCENT
@@ -61,19 +62,63 @@ def reference_bounds(ctx: Context) -> tuple[IntArray, IntArray]:
     return bounds[lo : hi + 1], period_index[lo:hi]
 
 
-def background_section(ctx: Context) -> dict[str, Any] | None:
-    """Return the ``background`` section; None without readings."""
-    if ctx.n == 0:
-        return None
+@dataclass(frozen=True)
+class ReferenceLA90:
+    """LA90 per reference interval of one selection of readings.
+
+    Parameters
+    ----------
+    bounds_ms : numpy.ndarray of int64
+        Reference-interval grid. [ms]
+    period_index : numpy.ndarray of int64
+        Index into :data:`BACKGROUND_PERIODS` per interval.
+    la90_db : numpy.ndarray of float
+        LA90 per interval; NaN without valid time. [dB]
+    valid_s, length_s : numpy.ndarray of float
+        Valid time and length of each interval. [s]
+    sufficient : numpy.ndarray of bool
+        Valid fraction at least the coverage threshold.
+    basis : str
+        :data:`BASIS_LOGGED` or :data:`BASIS_SAMPLES`.
+    """
+
+    bounds_ms: IntArray
+    period_index: IntArray
+    la90_db: FloatArray
+    valid_s: FloatArray
+    length_s: FloatArray
+    sufficient: np.ndarray
+    basis: str
+
+    def values_of(self, period: str) -> FloatArray:
+        """Return the LA90 of the sufficient reference intervals of a period [dB]."""
+        k = BACKGROUND_PERIODS.index(period)
+        return self.la90_db[(self.period_index == k) & self.sufficient
+                            & np.isfinite(self.la90_db)]
+
+    def representative(self, period: str, method: str) -> float:
+        """Return the period's LA90: sufficient intervals combined by ``method`` [dB]."""
+        return combine_logged_levels(self.values_of(period), method)
+
+
+def reference_la90(ctx: Context, mask: np.ndarray | None = None) -> ReferenceLA90:
+    """LA90 per reference interval from the readings of ``mask``.
+
+    ``mask`` defaults to ``ctx.valid_background`` (technician background exclusions and
+    ``Operating = yes`` readings left out); an assessment passes that mask with its own
+    source-on readings also left out (design.md §9: the background is source-free).
+    """
     settings = ctx.settings.background
     method = settings.method
     bounds, period_index = reference_bounds(ctx)
     n_groups = max(bounds.size - 1, 0)
-
     pieces, group = ctx.pieces_in(bounds)
-    valid_group = np.where(ctx.valid_background[pieces.index], group, -1)
-    levels = ctx.piece_levels(pieces)
-    kept = ctx.valid_pieces(pieces, "background")
+    if mask is None:
+        mask = ctx.valid_background
+        kept = ctx.valid_pieces(pieces, "background")
+    else:
+        kept = valid_pieces_of(pieces, ctx.piece_levels(pieces), mask)
+    valid_group = np.where(mask[pieces.index], group, -1)
     valid_s = grouped_valid_duration(kept.levels_db, kept.duration_s, group[kept.position],
                                      n_groups)
     length_s = np.diff(bounds) / MS_PER_S
@@ -87,38 +132,51 @@ def background_section(ctx: Context) -> dict[str, Any] | None:
             (settings.reference_interval_day_s, settings.reference_interval_night_s)
         ):
             chosen = None if same_interval(ctx.logging_interval_s, step) else method
-            per_group = logged_per_group(ctx, logged, ctx.valid_background, bounds, chosen)
+            per_group = logged_per_group(ctx, logged, mask, bounds, chosen)
             la90 = np.where(period_index == k, per_group, la90)
     else:
         basis = BASIS_SAMPLES
         la90 = grouped_exceedance_levels(
-            levels, pieces.weights_ms, valid_group, n_groups, [BACKGROUND_PERCENT],
-            level_order=lambda: ctx.piece_order(pieces),
+            ctx.piece_levels(pieces), pieces.weights_ms, valid_group, n_groups,
+            [BACKGROUND_PERCENT], level_order=lambda: ctx.piece_order(pieces),
         )[:, 0]
     la90 = np.where(valid_s > 0, la90, np.nan)
     sufficient = (length_s > 0) & (valid_s >= ctx.settings.coverage_threshold * length_s)
+    return ReferenceLA90(bounds, period_index, la90, valid_s, length_s, sufficient, basis)
 
+
+def background_section(ctx: Context, ref: ReferenceLA90 | None = None
+                       ) -> dict[str, Any] | None:
+    """Return the ``background`` section; None without readings.
+
+    ``ref`` is :func:`reference_la90` of ``ctx`` when the caller has it.
+    """
+    if ctx.n == 0:
+        return None
+    method = ctx.settings.background.method
+    ref = ref if ref is not None else reference_la90(ctx)
+    bounds = ref.bounds_ms
     starts = format_local(bounds[:-1], ctx.tz)
     ends = format_local(bounds[1:], ctx.tz)
-    la90_list = db_list(la90)
-    valid_list = seconds_list(valid_s)
+    la90_list = db_list(ref.la90_db)
+    valid_list = seconds_list(ref.valid_s)
     reference = [
         {
             "start": starts[j],
             "end": ends[j],
-            "period": BACKGROUND_PERIODS[int(period_index[j])],
+            "period": BACKGROUND_PERIODS[int(ref.period_index[j])],
             "LA90": la90_list[j],
             "valid_s": valid_list[j],
-            "sufficient": bool(sufficient[j]),
+            "sufficient": bool(ref.sufficient[j]),
         }
-        for j in range(n_groups)
+        for j in range(max(bounds.size - 1, 0))
     ]
-    out: dict[str, Any] = {"basis": basis, "method": method, "reference_intervals": reference}
-    for k, name in enumerate(BACKGROUND_PERIODS):
-        chosen_values = la90[(period_index == k) & sufficient & np.isfinite(la90)]
+    out: dict[str, Any] = {"basis": ref.basis, "method": method, "reference_intervals": reference}
+    for name in BACKGROUND_PERIODS:
+        chosen_values = ref.values_of(name)
         levels_db, counts = whole_db_distribution(chosen_values)
         out[name] = {
-            "LA90": db(combine_logged_levels(chosen_values, method)),
+            "LA90": db(ref.representative(name, method)),
             "n_intervals": int(chosen_values.size),
             "distribution": [
                 [int(level), int(count)]

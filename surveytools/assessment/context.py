@@ -19,7 +19,7 @@ from surveytools.assessment._common import (
     segment_groups,
     split,
 )
-from surveytools.assessment.timegrid import calendar_days, position_tz
+from surveytools.assessment.timegrid import calendar_days, site_tz
 from surveytools.indicators.levels import grouped_energy_sums, level_from_energy_sums
 from surveytools.indicators.percentiles import level_order
 from surveytools.settings import Settings
@@ -137,14 +137,14 @@ class SharedSplit:
 
 @dataclass(frozen=True)
 class Context:
-    """Readings as numpy arrays on the UTC millisecond axis, plus the position's clock.
+    """Readings as numpy arrays on the UTC millisecond axis, plus the site's civil time.
 
     Parameters
     ----------
     survey, settings : Survey, Settings
         The inputs.
     tz : tzinfo
-        The position's clock.
+        The site's civil time zone (``time_zone``; never the meter's clock).
     start_ms, duration_ms, end_ms : numpy.ndarray of int64
         Reading intervals. [ms]
     valid, valid_background : numpy.ndarray of bool
@@ -372,7 +372,7 @@ def build_context(survey: Survey, settings: Settings) -> Context:
     empty = np.zeros(0, dtype=np.int64)
     start = readings["start_ms"].to_numpy(dtype=np.int64) if len(readings) else empty
     duration = readings["duration_ms"].to_numpy(dtype=np.int64) if len(readings) else empty
-    tz = position_tz(survey.metadata)
+    tz = site_tz(survey.metadata)
     end = start + duration
     days = calendar_days(int(start.min()), int(end.max()), tz) if start.size else []
     return Context(

@@ -82,7 +82,7 @@ def logged_per_group(
 
 
 def interval_bounds(ctx: Context) -> IntArray:
-    """Reporting-interval grid on the local clock, aligned to local midnight.
+    """Reporting-interval grid in the site's civil time, aligned to local midnight.
 
     Each local day is stepped from its midnight in real elapsed time; the last interval of
     a day is cut at the next midnight. Only intervals overlapping the readings are kept.

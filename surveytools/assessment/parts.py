@@ -210,12 +210,12 @@ class LevelCounts:
 
     Parameters
     ----------
-    time_ms : numpy.ndarray
+    time_ms : numpy.ndarray of int64
         ``(3, N_LEVEL_STEPS)`` valid time per period type and level step; step ``k`` is
         level ``(FIRST_LEVEL_STEP + k) / LEVEL_STEPS_PER_DB``. [ms]
     """
 
-    time_ms: FloatArray
+    time_ms: IntArray
 
     def __add__(self, other: LevelCounts) -> LevelCounts:
         return LevelCounts(self.time_ms + other.time_ms)

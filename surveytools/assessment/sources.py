@@ -8,9 +8,20 @@ the valid time only; the specific level follows ISO 1996-2 residual correction, 
 rating level adds the corrections (BS 4142), and the excess is over the representative
 background LA90 of the period (day or night) holding most of the source-on time.
 
-With the Operating column, source-on and residual readings are both taken from that same
-period only: day and night are assessed separately (BS 4142:2014 reference intervals), and
-a residual taken from the louder day would not be comparable with a night-time total.
+The background is source-free (design.md §9; BS 4142:2014 8.1, from memory: the
+background sound level is that of the place *without* the specific sound): readings
+overlapping the assessment's ``source_on`` windows are left out of its background exactly
+as ``Operating = yes`` readings are for every background. Where the period then has no
+sufficient reference interval, the LA90 of the assessment's residual time is used
+instead; without that either, no background is reported and the note says why.
+``background_basis`` says which (``"source-free period"``, ``"residual time"``,
+``"not available"``).
+
+With the Operating column, readings are split at the background period bounds (07:00 /
+23:00 by default) as every other period figure is, and source-on and residual time are
+both taken from the period holding most of the operating time: day and night are
+assessed separately (BS 4142:2014 reference intervals), and a residual taken from the
+louder day would not be comparable with a night-time total.
 """
 
 from __future__ import annotations
@@ -19,17 +30,27 @@ from typing import Any
 
 import numpy as np
 
-from surveytools.assessment._common import IntArray, db, run_spans, seconds, split
+from surveytools.assessment._common import IntArray, Pieces, db, run_spans, seconds, split
 from surveytools.assessment.background import (
     BACKGROUND_PERIODS,
-    background_periods_of,
+    ReferenceLA90,
     majority_period,
+    reference_la90,
 )
 from surveytools.assessment.context import Context
-from surveytools.assessment.timegrid import format_local, local_text_to_utc_ms
+from surveytools.assessment.timegrid import (
+    day_offset_boundaries,
+    format_local,
+    local_text_to_utc_ms,
+)
+from surveytools.constants import BACKGROUND_PERCENT
 from surveytools.errors import SettingsError
 from surveytools.indicators.levels import energy_average
+from surveytools.indicators.percentiles import combine_logged_levels, exceedance_level
 from surveytools.settings import Assessment
+
+#: How the background an assessment is compared with was found (results contract).
+BACKGROUND_BASES = ("source-free period", "residual time", "not available")
 
 #: Correction names, in the order ``rating_level`` takes them (BS 4142:2014 9.2).
 CORRECTION_NAMES = ("tonal", "impulsive", "intermittency", "other")
@@ -59,31 +80,44 @@ def window_ms(ctx: Context, windows: tuple[tuple[str, str], ...]) -> IntArray:
     return out
 
 
-def _windowed_level(ctx: Context, windows: IntArray) -> tuple[float, float]:
-    """LAeq and valid time [s] of the valid reading pieces inside the windows."""
-    if windows.size == 0 or ctx.n == 0:
-        return float("nan"), 0.0
+def _window_pieces(ctx: Context, windows: IntArray) -> tuple[Pieces, np.ndarray]:
+    """Split the readings at the window edges; mark the pieces inside a window."""
     edges = np.unique(windows.ravel())
     pieces = split(ctx.start_ms, ctx.duration_ms, edges)
     middle = pieces.start_ms + pieces.duration_ms / 2.0
     inside = np.zeros(pieces.index.size, dtype=bool)
     for begin, end in windows:  # a handful of windows
         inside |= (middle >= begin) & (middle < end)
-    chosen = inside & ctx.valid[pieces.index] & (pieces.duration_ms > 0)
+    return pieces, inside & (pieces.duration_ms > 0)
+
+
+def _piece_level(ctx: Context, pieces: Pieces, chosen: np.ndarray) -> tuple[float, float]:
+    """LAeq and valid time [s] of the valid pieces where ``chosen``."""
+    chosen = chosen & ctx.valid[pieces.index] & (pieces.duration_ms > 0)
     laeq = ctx.level("LAeq")
     assert laeq is not None
-    levels = laeq[pieces.index][chosen]
     durations = pieces.duration_s[chosen]
-    return energy_average(levels, durations), float(np.sum(durations))
+    return energy_average(laeq[pieces.index][chosen], durations), float(np.sum(durations))
 
 
-def _selected_level(ctx: Context, selected: np.ndarray) -> tuple[float, float]:
-    """LAeq and valid time [s] of whole valid readings where ``selected``."""
-    chosen = selected & ctx.valid
-    laeq = ctx.level("LAeq")
-    assert laeq is not None
-    durations = ctx.duration_ms[chosen] / 1000.0
-    return energy_average(laeq[chosen], durations), float(np.sum(durations))
+def _windowed_level(ctx: Context, windows: IntArray) -> tuple[float, float]:
+    """LAeq and valid time [s] of the valid reading pieces inside the windows."""
+    if windows.size == 0 or ctx.n == 0:
+        return float("nan"), 0.0
+    pieces, inside = _window_pieces(ctx, windows)
+    return _piece_level(ctx, pieces, inside)
+
+
+def _period_pieces(ctx: Context) -> tuple[Pieces, IntArray]:
+    """Split the readings at the background period bounds; give each piece its period.
+
+    A 15-min reading from 06:52 gives 8 min to the night and 7 to the day (design.md §5).
+    """
+    settings = ctx.settings.background
+    bounds = day_offset_boundaries(ctx.candidate_days, [settings.day_start,
+                                                        settings.night_start], ctx.tz)
+    pieces = split(ctx.start_ms, ctx.duration_ms, bounds)
+    return pieces, (pieces.segment - 1) % len(BACKGROUND_PERIODS)
 
 
 def _span_texts(ctx: Context, spans: IntArray) -> list[list[str]]:
@@ -92,14 +126,70 @@ def _span_texts(ctx: Context, spans: IntArray) -> list[list[str]]:
     return [[a, b] for a, b in zip(starts, ends, strict=True)]
 
 
-def _operating_spans(ctx: Context, selected: np.ndarray) -> IntArray:
+def _piece_spans(pieces: Pieces, selected: np.ndarray) -> IntArray:
     first, last = run_spans(selected)
-    return np.stack([ctx.start_ms[first], ctx.end_ms[last]], axis=1) if first.size else (
-        np.zeros((0, 2), dtype=np.int64)
-    )
+    if not first.size:
+        return np.zeros((0, 2), dtype=np.int64)
+    return np.stack([pieces.start_ms[first],
+                     pieces.start_ms[last] + pieces.duration_ms[last]], axis=1)
 
 
-def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] | None
+def _overlapping(ctx: Context, spans: IntArray) -> np.ndarray:
+    """Mark the readings overlapping any ``[from, to)`` span (a handful of spans)."""
+    out = np.zeros(ctx.n, dtype=bool)
+    for begin, end in spans:
+        out |= (ctx.start_ms < end) & (ctx.end_ms > begin)
+    return out
+
+
+def _residual_la90(ctx: Context, pieces: Pieces, chosen: np.ndarray) -> float:
+    """LA90 of the residual time: the pieces ``chosen`` of readings valid for background.
+
+    From the logged LAF90 of those readings (combined with the background method) where
+    the log has it, else from their LAeq samples (ISO 1996-1 LN, durations as weights).
+    """
+    chosen = chosen & ctx.valid_background[pieces.index] & (pieces.duration_ms > 0)
+    logged = ctx.logged("LAF90")
+    if logged is not None:
+        readings = np.unique(pieces.index[chosen])
+        return combine_logged_levels(logged[readings], ctx.settings.background.method)
+    laeq = ctx.level("LAeq")
+    assert laeq is not None
+    return exceedance_level(laeq[pieces.index][chosen], BACKGROUND_PERCENT,
+                            pieces.weights_ms[chosen])
+
+
+def _source_free_background(
+    ctx: Context, period: str | None, source_readings: np.ndarray,
+    reference: ReferenceLA90 | None, residual: tuple[Pieces, np.ndarray] | None,
+) -> tuple[float, str, str | None]:
+    """Return the unrounded background LA90 an assessment is compared with, basis, note.
+
+    ``source_readings`` are left out of the background (on top of the background
+    exclusions, ``Operating = yes`` among them); ``reference`` is the survey's own
+    reference-interval LA90 (used when there is nothing more to leave out). NaN when
+    there is no background. [dB]
+    """
+    if period is None or ctx.n == 0:
+        return float("nan"), "not available", None
+    method = ctx.settings.background.method
+    if np.any(source_readings & ctx.valid_background) or reference is None:
+        reference = reference_la90(ctx, ctx.valid_background & ~source_readings)
+    value = reference.representative(period, method)
+    if np.isfinite(value):
+        return value, "source-free period", None
+    if residual is not None:
+        value = _residual_la90(ctx, *residual)
+        if np.isfinite(value):
+            return value, "residual time", (
+                f"no sufficient {period}-time background without the source: the LA90 of "
+                "the residual time is used")
+    return float("nan"), "not available", (
+        f"no representative {period} background LA90 without the source, and no valid "
+        "residual time to take it from")
+
+
+def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | None
                ) -> dict[str, Any]:
     """One entry of the ``assessments`` section."""
     from surveytools.indicators.background import residual_correction
@@ -111,6 +201,7 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
 
     residual_settings = ctx.settings.residual
     period_note: str | None = None
+    residual_pieces: tuple[Pieces, np.ndarray] | None = None
     if assessment.use_operating_column:
         selection = "operating column"
         operating = (
@@ -121,20 +212,27 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
             else np.zeros(ctx.n, dtype=bool)  # noqa: E712 (nullable boolean comparison)
         off = (operating == False).fillna(False).to_numpy(dtype=bool) if operating is not None \
             else np.zeros(ctx.n, dtype=bool)  # noqa: E712
-        period = majority_period(ctx, _operating_spans(ctx, on & ctx.valid))
+        pieces, piece_period = _period_pieces(ctx)
+        on_p, off_p = on[pieces.index], off[pieces.index]
+        good = ctx.valid[pieces.index] & (pieces.duration_ms > 0)
+        on_time = np.bincount(piece_period[on_p & good], weights=pieces.duration_ms[on_p & good],
+                              minlength=len(BACKGROUND_PERIODS))
+        period = BACKGROUND_PERIODS[int(np.argmax(on_time))] if on_time.sum() > 0 else None
         if period is not None:
-            same = background_periods_of(ctx, ctx.start_ms) == BACKGROUND_PERIODS.index(period)
-            if np.any(off & same & ctx.valid):
-                on, off = on & same, off & same
-                period_note = (f"source-on and residual readings taken from {period}-time "
+            same = piece_period == BACKGROUND_PERIODS.index(period)
+            if np.any(off_p & same & good):
+                on_p, off_p = on_p & same, off_p & same
+                period_note = (f"source-on and residual time taken from {period}-time "
                                "only, the period holding most of the operating time")
             else:
                 period_note = (f"no valid residual readings in the {period}-time, where most "
                                "of the operating time lies: the residual comes from the other "
                                "period and may not be comparable")
-        on_spans, off_spans = _operating_spans(ctx, on), _operating_spans(ctx, off)
-        total, valid_total = _selected_level(ctx, on)
-        residual, valid_residual = _selected_level(ctx, off)
+        on_spans, off_spans = _piece_spans(pieces, on_p), _piece_spans(pieces, off_p)
+        total, valid_total = _piece_level(ctx, pieces, on_p)
+        residual, valid_residual = _piece_level(ctx, pieces, off_p)
+        source_readings = on  # already out of every background (Operating = yes)
+        residual_pieces = (pieces, off_p)
     else:
         selection = "windows"
         on_spans = window_ms(ctx, assessment.source_on)
@@ -142,6 +240,9 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
         total, valid_total = _windowed_level(ctx, on_spans)
         residual, valid_residual = _windowed_level(ctx, off_spans)
         period = majority_period(ctx, on_spans)
+        source_readings = _overlapping(ctx, on_spans)
+        if off_spans.size and ctx.n:
+            residual_pieces = _window_pieces(ctx, off_spans)
 
     try:
         specific_arr, difference_arr, basis_arr = residual_correction(
@@ -155,8 +256,10 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
     corrections = {name: float(assessment.corrections_db.get(name, 0.0))
                    for name in CORRECTION_NAMES}
     rating = float(rating_level(specific, *(corrections[name] for name in CORRECTION_NAMES)))
-    bg = background[period]["LA90"] if (background and period) else None
-    excess = float(excess_over_background(rating, bg if bg is not None else float("nan")))
+    bg, background_basis, background_note = _source_free_background(
+        ctx, period, source_readings, reference, residual_pieces)
+    # from the unrounded background: every figure is rounded once (design.md §9)
+    excess = float(excess_over_background(rating, bg))
     impact = impact_indication(excess)
 
     notes: list[str] = []
@@ -168,8 +271,8 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
         notes.append(NOTE_UPPER_BOUND.format(limit=residual_settings.upper_bound_at_or_below_db))
     if period_note:
         notes.append(period_note)
-    if period is not None and bg is None:
-        notes.append(f"no representative {period} background LA90")
+    if background_note:
+        notes.append(background_note)
     return {
         "name": assessment.name,
         "position": assessment.position,
@@ -186,15 +289,21 @@ def assess_one(ctx: Context, assessment: Assessment, background: dict[str, Any] 
         "corrections_db": corrections,
         "rating_level": db(rating),
         "background_period": period,
-        "background_LA90": bg,
+        "background_LA90": db(bg),
+        "background_basis": background_basis,
         "excess_over_background": db(excess),
         "impact_indication": impact,
         "note": "; ".join(notes) if notes else None,
     }
 
 
-def assessments_section(ctx: Context, background: dict[str, Any] | None) -> list[dict[str, Any]]:
-    """Assessments of this survey's position, in settings order."""
+def assessments_section(ctx: Context, reference: ReferenceLA90 | None = None
+                        ) -> list[dict[str, Any]]:
+    """Assessments of this survey's position, in settings order.
+
+    ``reference`` is the survey's own :func:`~.background.reference_la90` when the caller
+    has it (it saves computing it again).
+    """
     position = ctx.survey.metadata.get("position")
-    return [assess_one(ctx, a, background) for a in ctx.settings.assessments
+    return [assess_one(ctx, a, reference) for a in ctx.settings.assessments
             if a.position == position]

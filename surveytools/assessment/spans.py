@@ -9,7 +9,7 @@ import pandas as pd
 
 from surveytools.assessment._common import MS_PER_S, run_spans, seconds
 from surveytools.assessment.context import Context
-from surveytools.assessment.timegrid import format_local, position_tz
+from surveytools.assessment.timegrid import format_local, site_tz
 from surveytools.survey import Survey
 
 #: Survey metadata keys copied into the results (results_spec.md ``survey``).
@@ -32,6 +32,7 @@ def survey_section(survey: Survey) -> dict[str, Any]:
     """Return the ``survey`` section: metadata, calibration drift, readings sheet, level columns."""
     meta = survey.metadata
     out: dict[str, Any] = {key: _plain(meta.get(key)) for key in SURVEY_KEYS}
+    out["time_zone_assumed"] = bool(meta.get("time_zone_assumed", False))
     before, after = out["calibration_before_db"], out["calibration_after_db"]
     drift = None
     if isinstance(before, int | float) and isinstance(after, int | float):
@@ -111,7 +112,7 @@ def reading_annotations(survey: Survey) -> pd.DataFrame:
     (background-only reasons marked). Built vectorially, for the workbook writer.
     """
     readings = survey.readings
-    tz = position_tz(survey.metadata)
+    tz = site_tz(survey.metadata)
     start = readings["start_ms"].to_numpy(dtype=np.int64)
     return pd.DataFrame({
         "row": readings["row"].to_numpy(dtype=np.int64),

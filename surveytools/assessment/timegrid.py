@@ -1,10 +1,13 @@
-"""The position's clock: local wall-clock boundaries as UTC instants, and local ISO text.
+"""The site's civil time: wall-clock boundaries as UTC instants, and local ISO text.
 
 Everything inside the assessment runs on one time axis, UTC epoch milliseconds (int64).
-Period boundaries are *local wall-clock* times ("07:00", "23:00") converted to UTC
-instants per calendar day with :mod:`zoneinfo`, so a DST day keeps its wall-clock bounds
-and simply lasts 23 h or 25 h (a night of 7 h or 9 h). Timestamps shown to people are
-ISO 8601 in the position's local clock with its UTC offset.
+Period boundaries are *site civil* times ("07:00", "23:00" in the site's ``Time zone``,
+with its summer time) converted to UTC instants per calendar day with :mod:`zoneinfo`,
+so a DST day keeps its wall-clock bounds and simply lasts 23 h or 25 h (a night of 7 h
+or 9 h). Timestamps shown to people are ISO 8601 in the site's civil time with its UTC
+offset. The meter's ``Clock`` (local, UTC or a fixed offset) only decides how its
+readings became UTC instants (:mod:`surveytools.validation.timebase`); it never moves a
+period (design.md §9).
 """
 
 from __future__ import annotations
@@ -28,30 +31,38 @@ MS_PER_S = 1000
 MINUTES_PER_HOUR = 60
 SECONDS_PER_MINUTE = 60
 
-def position_tz(metadata: dict[str, object]) -> tzinfo:
-    """Return the time zone of the position's clock (the rule of validation's ``parse_clock``).
+def site_tz(metadata: dict[str, object]) -> tzinfo:
+    """Return the site's civil time zone (``time_zone``), whatever the meter's clock.
 
-    ``clock`` ``"UTC"`` -> UTC; ``"UTC+hh:mm"`` -> that fixed offset; ``"local"`` (or
-    missing) -> ``ZoneInfo(time_zone)`` (``time_zone`` may itself be a fixed offset).
+    ``time_zone`` is an IANA name (with summer time), ``"UTC"`` or ``"UTC+hh:mm"``. When
+    it is missing (validation fills an assumed zone and warns ``time-zone-assumed``;
+    this covers Surveys built directly), a fixed-offset clock's offset is the site time,
+    otherwise UTC.
 
     Raises
     ------
     SettingsError
-        If the clock or zone is not one of those forms (validation reports it for the Survey
-        sheet first; reaching here means the default from the settings is wrong).
+        If the zone is not one of those forms (validation reports it for the Survey sheet
+        first; reaching here means the default from the settings is wrong).
     """
-    from surveytools.validation.timebase import parse_clock
+    from surveytools.validation.timebase import parse_clock, parse_site_zone
 
+    zone = str(metadata.get("time_zone") or "").strip()
     clock = str(metadata.get("clock") or "local").strip()
     clock = {"local": "local", "utc": "UTC"}.get(clock.lower(), clock)
-    zone = str(metadata.get("time_zone") or "UTC").strip()
     try:
-        return parse_clock(clock, zone).tzinfo()
+        if zone:
+            return parse_site_zone(zone)
+        return parse_clock(clock, "UTC").tzinfo()
     except ValueError as exc:
-        what = (f"clock {clock!r} is not 'local', 'UTC' or 'UTC+hh:mm'" if "clock" in str(exc)
-                else f"time zone {zone!r} is not an IANA zone name; give e.g. "
-                     "'Europe/Berlin' or a fixed offset such as 'UTC+01:00'")
+        what = (f"time zone {zone!r} is not an IANA zone name; give e.g. 'Europe/Berlin' "
+                "or a fixed offset such as 'UTC+01:00'" if zone
+                else f"clock {clock!r} is not 'local', 'UTC' or 'UTC+hh:mm'")
         raise SettingsError(what) from exc
+
+
+#: Former name of :func:`site_tz` (periods always follow the site's civil time).
+position_tz = site_tz
 
 
 def parse_hhmm(text: str) -> tuple[int, int]:
@@ -100,7 +111,7 @@ def local_text_to_utc_ms(text: str, tz: tzinfo) -> int:
     except ValueError as exc:
         raise SettingsError(
             f"assessment window time {text!r} is not a date and time; write it as "
-            "'2026-07-03 22:00' (the position's local clock)"
+            "'2026-07-03 22:00' (the site's civil time)"
         ) from exc
     if moment.tzinfo is None:
         moment = moment.replace(tzinfo=tz)
@@ -175,7 +186,7 @@ def stepped_grid(
 
 
 def utc_offsets_ms(ms: ArrayLike, tz: tzinfo) -> IntArray:
-    """UTC offset [ms] of the position's clock at each instant (vectorised with pandas)."""
+    """UTC offset [ms] of the site's civil time at each instant (vectorised with pandas)."""
     values = np.asarray(ms, dtype=np.int64)
     if values.size == 0:
         return values.copy()
@@ -185,7 +196,7 @@ def utc_offsets_ms(ms: ArrayLike, tz: tzinfo) -> IntArray:
 
 
 def format_local(ms: ArrayLike, tz: tzinfo) -> list[str]:
-    """ISO 8601 text in the local clock with offset; milliseconds only when non-zero.
+    """ISO 8601 text in the site's civil time with offset; milliseconds only when non-zero.
 
     ``1781085600000`` in Europe/Berlin -> ``"2026-06-10T12:00:00+02:00"``;
     with 100 ms -> ``"2026-06-10T12:00:00.100+02:00"``. Vectorised: the wall-clock part

@@ -9,7 +9,15 @@ with each sample holding its level for its duration. For equal durations this is
 "strictly exceeded" column of the 20-sample table in standards.md §10 (the (k+1)-th
 highest sample, k = ⌈N n / 100⌉, when N n / 100 is a whole number; L10 = 58, L50 = 47,
 L90 = 44 there), not the "equalled or exceeded" column and not linear interpolation.
-It equals numpy's weighted ``inverted_cdf`` quantile at ``1 - N/100``.
+
+The definition is held *exactly* (design.md §9): durations are whole numbers (integer
+milliseconds, or the caller's integer weights) summed in int64, and N is the exact
+decimal fraction of its shortest text (``95`` -> 95/100, ``99.9`` -> 999/1000), so the
+comparison ``time at or below L >= (1 - N/100) T`` is decided in integers. Floating
+``1 - N/100`` would move ties: with 100 one-minute readings at 30.0, 30.1 ... 39.9 dB,
+LA95 is 30.4 and LA99 30.0 (the float comparison gives 30.5 and 30.1).
+It equals numpy's weighted ``inverted_cdf`` quantile at ``1 - N/100`` wherever that
+quantile is exact in binary (N = 0, 25, 50, 75, 100).
 
 LN computed from interval LAeq samples is not the meter's LAFN (from 125 ms F-weighted
 samples); callers label which basis they used.
@@ -18,11 +26,13 @@ samples); callers label which basis they used.
 from __future__ import annotations
 
 from collections.abc import Callable
+from fractions import Fraction
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from surveytools.constants import (
+    MS_PER_S,
     PERCENT_OF_WHOLE,
     WHOLE_DB_HALF_STEP_DB,
     WHOLE_DB_STEP_DB,
@@ -40,6 +50,7 @@ __all__ = [
     "exceedance_levels",
     "exceedance_levels_from_step_times",
     "grouped_exceedance_levels",
+    "integer_weights",
     "level_order",
     "level_step_times",
     "whole_db_distribution",
@@ -48,12 +59,75 @@ __all__ = [
 #: Named ways to combine per-interval logged LAFN values over a longer period.
 COMBINE_METHODS = ("median", "mode", "mean")
 
+#: Exact share of the time at or below LN, ``1 - N/100`` as (numerator, denominator);
+#: None for an N outside [0, 100] or not a number.
+Target = tuple[int, int] | None
+IntArray = NDArray[np.int64]
 
-def _cdf_targets(percents: ArrayLike) -> FloatArray:
-    """Return ``1 - N/100`` per percent; NaN for percents outside [0, 100] or NaN."""
+#: Bound below which int64 products and sums are safe (2**62, int64 holds < 2**63).
+_INT64_SAFE = 2**62
+#: Bound on a total of weights summed exactly in binary64 by ``np.bincount`` (2**53,
+#: IEEE 754 binary64: 53-bit significand).
+_EXACT_LIMIT = 2**53
+
+
+def _targets(percents: ArrayLike) -> list[Target]:
+    """Return ``1 - N/100`` per percent as an exact fraction (None where N is not usable).
+
+    N is read as the decimal number of its shortest text (``repr``), so ``99.9`` is
+    999/1000 exactly, not the binary double nearest to it.
+    """
     values = np.atleast_1d(as_float_array(percents)).astype(np.float64).ravel()
-    ok = np.isfinite(values) & (values >= 0) & (values <= PERCENT_OF_WHOLE)
-    return np.where(ok, 1.0 - values / PERCENT_OF_WHOLE, np.nan)
+    out: list[Target] = []
+    for value in values.tolist():
+        if not (np.isfinite(value) and 0 <= value <= PERCENT_OF_WHOLE):
+            out.append(None)
+            continue
+        share = 1 - Fraction(repr(float(value))) / int(PERCENT_OF_WHOLE)
+        out.append((share.numerator, share.denominator))
+    return out
+
+
+def _thresholds(target: tuple[int, int], totals: IntArray) -> IntArray:
+    """Least whole cumulative time reaching ``target`` of each total: ceil(num T / den).
+
+    ``cumulative >= ceil(num T / den)`` holds exactly when ``cumulative / T >= num / den``.
+    """
+    num, den = target
+    if totals.size and int(totals.max()) * max(num, 1) >= _INT64_SAFE:
+        exact = [-((-num * int(t)) // den) for t in totals.tolist()]  # Python integers
+        return np.asarray(exact, dtype=np.int64)
+    return -((-num * totals) // den)
+
+
+def integer_weights(weights: ArrayLike) -> IntArray:
+    """Durations as whole numbers for exact sums; 0 where not usable.
+
+    Whole-number weights (integer milliseconds, counts) are kept as they are; any other
+    durations are read as seconds and resolved to whole milliseconds (the tool's time
+    resolution). Not-finite and non-positive weights become 0 (left out).
+
+    Parameters
+    ----------
+    weights : array-like
+        Durations or whole-number weights. [s] or [ms]
+
+    Returns
+    -------
+    numpy.ndarray of int64
+        Whole weights with a total below 2**53.
+    """
+    w = as_float_array(weights).ravel()
+    ok = np.isfinite(w) & (w > 0)
+    w = np.where(ok, w, 0.0)
+    if not np.array_equal(w, np.rint(w)):
+        w = np.rint(w * MS_PER_S)
+    total = float(np.sum(w))
+    if total >= _EXACT_LIMIT:
+        # beyond 2**53 units (285 years of milliseconds) a sum is no longer exact; scale
+        # down to keep the int64 arithmetic bounded (only ratios matter)
+        w = np.rint(w * (_EXACT_LIMIT / 2 / total))
+    return w.astype(np.int64)
 
 
 def _check_order(order: ArrayLike, size: int) -> NDArray[np.intp]:
@@ -137,14 +211,14 @@ def _weights(levels_db: ArrayLike, durations_s: ArrayLike | None) -> FloatArray:
 
 
 def _sorted_valid(
-    levels: FloatArray, weights: FloatArray, order: ArrayLike | None = None,
-) -> tuple[FloatArray, FloatArray]:
-    """Finite levels with positive finite weights, sorted by level, and their weights.
+    levels: FloatArray, weights: IntArray, order: ArrayLike | None = None,
+) -> tuple[FloatArray, IntArray]:
+    """Finite levels with positive whole weights, sorted by level, and their weights.
 
     ``levels`` and ``weights`` are flat and of equal length; ``order`` is the stable
     level order of all of ``levels`` when the caller has it.
     """
-    keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0)
+    keep = np.isfinite(levels) & (weights > 0)
     if order is None:
         levels, weights = levels[keep], weights[keep]
         chosen = _stable_order(levels)
@@ -169,13 +243,15 @@ def exceedance_levels(
     levels_db : array-like
         Sample levels (e.g. 1 s or 1 min LAeq). [dB]
     percents : array-like
-        The N values. [%]
+        The N values, read as exact decimals. [%]
     durations_s : array-like, optional
-        Time each sample represents (weights); equal if omitted. [s]
+        Time each sample represents (weights); equal if omitted. Whole numbers are used
+        as they are (integer milliseconds may be passed: only ratios matter); other
+        values are seconds, resolved to whole milliseconds. [s]
     level_order : array-like of int, or a function returning it, optional
         :func:`level_order` of ``levels_db``, when several computations share it (it
         saves the sort; the result is the same). A function is called only when a sort
-        is needed (levels on a 0.1 dB grid with exact weights are counted, not sorted).
+        is needed (levels on a 0.1 dB grid are counted, not sorted).
 
     Returns
     -------
@@ -191,37 +267,37 @@ def exceedance_levels(
 
     Notes
     -----
-    With weights :math:`t_{(j)}` of the levels sorted upwards, :math:`L_N` is the first
-    :math:`L_{(j)}` whose normalised cumulative weight
-    :math:`\sum_{i \le j} t_{(i)} / T` reaches :math:`1 - N/100`. Ties at an exact
-    cumulative boundary are resolved exactly when the durations are exact binary
-    fractions (whole seconds, multiples of 1/8 s) or when integer milliseconds are passed
-    as weights (only ratios matter).
+    With whole weights :math:`t_{(j)}` of the levels sorted upwards and total
+    :math:`T`, :math:`L_N` is the first :math:`L_{(j)}` whose cumulative weight
+    :math:`\sum_{i \le j} t_{(i)}` reaches :math:`\lceil (1 - N/100) T \rceil`, all in
+    integers: the time strictly above it is then at most N % of :math:`T`, exactly.
 
     References
     ----------
     .. [1] ISO 1996-1:2016, N percent exceedance level (level exceeded for N % of the time
        interval considered).
-    .. [2] design.md §5 (the convention pinned here).
+    .. [2] design.md §5 and §9 (the convention pinned here, held exactly).
     """
-    targets = _cdf_targets(percents)
+    targets = _targets(percents)
     flat = as_float_array(levels_db).ravel()
     if level_order is not None and not callable(level_order):
         _check_order(level_order, flat.size)  # a caller's mistake is refused either way
-    flat_weights = _weights(levels_db, durations_s)
+    flat_weights = integer_weights(_weights(levels_db, durations_s))
     counted = _histogram_levels(flat, flat_weights, np.zeros(flat.size, np.int64), 1, targets)
     if counted is not None:
         return counted[0]
     levels, weights = _sorted_valid(flat, flat_weights,
                                     level_order() if callable(level_order) else level_order)
-    out = np.full(targets.shape, np.nan)
+    out = np.full(len(targets), np.nan)
     if levels.size == 0:
         return out
-    cdf = np.cumsum(weights)
-    cdf /= cdf[-1]
-    ok = np.isfinite(targets)
-    index = np.searchsorted(cdf, targets[ok], side="left")
-    out[ok] = levels[np.minimum(index, levels.size - 1)]
+    cumulative = np.cumsum(weights)
+    total = cumulative[-1:]
+    for column, target in enumerate(targets):
+        if target is None:
+            continue
+        index = int(np.searchsorted(cumulative, _thresholds(target, total)[0], side="left"))
+        out[column] = levels[min(index, levels.size - 1)]
     return out
 
 
@@ -233,7 +309,8 @@ def exceedance_level(
     .. math:: L_N = \min\{L : \sum_{i: L_i > L} t_i \le \tfrac{N}{100} T\}
 
     Our convention matches the "strictly exceeded" column of standards.md §10 (for the
-    20 equal samples there: L10 = 58, L50 = 47, L90 = 44).
+    20 equal samples there: L10 = 58, L50 = 47, L90 = 44); it is decided exactly (integer
+    milliseconds, N as an exact decimal).
 
     Parameters
     ----------
@@ -242,7 +319,8 @@ def exceedance_level(
     percent : float
         N. [%]
     durations_s : array-like, optional
-        Time each sample represents (weights); equal if omitted. [s]
+        Time each sample represents (weights); equal if omitted (see
+        :func:`exceedance_levels`). [s]
 
     Returns
     -------
@@ -253,7 +331,7 @@ def exceedance_level(
     References
     ----------
     .. [1] ISO 1996-1:2016, N percent exceedance level.
-    .. [2] design.md §5.
+    .. [2] design.md §5 and §9.
     """
     return float(exceedance_levels(levels_db, [percent], durations_s)[0])
 
@@ -270,18 +348,17 @@ def grouped_exceedance_levels(
 
     Samples are sorted by (group, level): stably by level (or in the caller's
     ``level_order``), then stably by group, the order of ``np.lexsort((levels, groups))``;
-    cumulative weights restart
-    in each group and are normalised by the group total; for each percent the first
-    sample per group whose normalised cumulative weight reaches ``1 - N/100`` is found by
-    counting, per group, the samples below the target (the same comparison as
-    :func:`exceedance_level`, so results are identical group by group).
+    whole cumulative weights restart in each group; for each percent the first sample per
+    group whose cumulative weight reaches the group's exact threshold (see
+    :func:`exceedance_levels`) is found by counting, per group, the samples below it, so
+    results are identical group by group.
 
     Parameters
     ----------
     levels_db : array-like
         Sample levels. [dB]
     durations_s : array-like or None
-        Time each sample represents; equal if None. [s]
+        Time each sample represents; equal if None (see :func:`exceedance_levels`). [s]
     groups : array-like of int
         Group index per sample, ``0 .. n_groups-1``; -1 means no group.
     n_groups : int
@@ -306,17 +383,19 @@ def grouped_exceedance_levels(
     References
     ----------
     .. [1] ISO 1996-1:2016, N percent exceedance level.
-    .. [2] design.md §5.
+    .. [2] design.md §5 and §9.
     """
-    targets = _cdf_targets(percents)
-    levels, weights, group_index = grouped_arrays(levels_db, durations_s, groups, n_groups)
+    targets = _targets(percents)
+    levels, float_weights, group_index = grouped_arrays(levels_db, durations_s, groups,
+                                                        n_groups)
+    weights = integer_weights(float_weights)
     if level_order is not None and not callable(level_order):
         _check_order(level_order, levels.size)  # a caller's mistake is refused either way
     counted = _histogram_levels(levels, weights, group_index, n_groups, targets)
     if counted is not None:
         return counted
-    out = np.full((n_groups, targets.size), np.nan)
-    keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0) & (group_index >= 0)
+    out = np.full((n_groups, len(targets)), np.nan)
+    keep = np.isfinite(levels) & (weights > 0) & (group_index >= 0)
     if callable(level_order):
         level_order = level_order()
     by_level = (_stable_order(levels) if level_order is None
@@ -329,19 +408,21 @@ def grouped_exceedance_levels(
 
     counts = np.bincount(group_index, minlength=n_groups)
     starts = np.concatenate(([0], np.cumsum(counts)[:-1]))
-    # Cumulative weights restart in each group. A cumsum over the whole array minus the
-    # group's offset would round differently from the per-group cumsum of
-    # exceedance_level, so the restart is done exactly (see _segmented_cumsum).
-    cdf = _segmented_cumsum(weights, starts, counts)
-    totals = cdf[np.maximum(starts + counts - 1, 0)]
-    cdf = cdf / totals[group_index]
-
+    # whole numbers: one running sum minus the sum before each group is exact
+    running = np.cumsum(weights)
+    before = np.concatenate(([0], running))[starts]
+    cumulative = running - np.repeat(before, counts)
+    totals = np.zeros(n_groups, np.int64)
     has_samples = counts > 0
+    totals[has_samples] = cumulative[(starts + counts - 1)[has_samples]]
+
     last = starts + counts - 1
     for column, target in enumerate(targets):
-        if not np.isfinite(target):
+        if target is None:
             continue
-        below = np.bincount(group_index, weights=(cdf < target), minlength=n_groups)
+        threshold = _thresholds(target, totals)
+        below = np.bincount(group_index, weights=(cumulative < threshold[group_index]),
+                            minlength=n_groups)
         index = np.minimum(starts + below.astype(np.int64), last)
         out[has_samples, column] = levels[index[has_samples]]
     return out
@@ -353,13 +434,6 @@ _LEVEL_STEPS_PER_DB = (10.0, 100.0)
 _INT16_TOP = int(np.iinfo(np.int16).max)
 #: Number of leading levels checked against a grid before all of them are (own choice).
 _GRID_PROBE = 1024
-
-#: Grid of exactly summable weights (1/1024 of their unit) and the bound on their total in
-#: grid units below which binary64 sums of them are exact (2**53, IEEE 754 binary64: 53-bit
-#: significand).
-_EXACT_GRID = 1024.0
-_EXACT_LIMIT = 2.0**53
-
 
 #: Largest level-histogram size (groups x level steps) of :func:`_histogram_levels`, as a
 #: multiple of the number of samples, and the size always allowed (own choice: beyond
@@ -390,27 +464,24 @@ def _grid_steps(values: FloatArray, negative_zero_ok: bool = False
 
 
 def _histogram_levels(
-    levels: FloatArray, weights: FloatArray, group_index: NDArray[np.int64], n_groups: int,
-    targets: FloatArray,
+    levels: FloatArray, weights: IntArray, group_index: NDArray[np.int64], n_groups: int,
+    targets: list[Target],
 ) -> FloatArray | None:
-    """LN per group by counting time per level step instead of sorting; None if not exact.
+    """LN per group by counting time per level step instead of sorting; None if not usable.
 
-    Applies when every counted level lies on a 0.1 dB (or 0.01 dB) grid and every weight
-    on a 1/1024 grid with a total below 2**53 units (whole milliseconds, whole seconds):
-    then every partial sum of weights is exact in binary64 whatever the order of
-    addition, so the cumulative time at the end of each level step equals, bit for bit,
-    the cumulative weight of the last sample of that step in the sorted order of
-    :func:`grouped_exceedance_levels`, and the first step whose normalised cumulative
-    time reaches ``1 - N/100`` holds the first sample that does: the results are
-    identical, in time linear in the number of samples.
+    Applies when every counted level lies on a 0.1 dB (or 0.01 dB) grid and the total of
+    the whole weights is below 2**53 (so ``np.bincount`` sums them exactly): the
+    cumulative time at the end of each level step is then the cumulative weight of the
+    last sample of that step in the sorted order of :func:`grouped_exceedance_levels`,
+    and the first step reaching the exact threshold holds the first sample that does:
+    the results are identical, in time linear in the number of samples.
     """
-    keep = np.isfinite(levels) & np.isfinite(weights) & (weights > 0) & (group_index >= 0)
+    keep = np.isfinite(levels) & (weights > 0) & (group_index >= 0)
     if not keep.all():
         levels, weights, group_index = levels[keep], weights[keep], group_index[keep]
     if levels.size == 0:
         return None
-    scaled = weights * _EXACT_GRID
-    if not (np.all(scaled == np.rint(scaled)) and float(np.sum(scaled)) < _EXACT_LIMIT):
+    if int(np.sum(weights)) >= _EXACT_LIMIT:
         return None
     grid = _grid_steps(levels)
     if grid is None:
@@ -424,25 +495,26 @@ def _histogram_levels(
         return None
     cell = group_index * n_steps + (steps - low)
     time_per_step = np.bincount(cell, weights=weights, minlength=n_groups * n_steps)
-    return _levels_from_step_times(time_per_step.reshape(n_groups, n_steps).astype(np.float64), low,
-                                   steps_per_db, targets)
+    return _levels_from_step_times(time_per_step.astype(np.int64).reshape(n_groups, n_steps),
+                                   low, steps_per_db, targets)
 
 
-def _levels_from_step_times(time_per_step: FloatArray, low: int, steps_per_db: float,
-                            targets: FloatArray) -> FloatArray:
-    """LN per row of a (groups, level steps) table of time; step ``k`` is ``low + k``."""
+def _levels_from_step_times(time_per_step: IntArray, low: int, steps_per_db: float,
+                            targets: list[Target]) -> FloatArray:
+    """LN per row of a (groups, level steps) table of whole time; step ``k`` is ``low + k``."""
     n_groups = time_per_step.shape[0]
     cumulative = np.cumsum(time_per_step, axis=1)
     totals = cumulative[:, -1]
     has_samples = totals > 0
-    cdf = cumulative[has_samples] / totals[has_samples, None]
+    cumulative = cumulative[has_samples]
     occupied = time_per_step[has_samples] > 0
-    out = np.full((n_groups, targets.size), np.nan)
+    out = np.full((n_groups, len(targets)), np.nan)
     for column, target in enumerate(targets):
-        if not np.isfinite(target):
+        if target is None:
             continue
-        # the first occupied step reaching the target (an empty step adds no sample)
-        step = np.argmax(occupied & (cdf >= target), axis=1)
+        threshold = _thresholds(target, totals[has_samples])
+        # the first occupied step reaching the threshold (an empty step adds no sample)
+        step = np.argmax(occupied & (cumulative >= threshold[:, None]), axis=1)
         out[has_samples, column] = (low + step) / steps_per_db
     return out
 
@@ -450,7 +522,7 @@ def _levels_from_step_times(time_per_step: FloatArray, low: int, steps_per_db: f
 def level_step_times(
     levels_db: ArrayLike, durations: ArrayLike, groups: ArrayLike, n_groups: int,
     first_step: int, n_steps: int, steps_per_db: float,
-) -> FloatArray:
+) -> IntArray:
     r"""Time spent at each level step, per group: counts that merge by addition.
 
     Each level is taken to its nearest step ``k = round(L * steps_per_db)`` (exact for
@@ -464,8 +536,8 @@ def level_step_times(
     levels_db : array-like
         Sample levels; non-finite ones are left out. [dB]
     durations : array-like
-        Time each sample represents, in any unit (whole milliseconds keep sums exact);
-        non-positive or non-finite ones are left out.
+        Time each sample represents, read as :func:`integer_weights` reads it (whole
+        milliseconds stay as they are); non-positive or non-finite ones are left out.
     groups : array-like of int
         Group per sample, ``0 .. n_groups-1``; -1: in no group.
     n_groups, first_step, n_steps : int
@@ -475,23 +547,23 @@ def level_step_times(
 
     Returns
     -------
-    numpy.ndarray
-        Time per (group, step), shape ``(n_groups, n_steps)``, in the unit of ``durations``.
+    numpy.ndarray of int64
+        Whole time per (group, step), shape ``(n_groups, n_steps)``.
 
     References
     ----------
     .. [1] ISO 1996-1:2016, N percent exceedance level (time above a level).
     """
     levels = as_float_array(levels_db).ravel()
-    weights = as_float_array(durations).ravel()
+    weights = integer_weights(durations)
     group_index = np.asarray(groups, dtype=np.int64).ravel()
-    keep = (np.isfinite(levels) & np.isfinite(weights) & (weights > 0) & (group_index >= 0)
+    keep = (np.isfinite(levels) & (weights > 0) & (group_index >= 0)
             & (group_index < n_groups))
     steps = np.clip(np.rint(levels[keep] * steps_per_db).astype(np.int64) - first_step,
                     0, n_steps - 1)
     cell = group_index[keep] * n_steps + steps
     table = np.bincount(cell, weights=weights[keep], minlength=n_groups * n_steps)
-    return table.reshape(n_groups, n_steps).astype(np.float64)
+    return table.astype(np.int64).reshape(n_groups, n_steps)
 
 
 def exceedance_levels_from_step_times(
@@ -500,13 +572,13 @@ def exceedance_levels_from_step_times(
     r"""Exceedance levels LN from the time spent at each level step.
 
     The same convention as :func:`exceedance_levels` (the lowest occupied step whose
-    cumulative time reaches ``1 - N/100`` of the total), on a table from
-    :func:`level_step_times` (possibly summed over parts).
+    cumulative time reaches ``1 - N/100`` of the total, decided exactly in whole time), on
+    a table from :func:`level_step_times` (possibly summed over parts).
 
     Parameters
     ----------
-    time_per_step : array-like
-        Time per (group, step); one row per group (a 1-D table is one group).
+    time_per_step : array-like of int
+        Whole time per (group, step); one row per group (a 1-D table is one group).
     first_step : int
         Step of the first column (level ``first_step / steps_per_db``).
     steps_per_db : float
@@ -525,44 +597,9 @@ def exceedance_levels_from_step_times(
     .. [1] ISO 1996-1:2016, N percent exceedance level.
     .. [2] design.md §5 (the convention pinned here).
     """
-    table = np.atleast_2d(as_float_array(time_per_step))
+    table = np.atleast_2d(np.asarray(time_per_step, dtype=np.int64))
     return _levels_from_step_times(table, int(first_step), float(steps_per_db),
-                                   _cdf_targets(percents))
-
-
-def _segmented_cumsum(
-    weights: FloatArray, starts: NDArray[np.int64], counts: NDArray[np.int64]
-) -> FloatArray:
-    """Cumulative sum restarting at each segment, bit-identical to a per-segment cumsum.
-
-    The segments are laid out as rows of a zero-padded 2-D array (rows = segments,
-    columns = position in segment) and summed along the rows with one ``np.cumsum``;
-    adding zeros after a segment's end changes nothing, and each row is summed in the
-    same order as a stand-alone ``np.cumsum`` of that segment.
-    """
-    n_segments = counts.size
-    if weights.size and np.all(weights >= 0):
-        # Weights on a 1/1024 grid (whole seconds, 1/8 s ...) with a total below 2**53 units:
-        # every partial sum is exact in any order, so one cumsum minus the sum before each
-        # segment gives the same bits as the per-segment cumsum.
-        scaled = weights * _EXACT_GRID
-        if np.all(scaled == np.rint(scaled)) and float(np.sum(scaled)) < _EXACT_LIMIT:
-            running = np.cumsum(weights)
-            before = np.concatenate(([0.0], running))[starts]
-            return running - np.repeat(before, counts)
-    width = int(counts.max()) if n_segments else 0
-    position = np.arange(weights.size) - np.repeat(starts, counts)
-    row = np.repeat(np.arange(n_segments), counts)
-    if n_segments * width <= 4 * weights.size + 1024:
-        padded = np.zeros((n_segments, width))
-        padded[row, position] = weights
-        return np.cumsum(padded, axis=1)[row, position]
-    # Very uneven segments: padding would be wasteful; fall back to one cumsum per
-    # non-empty segment (a loop over groups, not over readings).
-    out = np.empty_like(weights)
-    for start, count in zip(starts[counts > 0], counts[counts > 0], strict=True):
-        out[start : start + count] = np.cumsum(weights[start : start + count])
-    return out
+                                   _targets(percents))
 
 
 def whole_db_distribution(values_db: ArrayLike) -> tuple[FloatArray, NDArray[np.int64]]:

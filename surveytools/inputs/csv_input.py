@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import csv
 import io
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -41,8 +41,9 @@ _DELIMITERS = (",", ";", "\t")
 _TIME_ONLY_DAY = "1899-12-31 "
 
 
-def read_csv_table(path: str | Path, settings: Settings | None = None) -> RawWorkbook:
-    """Read a CSV readings log.
+def read_csv_table(path: str | Path, settings: Settings | None = None,
+                   role: str = "readings") -> RawWorkbook:
+    """Read a CSV readings log (or, with ``role="weather"``, a CSV of weather intervals).
 
     Parameters
     ----------
@@ -50,11 +51,14 @@ def read_csv_table(path: str | Path, settings: Settings | None = None) -> RawWor
         The CSV file (read-only).
     settings : Settings, optional
         Uses ``settings.column_map``.
+    role : {"readings", "weather"}
+        Which header vocabulary finds the header row, and which slot gets the table.
 
     Returns
     -------
     RawWorkbook
-        ``readings`` holds the table (sheet name = file stem); ``survey`` is None.
+        ``readings`` (or ``weather``) holds the table (sheet name = file stem); ``survey``
+        is None.
 
     Raises
     ------
@@ -63,6 +67,7 @@ def read_csv_table(path: str | Path, settings: Settings | None = None) -> RawWor
         ``csv-unreadable`` (malformed quoting).
     """
     settings = settings or Settings()
+    vocabulary = cols.WEATHER_COLUMNS if role == "weather" else cols.READINGS_COLUMNS
     p = Path(path)
     size = p.stat().st_size
     if size == 0:
@@ -82,13 +87,13 @@ def read_csv_table(path: str | Path, settings: Settings | None = None) -> RawWor
                 "'CSV UTF-8' and retry.") from exc
         head = head_bytes[: exc.start].decode("utf-8-sig")
     lines = head.splitlines()[:HEADER_SEARCH_ROWS]
-    delimiter = _detect_delimiter(lines)
+    delimiter = _detect_delimiter(lines, vocabulary)
     rows = list(csv.reader(io.StringIO("\n".join(lines)), delimiter=delimiter))
     sheet = p.stem
     findings: list[Finding] = []
     best, score = None, 0
     for i, row in enumerate(rows):
-        matched, _, _ = cols.match_columns(row, cols.READINGS_COLUMNS, settings.column_map)
+        matched, _, _ = cols.match_columns(row, vocabulary, settings.column_map)
         if len(matched) > score:
             best, score = i, len(matched)
     if best is None:
@@ -112,7 +117,7 @@ def read_csv_table(path: str | Path, settings: Settings | None = None) -> RawWor
     columns: list[RawColumn] = []
     for j, header in enumerate(headers):
         raw = frame[j] if j in frame.columns else pd.Series([""] * len(frame), dtype=object)
-        name = cols.canonical_name(header, cols.READINGS_COLUMNS, settings.column_map)
+        name = cols.canonical_name(header, vocabulary, settings.column_map)
         col = _convert(raw, header, column_letters(j + 1), name)
         if not header and col.kind == "empty":
             continue
@@ -123,16 +128,20 @@ def read_csv_table(path: str | Path, settings: Settings | None = None) -> RawWor
         c.text_cells = {k: v for k, v in c.text_cells.items() if k < n}
     table = RawTable(sheet, header_row, columns, n)
     _clean(table, findings)
+    if role == "weather":
+        return RawWorkbook(source=source, readings=None, weather=table, findings=findings,
+                           date_system=1900)
     return RawWorkbook(source=source, readings=table, findings=findings, date_system=1900)
 
 
-def _detect_delimiter(lines: Sequence[str]) -> str:
+def _detect_delimiter(lines: Sequence[str],
+                      vocabulary: Mapping[str, Sequence[str]] = cols.READINGS_COLUMNS) -> str:
     """Return the delimiter that splits the most header-like line into the most fields."""
     best, best_fields = ",", 0
     for d in _DELIMITERS:
         for line in lines:
             fields = next(csv.reader([line], delimiter=d), [])
-            matched, _, _ = cols.match_columns(fields, cols.READINGS_COLUMNS)
+            matched, _, _ = cols.match_columns(fields, vocabulary)
             if len(matched) > best_fields:
                 best, best_fields = d, len(matched)
     return best

@@ -96,7 +96,7 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
     sw.text(0, 0, "Sound survey batch overview", "title", measure=False)
     sw.text(1, 0, f"Written by {tool.get('name', 'surveytools')} {tool.get('version', '')}. "
                   "Levels are survey averages over all valid time; times are each "
-                  "position's local clock.", "note", measure=False)
+                  "site's civil time (its time zone).", "note", measure=False)
     row = 3
     sw.text(row, 0, "CAUTIONS", "subtitle", measure=False)
     row += 1

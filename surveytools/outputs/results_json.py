@@ -33,8 +33,9 @@ SCHEMA_VERSION = "1.0"
 RESULTS_SCHEMA = "results.schema.json"
 #: Schema file of the batch overview (in ``schemas/``).
 OVERVIEW_SCHEMA = "overview.schema.json"
-#: Decimal places of levels in JSON (workbooks show one) [digits].
-LEVEL_DECIMALS = 2
+#: Decimal places of levels in JSON (workbooks show one; the assessment keeps full
+#: precision where 0.001 dB would re-round to another reported figure) [digits].
+LEVEL_DECIMALS = 3
 #: JSON indentation; one space keeps long interval lists readable but short.
 JSON_INDENT = 1
 
@@ -54,7 +55,7 @@ def round_level(x: Any, ndigits: int = LEVEL_DECIMALS) -> float | None:
     x : float, numpy scalar or None
         Level. [dB]
     ndigits : int
-        Decimal places (0.01 dB by default, as the results contract states).
+        Decimal places (0.001 dB by default, as the results contract states).
 
     Returns
     -------

@@ -29,6 +29,11 @@ import numpy as np
 import pandas as pd
 import xlsxwriter
 
+from surveytools.outputs.episodes import (
+    SHEET_EPISODES,
+    write_episodes_sheet,
+    write_summary_episodes,
+)
 from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
     SHEET_MAX_ROWS,
@@ -115,7 +120,9 @@ def _is_mode(doc: Mapping[str, Any]) -> bool:
 
 def _offset_note(doc: Mapping[str, Any]) -> str:
     zone = _get(doc, "survey", "time_zone") or "not stated"
-    return (f"Times are the position's local clock (time zone {zone}); the UTC offset of "
+    if _get(doc, "survey", "time_zone_assumed"):
+        zone += ", ASSUMED: no time zone was given (warning time-zone-assumed)"
+    return (f"Times are the site's civil time (time zone {zone}); the UTC offset of "
             "each row is in its own column.")
 
 
@@ -433,6 +440,7 @@ def _write_summary(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
                             "Provenance sheet settings", "note", measure=False)
             row += 1
     row += 1
+    row = write_summary_episodes(sw, doc, row)
 
     row = _write_summary_days(sw, doc, row)
 
@@ -816,8 +824,8 @@ def _write_assessments(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
                "LAeq residual [dB]", "Level difference [dB]", "Specific level [dB]",
                "Specific level basis", "Tonal correction [dB]", "Impulsive correction [dB]",
                "Intermittency correction [dB]", "Other correction [dB]", "Rating level [dB]",
-               "Background period", "Background LA90 [dB]", "Excess over background [dB]",
-               "Impact indication", "Note"]
+               "Background period", "Background LA90 [dB]", "Background basis",
+               "Excess over background [dB]", "Impact indication", "Note"]
     sw.header(1, 0, headers)
     ws.freeze_panes(2, 1)
     if not items:
@@ -844,9 +852,11 @@ def _write_assessments(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
         sw.number(r, 16, a.get("rating_level"), "level")
         sw.text(r, 17, a.get("background_period"))
         sw.number(r, 18, a.get("background_LA90"), "whole_db" if whole else "level")
-        sw.number(r, 19, a.get("excess_over_background"), "level")
-        sw.text(r, 20, a.get("impact_indication"))
-        sw.text(r, 21, a.get("note"))
+        # where the background came from: source-free period, residual time, not available
+        sw.text(r, 19, a.get("background_basis"))
+        sw.number(r, 20, a.get("excess_over_background"), "level")
+        sw.text(r, 21, a.get("impact_indication"))
+        sw.text(r, 22, a.get("note"))
     ws.autofilter(1, 0, 1 + len(items), len(headers) - 1)
     sw.fit_columns(minimum=9.0)
 
@@ -1130,6 +1140,8 @@ def write_results_workbook(path: Path, doc: dict[str, Any],
         _write_background(sheet(SHEET_BACKGROUND), wb, doc)
         _write_assessments(sheet(SHEET_ASSESSMENTS), doc)
         _write_exclusions(sheet(SHEET_EXCLUSIONS), doc)
+        if doc.get("criteria"):
+            write_episodes_sheet(sheet(SHEET_EPISODES), doc)
         if annotations is not None:
             _write_readings(sheet(SHEET_READINGS), doc, annotations)
         _write_findings(sheet(SHEET_FINDINGS), doc)

@@ -2,7 +2,8 @@
 
 A settings file is TOML, validated against ``schemas/settings.schema.json``. Each default
 comes from :mod:`surveytools.constants`, where its source is named. Times of day are
-``"HH:MM"`` strings in the position's local clock; durations are seconds.
+``"HH:MM"`` strings in the site's civil time (its time zone, with summer time);
+durations are seconds.
 
 One module per TOML section holds that section's dataclass and its builder
 (``build_<section>(given) -> (value, [(key path, problem), ...])``); :mod:`.root` puts
@@ -13,6 +14,7 @@ problems; :mod:`.load` reads a file or mapping; :mod:`.record` writes settings b
 
 from surveytools.settings.assessments import CORRECTION_KEYS, Assessment
 from surveytools.settings.background import BACKGROUND_METHODS, Background
+from surveytools.settings.calendar import Calendar
 from surveytools.settings.calibration import Calibration
 from surveytools.settings.criteria import CRITERION_INDICATORS, Criterion
 from surveytools.settings.events import Events
@@ -33,6 +35,7 @@ __all__ = [
     "SETTINGS_SCHEMA",
     "Assessment",
     "Background",
+    "Calendar",
     "Calibration",
     "Criterion",
     "Events",

@@ -56,7 +56,7 @@ def _build_one(a: Mapping[str, Any], where: str) -> tuple[Assessment, list[Probl
             end = _parse_window_end(end_text)
             for k, (moment, text) in enumerate(((start, start_text), (end, end_text))):
                 if moment is None:
-                    problems.append((f"{wpath}[{k + 1}]", "expected a local clock time "
+                    problems.append((f"{wpath}[{k + 1}]", "expected a site civil time "
                                      f"'YYYY-MM-DD HH:MM' (no UTC offset), found '{text}'"))
             if start is None or end is None:
                 continue

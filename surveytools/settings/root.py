@@ -15,6 +15,7 @@ from surveytools import constants as C  # noqa: N812
 from surveytools.settings._parse import Problem, json_ready, read_duration, section
 from surveytools.settings.assessments import Assessment, build_assessments
 from surveytools.settings.background import Background, build_background
+from surveytools.settings.calendar import Calendar, build_calendar
 from surveytools.settings.calibration import Calibration, build_calibration
 from surveytools.settings.columns import build_columns
 from surveytools.settings.criteria import Criterion, build_criteria
@@ -46,6 +47,7 @@ class Settings:
     column_map: dict[str, str] = field(default_factory=dict)
     assessments: tuple[Assessment, ...] = ()
     criteria: tuple[Criterion, ...] = ()
+    calendar: Calendar = field(default_factory=Calendar)
     output: Output = field(default_factory=Output)
 
     def to_dict(self) -> dict[str, Any]:
@@ -91,6 +93,7 @@ def build_settings(data: Mapping[str, Any]) -> tuple[Settings, list[Problem]]:
         column_map=take(build_columns(section(data, "columns"))),
         assessments=take(build_assessments(data.get("assessments", []))),
         criteria=take(build_criteria(data.get("criteria", []))),
+        calendar=take(build_calendar(section(data, "calendar"))),
         output=take(build_output(section(data, "output"))),
     )
     return settings, problems

@@ -19,7 +19,10 @@ class SurveyDefaults:
 
     position: str | None = None
     site: str | None = None
-    time_zone: str = "UTC"
+    #: The site's civil time zone; None: not given here (a zone is then assumed, with the
+    #: warning ``time-zone-assumed``, unless the Survey sheet gives one).
+    time_zone: str | None = None
+    #: How the meter stamped its readings: "local", "UTC" or "UTC±hh:mm".
     clock: str = "local"
     #: Whether timestamps mark interval "start" or "end".
     timestamps: str = "start"
@@ -62,7 +65,7 @@ def build_survey(given: Mapping[str, Any]) -> tuple[SurveyDefaults, list[Problem
         changes["meter_class"] = int(given["meter_class"])
     survey = replace(SurveyDefaults(), **changes)
     problems: list[Problem] = []
-    if not _valid_time_zone(survey.time_zone):
+    if survey.time_zone is not None and not _valid_time_zone(survey.time_zone):
         problems.append(("survey.time_zone", "expected an IANA time zone name such as "
                                              "'Europe/Berlin', or 'UTC+hh:mm', found "
                                              f"{show(survey.time_zone)}"))

@@ -23,10 +23,12 @@ from surveytools.inputs.columns import (
     match_columns,
 )
 from surveytools.inputs.raw import RawColumn, RawTable, RawWorkbook
+from surveytools.inputs.shared_weather import WeatherFile, relocated
 from surveytools.settings import Settings
 from surveytools.survey import Exclusion, Scope, Survey
 from surveytools.validation import checks as ck
 from surveytools.validation import timebase as tb
+from surveytools.validation import weather_merge as wm
 from surveytools.validation.findings import Finding, FindingCollector, Severity
 from surveytools.validation.schema import validate_survey
 
@@ -85,10 +87,40 @@ def _empty_readings(level_names: list[str]) -> pd.DataFrame:
     return pd.DataFrame(cols)
 
 
+def _assume_time_zone(metadata: dict[str, Any], settings: Settings,
+                      collector: FindingCollector, sheet: str | None) -> bool:
+    """Fill an assumed site zone when neither the Survey sheet nor the settings gave one.
+
+    Returns whether the zone was assumed; the warning ``time-zone-assumed`` says what was
+    assumed and what it affects (design.md §9: a time zone nobody gave is never silent).
+    """
+    if metadata.get("time_zone"):
+        metadata["time_zone_assumed"] = False
+        return False
+    clock = str(metadata.get("clock", settings.survey.clock))
+    zone = tb.assumed_site_zone(clock)
+    metadata["time_zone"] = zone
+    metadata["time_zone_assumed"] = True
+    if zone == "UTC":
+        what = "the site is assumed to keep UTC"
+        if clock == "local":
+            what += (", so the meter's local clock is read as UTC and its summer-time changes "
+                     "are not recognised (an autumn hour repeats as duplicate times)")
+    else:
+        what = f"the site is assumed to keep the meter's {zone} all year (no summer time)"
+    collector.add(Finding(
+        "time-zone-assumed", Severity.WARNING,
+        f"no time zone was given (Survey sheet 'Time zone' or survey.time_zone in the "
+        f"settings); {what}. Periods (day/evening/night), assessment days and every local "
+        "time shown follow that assumption — enter the site's time zone, an IANA name such "
+        "as Europe/London, as 'Time zone' on the Survey sheet", sheet))
+    return True
+
+
 def _clock(metadata: Mapping[str, Any], settings: Settings,
            collector: FindingCollector) -> tb.Clock:
     clock = str(metadata.get("clock", settings.survey.clock))
-    zone = str(metadata.get("time_zone", settings.survey.time_zone))
+    zone = str(metadata.get("time_zone") or "UTC")
     try:
         return tb.parse_clock(clock, zone)
     except ValueError as exc:
@@ -155,7 +187,8 @@ def _missing_column(collector: FindingCollector, table: RawTable, header: str, w
         f"'{header}' in row {table.header_row}{hint}", table.sheet, table.header_row))
 
 
-def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
+def build_survey(raw: RawWorkbook, settings: Settings,
+                 shared_weather: WeatherFile | None = None) -> Survey:
     """Validate one workbook and return its :class:`Survey`.
 
     Parameters
@@ -164,6 +197,9 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
         What the reader found.
     settings : Settings
         Run settings (exclusion rules, calibration limits, survey defaults, column map).
+    shared_weather : WeatherFile, optional
+        A weather file for every input (``--weather``): applied where the workbook's own
+        Weather sheet does not cover the time (:mod:`~.weather_merge`).
 
     Returns
     -------
@@ -180,7 +216,13 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
             if name is not None:
                 survey_keys[i] = name
     metadata, locations = validate_survey(raw.survey, survey_keys, settings.survey, collector)
+    zone_assumed = _assume_time_zone(metadata, settings, collector,
+                                     raw.survey.sheet if raw.survey is not None else None)
     clock = _clock(metadata, settings, collector)
+    try:
+        site_zone = tb.parse_site_zone(str(metadata["time_zone"]))
+    except ValueError:  # reported by validate_survey / _clock; UTC keeps the run going
+        site_zone = tb.parse_site_zone("UTC")
     drift_excess = ck.check_calibration(metadata, locations, settings.calibration, collector)
 
     table = raw.readings
@@ -325,9 +367,17 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
     order = keep[np.argsort(start_ms[keep], kind="stable")]
     s_sorted = start_ms[order]
     d_sorted = dur_ms[order]
-    off_sorted = times.loc.offset_s[order]
+    # local times shown are the site's civil time (design.md §9), whatever the meter's clock
+    off_sorted = tb.site_offsets_s(s_sorted, site_zone)
+    repeated_hour_hint = None
+    if zone_assumed and str(metadata.get("clock", settings.survey.clock)) == "local":
+        repeated_hour_hint = (
+            "no time zone was given, so if the clocks went back that night this is the "
+            "repeated hour, not a copy — enter the site's Time zone on the Survey sheet "
+            "(e.g. Europe/London) rather than deleting a row")
     tc = ck.check_sorted_times(rows_all[order], s_sorted, d_sorted, off_sorted, times.letter,
-                              cols.where, collector, GAP_FACTOR)
+                              cols.where, collector, GAP_FACTOR,
+                              duplicate_hint=repeated_hour_hint)
     ck.check_level_order({k: v[order] for k, v in levels.items()},
                         {k: by[k].letter for k in levels}, cols.where, collector,
                         rows_all[order])
@@ -380,15 +430,18 @@ def build_survey(raw: RawWorkbook, settings: Settings) -> Survey:
     weather = None
     if raw.weather is not None:
         weather = _weather(raw.weather, settings, clock, collector, s_sorted, e_sorted)
-        if weather is not None and len(weather):
-            wind, rain, settle = ck.weather_masks(
-                s_sorted, e_sorted, weather["start_ms"].to_numpy(),
-                (weather["start_ms"] + weather["duration_ms"]).to_numpy(),
-                weather["wind_m_s"].to_numpy(), weather["rain_mm"].to_numpy(),
-                rules.wind_max_m_s, rules.rain_max_mm, rules.rain_settle_s)
-            add("wind", f"wind above {rules.wind_max_m_s:g} m/s", wind)
-            add("rain", f"rain above {rules.rain_max_mm:g} mm", rain)
-            add("rain-settle", f"within {rules.rain_settle_s:g} s after rain", settle)
+    if shared_weather is not None:
+        weather = _with_shared_weather(weather, raw.weather, shared_weather, settings,
+                                       collector, s_sorted, e_sorted, clock)
+    if weather is not None and len(weather):
+        wind, rain, settle = ck.weather_masks(
+            s_sorted, e_sorted, weather["start_ms"].to_numpy(),
+            (weather["start_ms"] + weather["duration_ms"]).to_numpy(),
+            weather["wind_m_s"].to_numpy(), weather["rain_mm"].to_numpy(),
+            rules.wind_max_m_s, rules.rain_max_mm, rules.rain_settle_s)
+        add("wind", f"wind above {rules.wind_max_m_s:g} m/s", wind)
+        add("rain", f"rain above {rules.rain_max_mm:g} mm", rain)
+        add("rain-settle", f"within {rules.rain_settle_s:g} s after rain", settle)
     if raw.exclusions is not None:
         exclusions.extend(_technician(raw.exclusions, settings, clock, collector,
                                       s_sorted, e_sorted))
@@ -460,6 +513,62 @@ def _weather(table: RawTable, settings: Settings, clock: tb.Clock, collector: Fi
         "wind_m_s": pd.Series(wind[placed], dtype="float64"),
         "rain_mm": pd.Series(rain[placed], dtype="float64"),
     })
+
+
+def _with_shared_weather(own: pd.DataFrame | None, own_table: RawTable | None,
+                         shared: WeatherFile, settings: Settings,
+                         collector: FindingCollector, s_sorted: np.ndarray,
+                         e_sorted: np.ndarray, clock: tb.Clock) -> pd.DataFrame | None:
+    """Return the input's weather, the shared file's applied where its own sheet is silent.
+
+    Findings about the shared file are reported on this input with the file's name; one
+    ``weather-source`` finding says which source covers which time, and one
+    ``weather-gap`` finding per stretch of the survey that no weather covers.
+    """
+    collector.extend(shared.findings)
+    if shared.weather is None:
+        return own
+    side = FindingCollector()
+    entries = shared.survey.entries if shared.survey is not None else []
+    station: dict[str, Any] = {}
+    for e in entries:  # only the clock matters in a weather file's Survey sheet
+        name = canonical_name(e.key, SURVEY_KEYS)
+        if name in ("clock", "time_zone") and e.value is not None and str(e.value).strip():
+            station[name] = str(e.value).strip()
+    station_clock = _clock(station, settings, side)
+    frame = _weather(shared.weather, settings, station_clock, side, s_sorted, e_sorted)
+    for f in side.findings():
+        collector.add(relocated(shared.name, f))
+    if frame is None or not len(frame):
+        return own
+    combined, used = wm.combine(own, frame)
+    tz = clock.tzinfo()
+    own_text = (f"its own {own_table.sheet} sheet from {_local(int(own['start_ms'].min()), tz)} "
+                f"to {_local(int((own['start_ms'] + own['duration_ms']).max()), tz)} and "
+                if own is not None and len(own) and own_table is not None else "")
+    collector.add(Finding(
+        "weather-source", Severity.INFO,
+        f"weather for wind and rain exclusions: {own_text}the shared weather file "
+        f"{shared.name} ({station_clock.label})"
+        + ("" if used else ", of which no interval falls outside the own sheet's time")))
+    if s_sorted.size:
+        gaps = wm.coverage_gaps(combined["start_ms"].to_numpy(np.int64),
+                                combined["covered_end_ms"].to_numpy(np.int64),
+                                int(s_sorted.min()), int(e_sorted.max()))
+        for a, b in gaps:  # once per gap
+            collector.add(Finding(
+                "weather-gap", Severity.WARNING,
+                f"no weather from {_local(a, tz)} to {_local(b, tz)} "
+                f"({(b - a) / 3_600_000:.1f} h): readings then are not checked for wind and "
+                "rain — add the station's rows for that time or check the conditions by hand"))
+    return combined.drop(columns=["source", "covered_end_ms"])
+
+
+def _local(ms: int, tz: Any) -> str:
+    """Local wall-clock text of an instant in the position's clock (findings)."""
+    from datetime import datetime
+
+    return datetime.fromtimestamp(ms / 1000, tz=tz).strftime("%Y-%m-%d %H:%M")
 
 
 def _technician(table: RawTable, settings: Settings, clock: tb.Clock,

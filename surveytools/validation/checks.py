@@ -358,6 +358,7 @@ def check_time_order(
 def check_sorted_times(
     rows: np.ndarray, start_ms: np.ndarray, duration_ms: np.ndarray, offset_s: np.ndarray,
     letter: str | None, where: Where, collector: FindingCollector, gap_factor: float,
+    duplicate_hint: str | None = None,
 ) -> TimeChecks:
     """Duplicates, overlaps and gaps of readings sorted by start (ties in sheet order).
 
@@ -372,6 +373,9 @@ def check_sorted_times(
     gap_factor : float
         A gap is reported when the step to the next start exceeds this multiple of the
         previous interval's length.
+    duplicate_hint : str, optional
+        The fix a duplicate message gives instead of "delete one of the two rows" (a
+        local clock read without its time zone: a repeated autumn hour is not a copy).
 
     Returns
     -------
@@ -389,7 +393,8 @@ def check_sorted_times(
         collector.add_rows(
             "timestamp-duplicate", Severity.ERROR, where.sheet, rows[d], letter,
             [f"row {rows[i]} has the same start ({t}) as row {rows[first_of[i]]}; row "
-             f"{rows[i]} is left out as a duplicate — delete one of the two rows"
+             f"{rows[i]} is left out as a duplicate — "
+             f"{duplicate_hint or 'delete one of the two rows'}"
              for i, t in zip(d, _local_text(start_ms[d[:collector.max_per_code]],
                                             offset_s[d[:collector.max_per_code]]),
                              strict=False)])

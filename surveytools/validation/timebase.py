@@ -2,9 +2,16 @@
 
 Meters write naive wall-clock times. This module turns the timestamp cells of a table
 (one date-time column, strict ISO 8601 text, or Date + Time columns) into integer UTC
-milliseconds using the position's clock (UTC, a fixed offset, or local time with daylight
-saving), and derives interval lengths. Everything is vectorised over rows; rows that
-cannot be placed in time are reported, never guessed.
+milliseconds using the meter's clock (UTC, a fixed offset, or local time with daylight
+saving), and derives interval lengths.
+
+Two different things (design.md §9): the *clock* (:class:`Clock`, Survey ``Clock``) is
+how the meter stamped its readings; the *site zone* (:func:`parse_site_zone`, Survey
+``Time zone``) is the civil time of the place, with its summer time, which every period,
+assessment day and local time shown follows. A meter on UTC or on a fixed ``UTC+00:00``
+at a site in Europe/London is converted to UTC here and shown in London time later.
+Everything is vectorised over rows; rows that cannot be placed in time are reported,
+never guessed.
 
 Daylight saving on a local clock (see ``reference/reliability.md`` §4):
 
@@ -103,6 +110,36 @@ def _fixed_offset_s(text: str) -> int | None:
     return -s if m["sign"] == "-" else s
 
 
+def parse_site_zone(time_zone: str) -> tzinfo:
+    """Return the site's civil time zone: IANA (with summer time), UTC or ``UTC±hh:mm``.
+
+    Parameters
+    ----------
+    time_zone : str
+        IANA zone name (``"Australia/Sydney"``), ``"UTC"`` or ``"UTC+01:00"``.
+
+    Returns
+    -------
+    datetime.tzinfo
+
+    Raises
+    ------
+    ValueError
+        When the text is none of those forms (the Survey schema and the settings reject
+        such values before they get here).
+    """
+    text = str(time_zone).strip()
+    if text == "UTC":
+        return UTC
+    off = _fixed_offset_s(text)
+    if off is not None:
+        return Clock("fixed", off).tzinfo()
+    try:
+        return zoneinfo.ZoneInfo(text)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError) as exc:
+        raise ValueError(f"unknown time zone {time_zone!r}") from exc
+
+
 def parse_clock(clock: str, time_zone: str) -> Clock:
     """Combine the Survey ``clock`` and ``time_zone`` values into a :class:`Clock`.
 
@@ -140,6 +177,38 @@ def parse_clock(clock: str, time_zone: str) -> Clock:
     except (zoneinfo.ZoneInfoNotFoundError, ValueError) as exc:
         raise ValueError(f"unknown time zone {time_zone!r}") from exc
     return Clock("local", 0, time_zone)
+
+
+def site_offsets_s(utc_ms: np.ndarray, zone: tzinfo) -> np.ndarray:
+    """Return the UTC offset [s] of the site's civil time at each instant (vectorised).
+
+    Parameters
+    ----------
+    utc_ms : numpy.ndarray of int64
+        Instants. [ms]
+    zone : datetime.tzinfo
+        The site's zone (:func:`parse_site_zone`).
+
+    Returns
+    -------
+    numpy.ndarray of int32
+    """
+    values = np.asarray(utc_ms, dtype=np.int64)
+    if values.size == 0:
+        return np.zeros(0, np.int32)
+    utc = pd.DatetimeIndex(values.astype("datetime64[ms]")).tz_localize("UTC")
+    local = utc.tz_convert(zone).tz_localize(None).as_unit("ms").asi8
+    return ((local - values) // MS_PER_S).astype(np.int32)
+
+
+def assumed_site_zone(clock: str) -> str:
+    """Return the site zone assumed when nobody gave one: a fixed clock's offset, or UTC.
+
+    A meter on a fixed offset was most likely set to the site's standard time; a local
+    or UTC clock gives no hint, and UTC is the neutral choice. Either way it is a warning
+    (``time-zone-assumed``), never silent.
+    """
+    return clock if _fixed_offset_s(clock) is not None else "UTC"
 
 
 # --------------------------------------------------------------------------------------

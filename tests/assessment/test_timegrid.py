@@ -1,4 +1,4 @@
-"""The position's clock: zone choice, wall-clock boundaries on DST days, ISO text."""
+"""The site's civil time: zone choice, wall-clock boundaries on DST days, ISO text."""
 
 from __future__ import annotations
 
@@ -12,21 +12,25 @@ from surveytools.assessment.timegrid import (
     day_offset_boundaries,
     format_local,
     local_text_to_utc_ms,
-    position_tz,
+    site_tz,
 )
 from surveytools.errors import SettingsError
 
 BERLIN = ZoneInfo("Europe/Berlin")
 
 
-def test_position_tz_choices() -> None:
-    utc = position_tz({"clock": "UTC", "time_zone": "Europe/Berlin"})
-    assert utc.utcoffset(None).total_seconds() == 0
-    fixed = position_tz({"clock": "UTC+05:30"})
+def test_site_tz_follows_the_time_zone_whatever_the_clock() -> None:
+    # design.md §9: Time zone is where the site is; Clock is how the meter stamped.
+    for clock in ("UTC", "UTC+00:00", "UTC+05:30", "local"):
+        assert site_tz({"clock": clock, "time_zone": "Europe/Berlin"}) == BERLIN
+    assert site_tz({"clock": "UTC", "time_zone": "UTC"}).utcoffset(None).total_seconds() == 0
+    fixed = site_tz({"clock": "local", "time_zone": "UTC+05:30"})
     assert fixed.utcoffset(None).total_seconds() == 5.5 * 3600
-    assert position_tz({"clock": "local", "time_zone": "Europe/Berlin"}) == BERLIN
+    # no time zone at all (validation warns and fills one): a fixed clock's offset, else UTC
+    assert site_tz({"clock": "UTC+05:30"}).utcoffset(None).total_seconds() == 5.5 * 3600
+    assert site_tz({"clock": "local"}).utcoffset(None).total_seconds() == 0
     with pytest.raises(SettingsError, match="not an IANA zone"):
-        position_tz({"clock": "local", "time_zone": "Mars/Olympus"})
+        site_tz({"clock": "local", "time_zone": "Mars/Olympus"})
 
 
 def test_format_local_offsets_and_milliseconds() -> None:

@@ -1,8 +1,10 @@
-"""Exceedance levels LN against standards.md §10 and numpy's weighted quantile."""
+"""Exceedance levels LN against standards.md §10, an exact fractions reference evaluating
+the ISO 1996-1 definition directly, and numpy's weighted quantile where that is exact."""
 
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import numpy as np
 import pytest
@@ -29,14 +31,41 @@ dur_st = st.integers(min_value=1, max_value=3600).map(float)
 percent_st = st.sampled_from([0.0, 1.0, 5.0, 10.0, 25.0, 50.0, 75.0, 90.0, 95.0, 99.0, 100.0])
 
 
+#: Percents whose ``1 - N/100`` is exact in binary: there numpy's float comparison of a
+#: normalised cumulative weight with the quantile decides exactly as the definition.
+EXACT_QUANTILE_PERCENTS = (0.0, 25.0, 50.0, 75.0, 100.0)
+
+
 def numpy_ln(levels, percent, durations):
-    """Independent reference: numpy >= 2 weighted inverted-CDF quantile (design.md §5)."""
+    """Independent reference: numpy >= 2 weighted inverted-CDF quantile (design.md §5).
+
+    Only for an exact quantile (IEEE 754 rounding is monotone and a representable
+    quantile is its own rounding, so ``fl(c / T) >= q`` iff ``c / T >= q``).
+    """
+    assert percent in EXACT_QUANTILE_PERCENTS, "numpy's quantile is exact only there"
     return float(
         np.quantile(
             np.asarray(levels, float), 1 - percent / 100,
             weights=np.asarray(durations, float), method="inverted_cdf",
         )
     )
+
+
+def reference_ln(levels, percent, durations=None):
+    """Independent reference: the ISO 1996-1 / design.md §5 definition evaluated with
+    exact fractions, LN = min{L among the samples : time(level > L) <= N/100 T}."""
+    levels = [float(v) for v in levels]
+    durations = [1] * len(levels) if durations is None else list(durations)
+    pairs = [(lv, Fraction(d)) for lv, d in zip(levels, durations, strict=True)
+             if math.isfinite(lv) and d > 0]
+    if not pairs:
+        return math.nan
+    total = sum(t for _, t in pairs)
+    allowed = Fraction(repr(float(percent))) / 100 * total
+    for candidate in sorted({lv for lv, _ in pairs}):
+        if sum(t for lv, t in pairs if lv > candidate) <= allowed:
+            return candidate
+    raise AssertionError("the highest level is always exceeded for no time")
 
 
 @pytest.mark.parametrize(
@@ -50,8 +79,40 @@ def numpy_ln(levels, percent, durations):
 )
 def test_twenty_sample_table_strictly_exceeded(percent, expected):
     assert exceedance_level(TWENTY_SAMPLES, percent) == expected
-    # numpy's weighted inverted_cdf reproduces the same column (design.md §5 identity).
-    assert numpy_ln(TWENTY_SAMPLES, percent, np.ones(20)) == expected
+    # the definition, evaluated exactly, reproduces the same column (design.md §5).
+    assert reference_ln(TWENTY_SAMPLES, percent) == expected
+
+
+def test_exact_ties_hundred_one_minute_readings():
+    # design.md §9 / ISO 1996-1 LN definition, hand-evaluated: 100 one-minute readings at
+    # 30.0, 30.1, ... 39.9 dB, T = 100 min. LA95: time above L must be <= 95 min; above
+    # 30.4 are the 95 readings 30.5 ... 39.9 = 95 min (allowed), above 30.3 are 96 min
+    # (not) -> LA95 = 30.4. LA99: above 30.0 are 99 min <= 99 min -> LA99 = 30.0. LA90:
+    # above 30.9 are 90 min -> 30.9. A float 1 - 0.95 = 0.05000000000000004 would give
+    # 30.5 and 1 - 0.99 would give 30.1.
+    levels = np.round(np.arange(300, 400) / 10, 1)
+    durations_s = np.full(100, 60.0)
+    out = exceedance_levels(levels, [99, 95, 90], durations_s)
+    np.testing.assert_array_equal(out, [30.0, 30.4, 30.9])
+    # the same through the sorting path (levels off the 0.1 dB grid by a shift of 1/64 dB)
+    shifted = exceedance_levels(levels + 1 / 64, [99, 95, 90], durations_s)
+    np.testing.assert_array_equal(shifted, [30.0 + 1 / 64, 30.4 + 1 / 64, 30.9 + 1 / 64])
+    # grouped (one group, and the same data split in two groups with the same answer)
+    grouped = grouped_exceedance_levels(np.r_[levels, levels], np.full(200, 60_000),
+                                        np.r_[np.zeros(100, int), np.ones(100, int)], 2,
+                                        [99, 95, 90])
+    np.testing.assert_array_equal(grouped, [[30.0, 30.4, 30.9]] * 2)
+    # integer milliseconds as weights give the same answer as seconds
+    np.testing.assert_array_equal(exceedance_levels(levels, [95], np.full(100, 60_000)),
+                                  [30.4])
+
+
+def test_percent_is_read_as_an_exact_decimal():
+    # hand-evaluated: 1000 equal samples 0, 1, ..., 999 (one per level); L99.9: time above
+    # L must be <= 999/1000 of T = 999 samples -> L = 0 (999 above). L0.1: <= 1 sample
+    # above -> 998.
+    levels = np.arange(1000, dtype=float) + 0.5
+    np.testing.assert_array_equal(exceedance_levels(levels, [99.9, 0.1]), [0.5, 998.5])
 
 
 def test_twenty_sample_table_other_columns_differ():
@@ -100,30 +161,42 @@ def test_nan_levels_ignored_with_their_durations():
     st.lists(st.tuples(level_st, dur_st), min_size=1, max_size=50),
     percent_st,
 )
-def test_weighted_matches_numpy_inverted_cdf(samples, percent):
+def test_weighted_matches_exact_reference(samples, percent):
+    levels, durations = zip(*samples, strict=True)
+    assert exceedance_level(levels, percent, durations) == reference_ln(levels, percent,
+                                                                        durations)
+
+
+@given(
+    st.lists(st.tuples(level_st, dur_st), min_size=1, max_size=50),
+    st.sampled_from(EXACT_QUANTILE_PERCENTS),
+)
+def test_weighted_matches_numpy_inverted_cdf_at_exact_quantiles(samples, percent):
     levels, durations = zip(*samples, strict=True)
     assert exceedance_level(levels, percent, durations) == numpy_ln(levels, percent, durations)
 
 
 @given(
     st.lists(
-        st.tuples(st.floats(min_value=0, max_value=140), st.floats(min_value=0.5, max_value=10)),
+        st.tuples(st.floats(min_value=0, max_value=140),
+                  st.integers(min_value=500, max_value=10_000)),
         min_size=1,
         max_size=50,
     ),
     st.floats(min_value=0.5, max_value=99.5),
 )
-def test_definition_holds_for_any_data(samples, percent):
-    # design.md §5: LN = min{L : time(level > L) <= N/100 T}. Check both halves: the
+def test_definition_holds_exactly_for_any_data(samples, percent):
+    # design.md §5/§9: LN = min{L : time(level > L) <= N/100 T}, exactly. Durations are
+    # whole milliseconds given in seconds. Check both halves in exact fractions: the
     # returned level satisfies it, and the next lower sample level does not.
     levels = np.array([s[0] for s in samples])
-    durations = np.array([s[1] for s in samples])
-    total = durations.sum()
-    ln = exceedance_level(levels, percent, durations)
-    assert durations[levels > ln].sum() <= percent / 100 * total * (1 + 1e-12)
+    ms = np.array([s[1] for s in samples])
+    allowed = Fraction(repr(percent)) / 100 * int(ms.sum())
+    ln = exceedance_level(levels, percent, ms / 1000)
+    assert int(ms[levels > ln].sum()) <= allowed
     lower = levels[levels < ln]
     if lower.size:
-        assert durations[levels > lower.max()].sum() > percent / 100 * total * (1 - 1e-12)
+        assert int(ms[levels > lower.max()].sum()) > allowed
 
 
 @given(st.lists(st.tuples(st.floats(min_value=0, max_value=140), dur_st), min_size=1, max_size=50))
@@ -160,8 +233,8 @@ def test_grouped_uneven_groups_fallback_path():
     groups = np.concatenate([np.zeros(3000, dtype=int), np.arange(1, 2001)])
     durations = rng.integers(1, 60, size=levels.size).astype(float)
     out = grouped_exceedance_levels(levels, durations, groups, 2001, [10, 90])
-    assert out[0, 0] == numpy_ln(big, 10, durations[:3000])
-    assert out[0, 1] == numpy_ln(big, 90, durations[:3000])
+    assert out[0, 0] == reference_ln(big, 10, durations[:3000])
+    assert out[0, 1] == reference_ln(big, 90, durations[:3000])
     np.testing.assert_array_equal(out[1:, 0], np.arange(2000, dtype=float))
 
 
@@ -220,7 +293,7 @@ def test_shared_level_order_gives_the_same_levels(samples):
     order = level_order(levels)
     percents = [0, 10, 50, 90, 95, 100]
     # grouped: the same table with and without the shared order, and per group the
-    # numpy weighted inverted-CDF quantile (independent reference, design.md §5)
+    # exact definition (independent reference, design.md §5)
     shared = grouped_exceedance_levels(levels, durations, groups, 6, percents,
                                        level_order=order)
     np.testing.assert_array_equal(
@@ -229,7 +302,7 @@ def test_shared_level_order_gives_the_same_levels(samples):
         sel = (groups == g) & np.isfinite(levels)
         for k, p in enumerate(percents):
             if sel.any():
-                assert shared[g, k] == numpy_ln(levels[sel], p, durations[sel])
+                assert shared[g, k] == reference_ln(levels[sel], p, durations[sel])
             else:
                 assert math.isnan(shared[g, k])
     # whole set, a subset masked as NaN: the same as the subset on its own
@@ -331,12 +404,12 @@ def _sorted_path(monkeypatch: pytest.MonkeyPatch, fn, *args, **kwargs):
              min_size=1, max_size=120),
 )
 def test_counting_path_equals_sorting_and_numpy(samples):
-    from surveytools.indicators.percentiles import _histogram_levels
+    from surveytools.indicators.percentiles import _histogram_levels, _targets
 
     levels, weights, groups = (np.array(x) for x in zip(*samples, strict=True))
     percents = [0.0, 1.0, 10.0, 50.0, 90.0, 99.0, 100.0]
-    targets = 1 - np.array(percents) / 100
-    counted = _histogram_levels(levels, weights, groups.astype(np.int64), 8, targets)
+    counted = _histogram_levels(levels, weights.astype(np.int64), groups.astype(np.int64), 8,
+                                _targets(percents))
     if not (groups >= 0).any():
         assert counted is None  # nothing to count: the sorting path answers (all NaN)
         return
@@ -348,8 +421,8 @@ def test_counting_path_equals_sorting_and_numpy(samples):
                                                             percents), sorted_out)
     for g in range(8):
         sel = groups == g
-        if sel.any():  # reference: numpy's weighted inverted_cdf quantile
-            expected = [numpy_ln(levels[sel], p, weights[sel]) for p in percents]
+        if sel.any():  # reference: the definition in exact fractions
+            expected = [reference_ln(levels[sel], p, weights[sel]) for p in percents]
             np.testing.assert_array_equal(counted[g], expected)
         else:
             assert np.isnan(counted[g]).all()
@@ -361,26 +434,27 @@ def test_ungrouped_counting_path_equals_sorting(samples, percent):
     with pytest.MonkeyPatch.context() as mp:
         sorted_out = _sorted_path(mp, exceedance_levels, levels, [percent], weights)
     np.testing.assert_array_equal(exceedance_levels(levels, [percent], weights), sorted_out)
-    assert sorted_out[0] == numpy_ln(levels, percent, weights)
+    assert sorted_out[0] == reference_ln(levels, percent, weights)
 
 
 def test_counting_path_declines_what_it_cannot_do_exactly():
-    from surveytools.indicators.percentiles import _histogram_levels
+    from surveytools.indicators.percentiles import _histogram_levels, _targets
 
-    targets = np.array([0.1, 0.5, 0.9])
+    targets = _targets([90, 50, 10])
     one = np.zeros(4, np.int64)
+    ones = np.ones(4, np.int64)
     on_grid = np.array([40.1, 40.2, 55.5, 60.0])
-    # 0.1 s weights are not binary fractions: partial sums would round
-    assert _histogram_levels(on_grid, np.full(4, 0.1), one, 1, targets) is None
+    # a total of 2**53 or more would not be summed exactly by bincount's float64
+    assert _histogram_levels(on_grid, np.full(4, 2**51, np.int64), one, 1, targets) is None
     # levels off the 0.01 dB grid
-    assert _histogram_levels(on_grid + 1e-3, np.ones(4), one, 1, targets) is None
+    assert _histogram_levels(on_grid + 1e-3, ones, one, 1, targets) is None
     # a negative zero would come back as +0.0
-    assert _histogram_levels(np.array([-0.0, 1.0, 2.0, 3.0]), np.ones(4), one, 1,
+    assert _histogram_levels(np.array([-0.0, 1.0, 2.0, 3.0]), ones, one, 1,
                              targets) is None
     # too many cells (groups x level steps) for the number of samples
     wide = np.array([10.0, 20.0, 130.0, 140.0])  # 1,301 steps of 0.1 dB
-    assert _histogram_levels(wide, np.ones(4), np.arange(4), 5000, targets) is None
-    assert _histogram_levels(on_grid, np.ones(4), one, 1, targets) is not None
+    assert _histogram_levels(wide, ones, np.arange(4), 5000, targets) is None
+    assert _histogram_levels(on_grid, ones, one, 1, targets) is not None
 
 
 def test_a_level_order_function_is_called_only_when_sorting():
@@ -410,3 +484,15 @@ def test_a_level_order_function_is_called_only_when_sorting():
     assert exceedance_levels(off_grid, [50], ms, level_order=order_of(off_grid))[0] == \
         pytest.approx(47.001)
     assert calls == [1, 1]
+
+
+def test_integer_weights_whole_seconds_ms_and_huge_totals():
+    from surveytools.indicators.percentiles import integer_weights
+
+    # whole numbers are kept (only ratios matter); other durations are seconds -> ms
+    np.testing.assert_array_equal(integer_weights([60.0, 1.0, np.nan, -1.0]), [60, 1, 0, 0])
+    np.testing.assert_array_equal(integer_weights([0.1, 0.25, 1.0]), [100, 250, 1000])
+    # a total beyond exact sums is scaled down, never overflowing int64
+    huge = integer_weights([1e300, 1e300])
+    assert huge.dtype == np.int64 and huge[0] == huge[1] > 0
+    assert exceedance_level([40.0, 50.0], 50, [1e300, 1e300]) == 40.0  # hand: 50 % above 40

@@ -31,9 +31,11 @@ FATAL = Finding("file-not-a-zip", Severity.ERROR,
 
 
 @pytest.mark.parametrize(("x", "expected"), [
-    # Python round(): correctly rounded decimal of the binary value (Python docs, round()).
-    (55.123456, 55.12), (55.125, 55.12), (np.float64(60.0049), 60.0), (np.float32(42.5), 42.5),
-    (-0.001, 0.0), (None, None), (float("nan"), None), (float("inf"), None),
+    # Python round() to 0.001 dB: correctly rounded decimal of the binary value (Python
+    # docs, round()); 55.1235 is stored just below the half -> 55.123.
+    (55.123456, 55.123), (55.1235, 55.123), (np.float64(60.0049), 60.005),
+    (np.float32(42.5), 42.5), (-0.0001, 0.0), (None, None), (float("nan"), None),
+    (float("inf"), None),
     (np.float64("-inf"), None), (45, 45.0),
 ])
 def test_round_level(x, expected):

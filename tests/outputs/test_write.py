@@ -260,7 +260,7 @@ def test_injection_strings_arrive_as_text(tmp_path: Path, bad: str) -> None:
     findings = wb["Findings"]
     message = next(row[5] for row in findings.iter_rows(min_row=2)
                if row[1].value == "technician-note")
-    assessments = wb["Assessments"].cell(3, 22)
+    assessments = wb["Assessments"].cell(3, 23)  # the Note column
     for cell in (site, label, message, assessments):
         assert cell.data_type == "s"
         assert xstring_decode(cell.value) == bad

@@ -18,13 +18,13 @@ BAD = [
      r"assessments\[1\]\.source_on\[1\]: expected a window"),
     ('[[assessments]]\nname = "A"\nposition = "P"\n'
      'source_on = [["3 July 22:00", "2026-07-03 23:00"]]\n',
-     r"assessments\[1\]\.source_on\[1\]\[1\]: expected a local clock time 'YYYY-MM-DD HH:MM'"),
+     r"assessments\[1\]\.source_on\[1\]\[1\]: expected a site civil time 'YYYY-MM-DD HH:MM'"),
     ('[[assessments]]\nname = "A"\nposition = "P"\n'
      'source_on = [["2026-02-30 22:00", "2026-03-01 23:00"]]\n',
-     r"assessments\[1\]\.source_on\[1\]\[1\]: expected a local clock time"),
+     r"assessments\[1\]\.source_on\[1\]\[1\]: expected a site civil time"),
     ('[[assessments]]\nname = "A"\nposition = "P"\n'
      'source_on = [["2026-07-03T22:00+02:00", "2026-07-03 23:00"]]\n',
-     r"assessments\[1\]\.source_on\[1\]\[1\]: expected a local clock time .*no UTC offset"),
+     r"assessments\[1\]\.source_on\[1\]\[1\]: expected a site civil time .*no UTC offset"),
     ('[[assessments]]\nname = "A"\nposition = "P"\n',
      r"assessments\[1\]\.source_on: missing; give at least one"),
     ('[[assessments]]\nname = "A"\nposition = "P"\nuse_operating_column = true\n'

@@ -13,7 +13,10 @@ BAD = [
      r"survey\.time_zone: expected an IANA time zone name .*found 'Mars/Olympus'"),
     ('[survey]\ntime_zone = "UTC+2"\n', r"survey\.time_zone: expected an IANA"),
     ('[survey]\ntime_zone = "../../etc/passwd"\n', r"survey\.time_zone: expected an IANA"),
-    ('[survey]\nclock = "gps"\n', r"survey\.clock: expected one of 'local', 'UTC'"),
+    ('[survey]\nclock = "gps"\n',
+     r"survey\.clock: expected 'local', 'UTC' or a fixed offset such as 'UTC\+01:00'"),
+    ('[survey]\nclock = "UTC+1"\n', r"survey\.clock: expected 'local', 'UTC' or a fixed"),
+    ('[survey]\nclock = "UTC+25:00"\n', r"survey\.clock: expected 'local', 'UTC' or a fixed"),
 ]
 
 
@@ -27,3 +30,15 @@ def test_bad_settings_name_the_key(tmp_path, text, pattern):
 def test_time_zones_accepted(zone):
     # IANA time zone database names; fixed offsets in the contract's UTC±hh:mm form.
     assert settings_from_mapping({"survey": {"time_zone": zone}}).survey.time_zone == zone
+
+
+@pytest.mark.parametrize("clock", ["local", "UTC", "UTC+01:00", "UTC-05:30", "UTC+00:00"])
+def test_clocks_accepted(clock):
+    # README [survey]: clock = "local", "UTC" or a fixed "UTC+01:00" (as on the Survey sheet)
+    assert settings_from_mapping({"survey": {"clock": clock}}).survey.clock == clock
+
+
+def test_no_time_zone_by_default():
+    # design.md §9: a time zone nobody gave is assumed with a warning, so the settings
+    # must not pretend to give one
+    assert settings_from_mapping({}).survey.time_zone is None

@@ -279,8 +279,10 @@ def test_no_readings_table():
     s = build_survey(RawWorkbook(SOURCE, None), Settings())
     assert canon(located(s)) == canon([(None, None, None, "readings-missing"),
                                        (None, None, None, "survey-required"),
+                                       # clock and timestamps from the settings; no time
+                                       # zone anywhere: assumed, with a warning
                                        (None, None, None, "survey-default-used"),
-                                       (None, None, None, "survey-default-used"),
+                                       (None, None, None, "time-zone-assumed"),
                                        (None, None, None, "calibration-missing")])
     assert s.readings.empty and "LAeq" in s.readings.columns
 

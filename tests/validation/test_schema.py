@@ -56,10 +56,11 @@ def test_schema_errors_are_mapped_to_value_cells():
         ("Survey", 7, "B", "survey-not-finite"),
         ("Survey", 8, "B", "survey-pattern"),
         ("Survey", 9, "B", "survey-time-zone-unknown"),
-        # the rejected Clock and Time zone fall back to the settings defaults
-        ("Survey", None, None, "survey-default-used"),
+        # the rejected Clock falls back to the settings default; the settings give no
+        # time zone, so the rejected one is assumed (time-zone-assumed, not survey-*)
         ("Survey", None, None, "survey-default-used"),
     ])
+    assert "time-zone-assumed" in {f.code for f in s.findings}
     by_code = {f.code: f.message for f in s.findings}
     messages = [f.message for f in s.findings]
     assert "Microphone: expected one of 'free-field', 'facade', found text 'wall'" in "|".join(

@@ -69,9 +69,10 @@ def test_explicit_offset_overrides_clock():
     # 22:00+02:00 is 20:00 UTC whatever the Survey clock says
     t = readings(["2026-07-03 21:00:00", None], [50.0, 51.0])
     t.columns[0].text_cells = {1: "2026-07-03T22:00:00+02:00"}
-    s = build(t, survey_with(clock="UTC+05:00"))
+    s = build(t, survey_with(clock="UTC+05:00", time_zone="Europe/Berlin"))
     assert s.readings["start_ms"].tolist() == [utc_ms(2026, 7, 3, 16), utc_ms(2026, 7, 3, 20)]
-    assert s.readings["offset_s"].tolist() == [5 * 3600, 7200]
+    # offset_s is the site's civil time (Europe/Berlin, CEST in July; design.md §9)
+    assert s.readings["offset_s"].tolist() == [7200, 7200]
 
 
 # --------------------------------------------------------------------------------------
@@ -102,7 +103,9 @@ def test_fixed_offset_and_utc_clocks(clock, offset_s):
     ref = [utc_ms(2026, 1, 10, 12) - offset_s * 1000, utc_ms(2026, 7, 10, 12) - offset_s * 1000]
     assert fixed is None or ref[0] == utc_ms(2026, 1, 10, 12, tzinfo=fixed)
     assert s.readings["start_ms"].tolist() == ref
-    assert s.readings["offset_s"].tolist() == [offset_s, offset_s]
+    # local times shown follow the site (Europe/Berlin: CET in January, CEST in July),
+    # not the meter's clock (design.md §9; zone rules from the IANA tz database)
+    assert s.readings["offset_s"].tolist() == [3600, 7200]
 
 
 # --------------------------------------------------------------------------------------
