@@ -147,11 +147,19 @@ def _prepared(paths: list[Path], settings: Settings, jobs: int, staging: Path
             yield _safe_prepare(path, settings, staging)
         return
     import multiprocessing
+    from concurrent.futures.process import BrokenProcessPool
 
     context = multiprocessing.get_context("spawn")
     with ProcessPoolExecutor(max_workers=jobs, mp_context=context) as pool:
-        yield from pool.map(_safe_prepare, paths, [settings] * len(paths),
-                            [staging] * len(paths))
+        futures = [pool.submit(_safe_prepare, path, settings, staging) for path in paths]
+        for path, future in zip(paths, futures, strict=True):
+            try:
+                yield future.result()
+            except BrokenProcessPool:
+                # a worker died (killed, out of memory): its input and those after it that
+                # the pool can no longer read are recorded, the rest of the run goes on
+                yield _failed(path, settings, "the process reading it ended unexpectedly "
+                                              "(out of memory?); add it again on its own")
 
 
 def _safe_prepare(path: Path, settings: Settings, staging: Path) -> Prepared:
@@ -159,12 +167,17 @@ def _safe_prepare(path: Path, settings: Settings, staging: Path) -> Prepared:
     try:
         return prepare_input(path, settings, staging)
     except Exception as exc:  # one bad input never stops the others
-        record = IngestRecord(file=path.name, path=str(path), sha256="",
-                              settings_sha256=settings_sha256(settings), status="failed",
-                              ingested_at=_now())
-        record.message = (f"the input could not be processed ({type(exc).__name__}); "
-                          "run 'surveytools check' on it for details")
-        return Prepared(record)
+        return _failed(path, settings, f"the input could not be processed "
+                                       f"({type(exc).__name__}); run 'surveytools check' on "
+                                       "it for details")
+
+
+def _failed(path: Path, settings: Settings, message: str) -> Prepared:
+    """Return the record of an input that could not be prepared."""
+    record = IngestRecord(file=path.name, path=str(path), sha256="",
+                          settings_sha256=settings_sha256(settings), status="failed",
+                          ingested_at=_now(), message=message)
+    return Prepared(record)
 
 
 def _month_keys(start_ms: np.ndarray) -> np.ndarray:

@@ -50,3 +50,14 @@ def cli(*args: str) -> tuple[int, str, str]:
     out, err = io.StringIO(), io.StringIO()
     code = execute(build_parser().parse_args(list(args)), out, err)
     return code, out.getvalue(), err.getvalue()
+
+
+def dying_prepare(path: Path, settings: object, staging: Path) -> object:
+    """Stand-in for the worker's prepare step: the process dies on ``die.csv``."""
+    import os
+
+    from surveytools.archive import add
+
+    if path.name == "die.csv":
+        os._exit(3)
+    return add.prepare_input(path, settings, staging)  # type: ignore[arg-type]

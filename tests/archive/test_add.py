@@ -152,3 +152,27 @@ def test_the_same_content_under_two_names_is_stored_once(tmp_path):
     assert [r["file"] for r in _records(archive)] == ["a.csv"]
     assert _stored_rows(archive) == 144
     assert not (archive / ".staging").exists()
+
+
+def test_a_worker_that_dies_fails_its_input_and_the_run_goes_on(tmp_path, monkeypatch):
+    from surveytools.archive import add
+    from tests.archive.archive_inputs import dying_prepare
+
+    monkeypatch.setattr(add, "_safe_prepare", dying_prepare)
+    archive = tmp_path / "archive"
+    inputs = tmp_path / "in"
+    inputs.mkdir()
+    settings = write_settings(tmp_path / "s.toml", "Gate")
+    write_csv_log(inputs / "die.csv", "2026-07-01 07:00:00", 1, 600, 50.0)
+    write_csv_log(inputs / "fine.csv", "2026-07-03 07:00:00", 1, 600, 50.0)
+    code, out, _ = cli("archive", "add", str(inputs), "--archive", str(archive), "--settings",
+                       str(settings), "--jobs", "2")
+    assert code == 1
+    assert "die.csv: not stored (failed): the process reading it ended unexpectedly" in out
+    records = {r["file"]: r["status"] for r in _records(archive)}
+    assert records["die.csv"] == "failed"
+    # the other input was read by the pool before it broke, or is recorded as failed too
+    assert records["fine.csv"] in ("stored", "failed")
+    later = write_csv_log(tmp_path / "later.csv", "2026-07-02 07:00:00", 1, 600, 50.0)
+    assert cli("archive", "add", str(later), "--archive", str(archive), "--settings",
+               str(settings))[0] == 0
