@@ -26,7 +26,7 @@ from surveytools.outputs.xlsx_style import (
     Styles,
     cautions_lines,
     finite_number,
-    print_detail_sheet,
+    print_setup,
 )
 from surveytools.schema_files import validator
 
@@ -246,7 +246,8 @@ def write_archive_workbook(path: Path, doc: Mapping[str, Any]) -> None:
         _write_criteria(criteria, doc)
         _write_charts(wb, charts, doc, "Months", "Years")
         for sheet in (years, months, days, levels, criteria):
-            print_detail_sheet(sheet.ws)
+            width = sum((sheet.set_widths or sheet.widths).values())
+            print_setup(sheet.ws, width, header_rows=(0, 0), key_columns=2)
         for sheet in (summary, charts):
             sheet.ws.set_landscape()
             sheet.ws.set_paper(9)  # A4
