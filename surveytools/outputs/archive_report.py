@@ -21,6 +21,7 @@ from surveytools.outputs.atomic import atomic_write_text
 from surveytools.outputs.results_json import dumps_results
 from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
+    HEADER_LINE_HEIGHT_PT,
     WORKBOOK_OPTIONS,
     SheetWriter,
     Styles,
@@ -63,6 +64,7 @@ def _table(sw: SheetWriter, top: int, headers: Sequence[str],
            rows: Sequence[Sequence[tuple[str, object]]]) -> int:
     """Write a header and rows of (kind, value) cells; return the next free row."""
     sw.header(top, 0, headers)
+    sw.ws.set_row(top, 2 * HEADER_LINE_HEIGHT_PT)  # headers wrap onto two lines
     sw.ws.freeze_panes(top + 1, 1)
     for i, cells in enumerate(rows):
         r = top + 1 + i
