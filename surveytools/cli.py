@@ -44,7 +44,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     def common(p: argparse.ArgumentParser) -> None:
         p.add_argument("paths", nargs="+", type=Path, metavar="PATH",
-                       help="survey workbooks (.xlsx, .xlsm, .csv) or folders holding them")
+                       help="survey workbooks (.xlsx, .xlsm, .csv, .parquet) or folders "
+                            "holding them")
         p.add_argument("--settings", type=Path, metavar="FILE", help="settings file (TOML)")
         p.add_argument("--jobs", type=int, default=os.cpu_count() or 1, metavar="N",
                        help="inputs processed at once (default: number of cores)")
@@ -117,6 +118,10 @@ def build_parser() -> argparse.ArgumentParser:
                           help="name of the workbook to write (must end in .xlsx)")
     template.add_argument("--force", action="store_true",
                           help="replace an existing file of that name")
+
+    from surveytools.archive.command import add_parser as add_archive_parser
+
+    add_archive_parser(sub)
     return parser
 
 
@@ -409,6 +414,10 @@ def execute(args: argparse.Namespace, out: TextIO | None = None,
             return execute_run(args, out, err)
         if args.command == "check":
             return execute_check(args, out, err)
+        if args.command == "archive":
+            from surveytools.archive.command import execute_archive
+
+            return execute_archive(args, out, err)
         if args.command == "verify":
             from surveytools.verify import execute_verify
 
