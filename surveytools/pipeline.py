@@ -45,7 +45,13 @@ NO_HOOKS: ScanHooks = (None, None)
 
 
 def _read_raw(path: Path, settings: Settings, source: SourceInfo,
-              overlap_scan: bool = False, scan_hooks: ScanHooks = NO_HOOKS) -> Any:
+              overlap_scan: bool = False, scan_hooks: ScanHooks = NO_HOOKS,
+              long_logs: bool = False) -> Any:
+    if long_logs:
+        from surveytools.long_log import LongLog, is_long_log
+
+        if is_long_log(path):  # read in batches when assessed (bounded memory)
+            return LongLog(path, source)
     if path.suffix.lower() in CSV_SUFFIXES:
         from surveytools.inputs.csv_input import read_csv_table
 
@@ -106,7 +112,7 @@ class ReadResult:
 
 def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
                expected_sha256: str | None = None, overlap_scan: bool = False,
-               scan_hooks: ScanHooks = NO_HOOKS) -> ReadResult:
+               scan_hooks: ScanHooks = NO_HOOKS, long_logs: bool = False) -> ReadResult:
     """Hash and read one input (the read phase); never raises for a bad input.
 
     ``expected_sha256`` is the hash the batch saw (a file changed since is refused);
@@ -115,7 +121,9 @@ def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
     memory and time limits, uses it). ``scan_hooks`` are run in the scan's thread before
     and after an overlapped scan (the worker imports what the later phases need, while
     the typed parse goes on without the interpreter lock); they are not called when no
-    scan is overlapped (a CSV input, a file refused before its parse).
+    scan is overlapped (a CSV input, a file refused before its parse). With
+    ``long_logs``, a long CSV or Parquet log is not read here: ``raw`` is a
+    :class:`~surveytools.long_log.LongLog`, read in batches when assessed.
     """
     if source is None:
         try:
@@ -126,7 +134,8 @@ def read_input(path: Path, settings: Settings, source: SourceInfo | None = None,
         if changed is not None:
             return ReadResult(source, None, changed)
     try:
-        return ReadResult(source, _read_raw(path, settings, source, overlap_scan, scan_hooks))
+        return ReadResult(source, _read_raw(path, settings, source, overlap_scan, scan_hooks,
+                                            long_logs))
     except WorkbookError as exc:
         return ReadResult(source, None, exc)
 
@@ -144,7 +153,7 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     from surveytools.verdict import verdict_section
 
     if read is None:
-        read = read_input(path, settings, source, expected_sha256)
+        read = read_input(path, settings, source, expected_sha256, long_logs=True)
     source = read.source
     raw = read.raw
     if read.error is not None:
@@ -156,8 +165,24 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
         return doc, None
 
     from surveytools.assessment import assess, reading_annotations
+    from surveytools.long_log import LongLog, NotStreamable, long_log_sections
     from surveytools.validation import build_survey
 
+    if isinstance(raw, LongLog):
+        try:
+            sections, findings, counts = long_log_sections(raw, settings, weather)
+        except NotStreamable:  # out of order across batches: read whole, as before
+            return build_document(path, settings, read=read_input(path, settings, source),
+                                  weather=weather)
+        except WorkbookError as exc:
+            return build_document(path, settings, read=ReadResult(source, None, exc))
+        doc = document_header(source, settings, findings, counts)
+        doc["provenance"] = library_versions()
+        doc.update(sections)
+        if weather is not None:
+            doc["weather_file"] = weather.record()
+        doc["verdict"] = verdict_section(doc)
+        return doc, None
     survey = build_survey(raw, settings, shared_weather=weather)
     too_large = _grid_refusal(survey, settings)
     if too_large is not None:  # refused before any grid is allocated
@@ -299,10 +324,17 @@ def check_file(path: Path, settings: Settings, read: ReadResult | None = None) -
         return FileOutcome(path=str(path), file=path.name, status="unreadable",
                            sha256=source.sha256, findings=findings,
                            finding_totals=_totals(findings))
+    from surveytools.long_log import LongLog, NotStreamable, long_log_findings
     from surveytools.validation import build_survey
 
-    survey = build_survey(raw, settings)
-    findings = _findings_json(survey.findings)
+    if isinstance(raw, LongLog):
+        try:
+            found, _ = long_log_findings(raw, settings)
+        except (NotStreamable, WorkbookError):  # read whole: as before, with its message
+            return check_file(path, settings, read=read_input(path, settings, source))
+    else:
+        found = build_survey(raw, settings).findings
+    findings = _findings_json(found)
     return FileOutcome(path=str(path), file=path.name,
-                       status=status_from_findings(survey.findings), sha256=source.sha256,
+                       status=status_from_findings(found), sha256=source.sha256,
                        findings=findings, finding_totals=_totals(findings))

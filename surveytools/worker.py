@@ -184,7 +184,7 @@ def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[
     if importer is not None and path.suffix.lower() not in WORKBOOK_SUFFIXES:
         importer.start()  # no scan beside this read: import meanwhile in a thread
     read = read_input(path, settings, None, job.get("sha256"), overlap_scan=True,
-                      scan_hooks=hooks)
+                      scan_hooks=hooks, long_logs=True)
     t_read = time.perf_counter()
     if importer is not None:
         importer.stop_prefault()

@@ -322,7 +322,12 @@ def survey_average_section(ctx: Context, schemes: SchemeResults | None
     """
     if ctx.n == 0 or schemes is None:
         return None
-    periods = ctx.settings.periods
+    return survey_average_from_schemes(schemes, ctx.settings)
+
+
+def survey_average_from_schemes(schemes: SchemeResults, settings: Settings) -> dict[str, Any]:
+    """Return the ``survey_average`` section from per-day scheme results (or merged parts)."""
+    periods = settings.periods
     lden, lden_valid = scheme_average(schemes.lden)
     ldn, _ = scheme_average(schemes.ldn)
     cnel, _ = scheme_average(schemes.cnel)

@@ -77,33 +77,16 @@ def read_csv_table(path: str | Path, settings: Settings | None = None,
         raise WorkbookError("file-too-large", f"The CSV file is {size / 1e6:.0f} MB; the limit is "
                             f"{MAX_CSV_BYTES / 1e6:.0f} MB. Split the log into several files.")
     source = source_info(p)
-    with p.open("rb") as fh:
-        head_bytes = fh.read(1 << 16)
-    try:
-        head = head_bytes.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        if exc.start < len(head_bytes) - 4:  # not just a character cut at the 64 KiB edge
-            raise WorkbookError(
-                "csv-encoding", "The CSV file is not UTF-8 text. Save it again as "
-                "'CSV UTF-8' and retry.") from exc
-        head = head_bytes[: exc.start].decode("utf-8-sig")
-    lines = head.splitlines()[:HEADER_SEARCH_ROWS]
-    delimiter = _detect_delimiter(lines, vocabulary)
-    rows = list(csv.reader(io.StringIO("\n".join(lines)), delimiter=delimiter))
     sheet = p.stem
     findings: list[Finding] = []
-    best, score = None, 0
-    for i, row in enumerate(rows):
-        matched, _, _ = cols.match_columns(row, vocabulary, settings.column_map)
-        if len(matched) > score:
-            best, score = i, len(matched)
-    if best is None:
+    found = _header(p, settings, vocabulary)
+    if found is None:
         findings.append(Finding(
             "header-missing", Severity.ERROR,
             f"No header row was found in the first {HEADER_SEARCH_ROWS} lines of the CSV file. "
             "Put the column names (e.g. Start, LAeq) in one line above the data.", sheet=sheet))
         return RawWorkbook(source=source, readings=None, findings=findings)
-    headers = [h.strip() for h in rows[best]]
+    delimiter, best, headers = found
     try:
         frame = pd.read_csv(p, sep=delimiter, header=None, skiprows=best + 1, dtype=str,
                             keep_default_na=False, na_filter=False, encoding="utf-8-sig",
@@ -136,6 +119,41 @@ def read_csv_table(path: str | Path, settings: Settings | None = None,
         return RawWorkbook(source=source, readings=None, weather=table, findings=findings,
                            date_system=1900)
     return RawWorkbook(source=source, readings=table, findings=findings, date_system=1900)
+
+
+def _header(p: Path, settings: Settings, vocabulary: Mapping[str, Sequence[str]]
+            ) -> tuple[str, int, list[str]] | None:
+    """Return (delimiter, line index of the header row, headers), or None without one."""
+    with p.open("rb") as fh:
+        head_bytes = fh.read(1 << 16)
+    try:
+        head = head_bytes.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        if exc.start < len(head_bytes) - 4:  # not just a character cut at the 64 KiB edge
+            raise WorkbookError(
+                "csv-encoding", "The CSV file is not UTF-8 text. Save it again as "
+                "'CSV UTF-8' and retry.") from exc
+        head = head_bytes[: exc.start].decode("utf-8-sig")
+    lines = head.splitlines()[:HEADER_SEARCH_ROWS]
+    delimiter = _detect_delimiter(lines, vocabulary)
+    rows = list(csv.reader(io.StringIO("\n".join(lines)), delimiter=delimiter))
+    best, score = None, 0
+    for i, row in enumerate(rows):
+        matched, _, _ = cols.match_columns(row, vocabulary, settings.column_map)
+        if len(matched) > score:
+            best, score = i, len(matched)
+    if best is None:
+        return None
+    return delimiter, best, [h.strip() for h in rows[best]]
+
+
+def locate_header(path: Path, settings: Settings) -> tuple[str, int, list[str]] | None:
+    """Delimiter, header line index and headers of a CSV readings log (None: no header).
+
+    Used by the batch reader (:mod:`surveytools.inputs.batches`) to find the table as
+    :func:`read_csv_table` does.
+    """
+    return _header(path, settings, cols.READINGS_COLUMNS)
 
 
 def _detect_delimiter(lines: Sequence[str],

@@ -1,0 +1,157 @@
+"""A long CSV or Parquet log assessed in parts gives the whole-log results (design §10).
+
+The reference is the whole-log path (``assess`` on the whole Survey), checked against
+published values in its own tests; here the property is that cutting the log into
+batches and merging the partial results changes no figure: days, survey average,
+overall LAeq, reporting intervals and the findings' rows. The log is invented: 1 s
+readings over the October 2026 change from summer time in Europe/London (the clocks go
+back at 02:00 BST on Sunday 25 October 2026, from memory: the last Sunday of October),
+with a gap, level exclusions, a duplicate and an overlapping row near batch boundaries.
+"""
+
+from __future__ import annotations
+
+import math
+from datetime import datetime, timedelta
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import surveytools.long_log as long_log
+from surveytools.pipeline import build_document, check_file, read_input
+from surveytools.settings import load_settings
+
+START = datetime(2026, 10, 23, 21, 0, 0)  # UTC
+N = 4 * 86400 + 3600  # a little over four days of 1 s readings
+
+
+def _log(n: int = N, seed: int = 7) -> pd.DataFrame:
+    rng = np.random.default_rng(seed)
+    t = np.arange(n)
+    hour = ((t // 3600) + 21) % 24
+    base = np.where((hour >= 7) & (hour < 23), 55.0, 42.0)
+    laeq = np.round(base + rng.normal(0, 4, n), 1)
+    lafmax = np.round(laeq + rng.uniform(1, 12, n), 1)
+    lafmin = np.round(laeq - rng.uniform(0.5, 5, n), 1)
+    start = [START + timedelta(seconds=int(s)) for s in t]
+    frame = pd.DataFrame({"Start": start, "LAeq": laeq, "LAFmax": lafmax, "LAFmin": lafmin})
+    frame = frame.drop(index=np.arange(100_000, 103_600))  # an hour's gap
+    frame.loc[[5_000, 5_001, 60_123], "LAeq"] = 150.0  # implausible: excluded
+    frame = frame.reset_index(drop=True)
+    # a duplicate and an out-of-order row right at batch boundaries of 50,000 rows
+    dup = frame.iloc[[49_999]]
+    late = frame.iloc[[99_990]]
+    frame = pd.concat([frame.iloc[:50_000], dup, frame.iloc[50_000:99_989],
+                       frame.iloc[99_991:100_003], late, frame.iloc[100_003:]],
+                      ignore_index=True)
+    return frame
+
+
+@pytest.fixture(scope="module")
+def files(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("long")
+    frame = _log()
+    csv = folder / "mast_b.csv"
+    text = frame.assign(Start=frame["Start"].dt.strftime("%Y-%m-%d %H:%M:%S"))
+    text.to_csv(csv, index=False)
+    parquet = folder / "mast_b.parquet"
+    frame.to_parquet(parquet, index=False)
+    settings = folder / "settings.toml"
+    settings.write_text('[survey]\nposition = "Mast B"\ntime_zone = "Europe/London"\n'
+                        'clock = "UTC"\n', encoding="utf-8")
+    return csv, parquet, load_settings(settings)
+
+
+def _both(path, settings, monkeypatch, batch_rows=50_000):
+    whole, _ = build_document(path, settings, read=read_input(path, settings))
+    monkeypatch.setattr(long_log, "STREAM_CSV_BYTES", 1000)
+    monkeypatch.setattr(long_log, "STREAM_PARQUET_ROWS", 1000)
+    monkeypatch.setattr(long_log, "BATCH_ROWS", batch_rows)
+    read = read_input(path, settings, long_logs=True)
+    assert isinstance(read.raw, long_log.LongLog)
+    long_log.stream_log(read.raw, settings, assess=False)  # no fallback to the whole read
+    parts, annotations = build_document(path, settings, read=read)
+    assert annotations is None
+    return whole, parts
+
+
+def _close(a, b, tol=0.011):
+    if isinstance(a, dict):
+        assert a.keys() == b.keys()
+        for k in a:
+            _close(a[k], b[k], tol)
+    elif isinstance(a, list):
+        assert len(a) == len(b)
+        for x, y in zip(a, b, strict=True):
+            _close(x, y, tol)
+    elif isinstance(a, float) and isinstance(b, float):
+        assert math.isclose(a, b, abs_tol=tol), (a, b)
+    else:
+        assert a == b
+
+
+@pytest.mark.parametrize("which", [0, 1])
+def test_parts_give_the_whole_log_results(files, monkeypatch, which):
+    path, settings = files[which], files[2]
+    whole, parts = _both(path, settings, monkeypatch)
+    for key in ("days", "survey_average", "intervals", "coverage", "exclusion_spans",
+                "unplaced", "criteria"):
+        # unrounded levels differ only in the last bits (energy sums on another
+        # reference level); every reported (rounded) value is the same
+        _close(parts[key], whole[key], 1e-9)
+    _close(parts["overall"], whole["overall"], 0.011)  # LN from 0.1 dB steps
+    assert parts["finding_counts"] == whole["finding_counts"]
+    assert ([(f["code"], f["row"]) for f in parts["findings"]]
+            == [(f["code"], f["row"]) for f in whole["findings"]])
+
+
+def test_check_in_batches_gives_the_whole_logs_findings(files, monkeypatch):
+    path, settings = files[1], files[2]
+    whole = check_file(path, settings, read=read_input(path, settings))
+    monkeypatch.setattr(long_log, "STREAM_PARQUET_ROWS", 1000)
+    monkeypatch.setattr(long_log, "BATCH_ROWS", 50_000)
+    read = read_input(path, settings, long_logs=True)
+    assert isinstance(read.raw, long_log.LongLog)
+    got = check_file(path, settings, read=read)
+    assert got.status == whole.status
+    assert got.findings == whole.findings
+
+
+def test_rows_far_out_of_order_fall_back_to_the_whole_read(tmp_path, files, monkeypatch):
+    settings = files[2]
+    frame = _log(3 * 86400)
+    # a row 15,000 s (over 4 h) late in the file, in the next batch of 50,000 rows:
+    # beyond CUT_LOOKBACK_MS before the first batch's last reading
+    frame = pd.concat([frame.iloc[:40_000], frame.iloc[40_001:55_000], frame.iloc[[40_000]],
+                       frame.iloc[55_000:]], ignore_index=True)
+    path = tmp_path / "mast_c.parquet"
+    frame.to_parquet(path, index=False)
+    monkeypatch.setattr(long_log, "BATCH_ROWS", 50_000)
+    read = read_input(path, settings)
+    with pytest.raises(long_log.NotStreamable):
+        long_log.stream_log(long_log.LongLog(path, read.source), settings)
+    whole, _ = build_document(path, settings, read=read)
+    monkeypatch.setattr(long_log, "STREAM_PARQUET_ROWS", 1000)
+    fallback, _ = build_document(path, settings)  # streamed first, then read whole
+    for key in ("days", "intervals", "overall", "exclusion_spans", "findings"):
+        assert fallback[key] == whole[key], key
+
+
+def test_a_reading_straddling_a_boundary_is_never_cut_apart():
+    # hand-evaluated: boundaries 0, 10, 20, 30 s; readings [0, 12) and [12, 25) straddle
+    # 10 and 20; the latest free boundary at least CUT_LOOKBACK_MS before the last start
+    # is none here (starts end at 12 s), so nothing is cut.
+    grid = np.array([0, 10_000, 20_000, 30_000], dtype=np.int64)
+    start = np.array([0, 12_000], dtype=np.int64)
+    end = np.array([12_000, 25_000], dtype=np.int64)
+    assert long_log._choose_cut(grid, start, end) is None
+    hour = long_log.CUT_LOOKBACK_MS
+    grid = np.arange(0, 4 * hour + 1, 600_000, dtype=np.int64)  # 10 min steps
+    start = np.array([0, 590_000, 1_300_000, 3 * hour], dtype=np.int64)
+    end = start + np.array([1000, 20_000, 1000, 1000])  # the second straddles 600,000
+    # free boundaries above the first start and at most 3 h - 1 h = 2 h: 1.2e6 ... 7.2e6
+    assert long_log._choose_cut(grid, start, end) == 2 * hour
+    # with the last start at 1 h 10 min the only boundary allowed is 600,000: straddled
+    start[3] = hour + 600_000
+    assert long_log._choose_cut(grid, start, start + 1000 + (start == 590_000) * 19_000) is None
