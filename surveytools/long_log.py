@@ -21,9 +21,11 @@ How a batch is cut so that the merged result is the whole-log result:
   order across batches) cannot be merged exactly: :class:`NotStreamable` is raised and
   the caller reads the log whole, as before.
 
-Not computed from parts (left empty in the streamed document): background LA90 per
-reference interval and the source assessments built on it; LN of the whole survey is
-taken from the time per 0.1 dB level step (exact for levels logged to 0.1 dB).
+The cut is also a boundary of the background reference grid, so the LA90 of every
+reference interval comes from one batch too. LN of the whole survey is taken from the
+time per 0.1 dB level step (:mod:`~surveytools.assessment.parts`). Source assessments
+(``[[assessments]]``) and logged LN columns need the whole log at once: with either, the
+log is read whole (:class:`NotStreamable`).
 """
 
 from __future__ import annotations
@@ -99,7 +101,8 @@ class _Merged:
     counts: dict[str, int] = field(default_factory=dict)
     file_level: set[tuple[Any, ...]] = field(default_factory=set)
     intervals: dict[int, dict[str, Any]] = field(default_factory=dict)
-    interval_laeq: dict[int, float] = field(default_factory=dict)
+    reference: dict[int, tuple[int, int, float, float, bool]] = field(default_factory=dict)
+    reference_basis: str | None = None
     spans: list[dict[str, Any]] = field(default_factory=list)
     unplaced: list[Any] = field(default_factory=list)
     measured_ms: int = 0
@@ -188,8 +191,9 @@ def _merge_spans(merged: _Merged, spans: list[dict[str, Any]], first_row: int | 
 
 def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
     """Add one batch's assessed readings to the merged parts and sections."""
+    from surveytools.assessment.background import reference_la90
     from surveytools.assessment.context import build_context
-    from surveytools.assessment.intervals import intervals_section
+    from surveytools.assessment.intervals import intervals_section, logged_column
     from surveytools.assessment.parts import position_parts
     from surveytools.assessment.spans import exclusion_spans_section
 
@@ -198,17 +202,23 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
     ctx = build_context(survey, settings)
     if ctx.n == 0:
         return
+    if any(ctx.logged(logged_column(p)) is not None for p in settings.percentiles):
+        # a logged LN column: the whole survey's LN combines every logged value
+        raise NotStreamable("logged LN columns")
     parts = position_parts(ctx)
     merged.parts = parts if merged.parts is None else merged.parts + parts
+    ref = reference_la90(ctx)
+    merged.reference_basis = ref.basis
+    for j in range(max(ref.bounds_ms.size - 1, 0)):
+        merged.reference[int(ref.bounds_ms[j])] = (
+            int(ref.bounds_ms[j + 1]), int(ref.period_index[j]), float(ref.la90_db[j]),
+            float(ref.valid_s[j]), bool(ref.sufficient[j]))
     rows, _ = intervals_section(ctx)
     from surveytools.assessment.intervals import interval_bounds
 
     bounds = interval_bounds(ctx)
-    summed = ctx.grouped_laeq(bounds)
     for j, row in enumerate(rows):
         merged.intervals[int(bounds[j])] = row
-        if summed is not None:
-            merged.interval_laeq[int(bounds[j])] = float(summed[0][j])
     reading_rows = survey.readings["row"].to_numpy(dtype=np.int64)
     _merge_spans(merged, exclusion_spans_section(ctx), int(reading_rows[0]))
     merged.last_reading_row = int(reading_rows[-1])
@@ -251,6 +261,9 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
     from surveytools.inputs.raw import RawWorkbook
     from surveytools.validation import build_survey
 
+    if assess and settings.assessments:
+        # source assessments need the readings of their windows across the whole log
+        raise NotStreamable("source assessments")
     batches = open_log(log.path, settings)
     if batches is None:
         raise NotStreamable("no header")
@@ -287,11 +300,14 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
             stop_row: int | None = None
             assessed = own
             if not last and own.any():
+                from surveytools.assessment.background import reference_bounds
                 from surveytools.assessment.context import build_context
                 from surveytools.assessment.intervals import interval_bounds
 
                 probe = build_context(_own_survey(survey, own), settings)
-                cut = _choose_cut(interval_bounds(probe), start[own], end[own])
+                # boundaries of both grids: reporting and background reference intervals
+                grid = np.intersect1d(interval_bounds(probe), reference_bounds(probe)[0])
+                cut = _choose_cut(grid, start[own], end[own])
                 if cut is None:
                     stop_row = first_own_row  # carry every own row
                 else:
@@ -388,8 +404,49 @@ def _interval_rows(merged: _Merged, settings: Settings, tz: Any
                         "period": periods[j], "excluded": []})
             merged.intervals[s] = row
     rows = [merged.intervals[s] for s in starts.tolist()]
-    laeq = [merged.interval_laeq.get(s, float("nan")) for s in starts.tolist()]
-    return rows, laeq
+    # unrounded LAeq per interval (criteria judge these once): the merged interval parts
+    iv = merged.parts.intervals
+    at = np.searchsorted(iv.start_ms, starts)
+    found = (at < iv.start_ms.size) & (iv.start_ms[np.minimum(at, iv.start_ms.size - 1)]
+                                       == starts)
+    laeq = np.full(starts.size, np.nan)
+    laeq[found] = iv.levels_db()[at[found]]
+    return rows, laeq.tolist()
+
+
+def _background(merged: _Merged, settings: Settings, tz: Any) -> dict[str, Any]:
+    """Background section from the reference intervals of every batch (gaps filled)."""
+    from surveytools.assessment.background import (
+        BACKGROUND_PERIODS,
+        ReferenceLA90,
+        background_from_reference,
+    )
+    from surveytools.assessment.timegrid import day_offset_boundaries, stepped_grid
+
+    b = settings.background
+    parts = merged.parts
+    days = parts.days.days
+    days = [days[0] - timedelta(days=1), *days, days[-1] + timedelta(days=1)]
+    spans = day_offset_boundaries(days, [b.day_start, b.night_start], tz)
+    steps = np.tile([b.reference_interval_day_s, b.reference_interval_night_s], len(days))
+    bounds, span = stepped_grid(spans[:-1], spans[1:], steps)
+    period_index = span % len(BACKGROUND_PERIODS)
+    lo = max(int(np.searchsorted(bounds, parts.first_ms, side="right")) - 1, 0)
+    hi = int(np.searchsorted(bounds, parts.last_ms, side="left"))
+    bounds, period_index = bounds[lo: hi + 1], period_index[lo:hi]
+    n = max(bounds.size - 1, 0)
+    la90 = np.full(n, np.nan)
+    valid_s = np.zeros(n)
+    sufficient = np.zeros(n, dtype=bool)
+    for j, s in enumerate(bounds[:-1].tolist()):
+        entry = merged.reference.get(s)
+        if entry is not None:
+            la90[j], valid_s[j], sufficient[j] = entry[2], entry[3], entry[4]
+    length_s = np.diff(bounds) / 1000.0
+    sufficient |= (length_s > 0) & (valid_s >= settings.coverage_threshold * length_s)
+    ref = ReferenceLA90(bounds, period_index, la90, valid_s, length_s, sufficient,
+                        merged.reference_basis or "")
+    return background_from_reference(ref, b.method, tz)
 
 
 def _day_sections(merged: _Merged, settings: Settings, tz: Any
@@ -507,7 +564,7 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
         "intervals_basis": basis,
         "days": days,
         "survey_average": average,
-        "background": None,
+        "background": _background(merged, settings, tz),
         "assessments": [],
         "criteria": criteria,
         "exclusion_spans": merged.spans,

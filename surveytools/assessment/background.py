@@ -17,6 +17,7 @@ and night LA90 combine the LA90 of the *sufficient* reference intervals (valid f
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import tzinfo
 from typing import Any
 
 import numpy as np
@@ -153,11 +154,15 @@ def background_section(ctx: Context, ref: ReferenceLA90 | None = None
     """
     if ctx.n == 0:
         return None
-    method = ctx.settings.background.method
     ref = ref if ref is not None else reference_la90(ctx)
+    return background_from_reference(ref, ctx.settings.background.method, ctx.tz)
+
+
+def background_from_reference(ref: ReferenceLA90, method: str, tz: tzinfo) -> dict[str, Any]:
+    """Return the ``background`` section from the LA90 per reference interval."""
     bounds = ref.bounds_ms
-    starts = format_local(bounds[:-1], ctx.tz)
-    ends = format_local(bounds[1:], ctx.tz)
+    starts = format_local(bounds[:-1], tz)
+    ends = format_local(bounds[1:], tz)
     la90_list = db_list(ref.la90_db)
     valid_list = seconds_list(ref.valid_s)
     reference = [

@@ -17,7 +17,7 @@ cycle), then measures, each command a fresh process tree:
 
 Usage::
 
-    python tests/benchmarks/archive_benchmarks.py [--parts large,minute,second]
+    python tests/benchmarks/archive_benchmarks.py [--parts large,year,minute,second]
         [--repeats 3] [--workdir DIR]
 
 Targets (issue 17): month at 1 s ``run`` <= 2x the bare read, peak < 1.5 GiB; report with
@@ -95,9 +95,11 @@ def settings_file(path: Path, position: str) -> Path:
     return path
 
 
-def large_log(work: Path, repeats: int) -> dict[str, object]:
-    log = work / "month_1s.parquet"
-    write_log(log, "2026-07-01T00:00:00", 31 * 86_400, 1, seed=1)
+def large_log(work: Path, repeats: int, days: int = 31) -> dict[str, object]:
+    """``run`` on one log of ``days`` days at 1 s against the bare read of the same file."""
+    log = work / ("month_1s.parquet" if days == 31 else f"days{days}_1s.parquet")
+    first = "2026-07-01T00:00:00" if days == 31 else "2026-01-01T00:00:00"
+    write_log(log, first, days * 86_400, 1, seed=1)
     settings = settings_file(work / "large.toml", "Month")
     reads, runs = [], []
     for _ in range(repeats):
@@ -109,7 +111,7 @@ def large_log(work: Path, repeats: int) -> dict[str, object]:
     read_s = statistics.median(r["s"] for r in reads)
     run_s = statistics.median(r["s"] for r in runs)
     ratios = statistics.median(b["s"] / a["s"] for a, b in zip(reads, runs, strict=True))
-    return {"rows": 31 * 86_400, "bare_read_s": round(read_s, 2), "run_s": round(run_s, 2),
+    return {"rows": days * 86_400, "bare_read_s": round(read_s, 2), "run_s": round(run_s, 2),
             "ratio": round(ratios, 2),
             "run_peak_mib": round(max(r["rss_mib"] for r in runs), 0)}
 
@@ -158,6 +160,9 @@ def main() -> int:
     if "large" in parts:
         results["large_log_month_1s"] = large_log(work, args.repeats)
         print(json.dumps(results["large_log_month_1s"]), flush=True)
+    if "year" in parts:  # one file of a year at 1 s through run (bounded memory)
+        results["large_log_year_1s"] = large_log(work, 1, days=365)
+        print(json.dumps(results["large_log_year_1s"]), flush=True)
     if "minute" in parts:
         logs = []
         for k in range(10):
