@@ -279,6 +279,8 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
         while table is not None:
             following = next(source, None)
             last = following is None
+            if last:
+                table = batches.without_trailing_blank_rows(table)
             if carried is not None and carried.num_rows:
                 combined = pa.concat_tables([carried, table]).combine_chunks()
                 first_pos = carried_first

@@ -161,3 +161,21 @@ def test_a_reading_straddling_a_boundary_is_never_cut_apart():
     # with the last start at 1 h 10 min the only boundary allowed is 600,000: straddled
     start[3] = hour + 600_000
     assert long_log._choose_cut(grid, start, start + 1000 + (start == 590_000) * 19_000) is None
+
+
+def test_csv_blank_lines_and_a_semicolon_delimiter_as_the_whole_read(tmp_path, files,
+                                                                      monkeypatch):
+    settings = files[2]
+    frame = _log(2 * 86400)
+    text = frame.assign(Start=frame["Start"].dt.strftime("%Y-%m-%d %H:%M:%S"))
+    body = text.to_csv(index=False, sep=";").splitlines()
+    body.insert(70_000, ";;;")  # a blank row between readings: reported, as whole
+    path = tmp_path / "mast_d.csv"
+    path.write_text("Logger export\n" + "\n".join(body) + "\n\n\n", encoding="utf-8")
+    whole, parts = _both(path, settings, monkeypatch)
+    assert parts["finding_counts"] == whole["finding_counts"]
+    assert "row-empty" in whole["finding_counts"]
+    assert ([(f["code"], f["row"]) for f in parts["findings"]]
+            == [(f["code"], f["row"]) for f in whole["findings"]])
+    _close(parts["days"], whole["days"], 1e-9)
+    _close(parts["intervals"], whole["intervals"], 1e-9)

@@ -112,6 +112,24 @@ class LogBatches:
                 strings_can_be_null=False, quoted_strings_can_be_null=False))
         yield from reader
 
+    def without_trailing_blank_rows(self, table: Any) -> Any:
+        """Return the last batch without the blank rows at the end of the file.
+
+        The whole-file CSV reader keeps the table up to its last row with a value; so do
+        the batches (a blank row between readings stays, and is reported).
+        """
+        if self.kind != "csv" or table.num_rows == 0:
+            return table
+        import numpy as np
+        import pyarrow.compute as pc
+
+        filled = np.zeros(table.num_rows, dtype=bool)
+        for k in range(table.num_columns):
+            text = pc.utf8_trim_whitespace(table.column(k))
+            filled |= pc.not_equal(text, "").to_numpy(zero_copy_only=False)
+        used = np.flatnonzero(filled)
+        return table.slice(0, int(used[-1]) + 1 if used.size else 0)
+
     def raw_table(self, table: Any, first_position: int) -> RawTable:
         """Turn a batch into a RawTable whose rows keep their file row numbers.
 
