@@ -191,9 +191,13 @@ def _merge_spans(merged: _Merged, spans: list[dict[str, Any]], first_row: int | 
 
 def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
     """Add one batch's assessed readings to the merged parts and sections."""
-    from surveytools.assessment.background import reference_la90
+    from surveytools.assessment.background import reference_bounds, reference_la90
     from surveytools.assessment.context import build_context
-    from surveytools.assessment.intervals import intervals_section, logged_column
+    from surveytools.assessment.intervals import (
+        interval_bounds,
+        intervals_section,
+        logged_column,
+    )
     from surveytools.assessment.parts import position_parts
     from surveytools.assessment.spans import exclusion_spans_section
 
@@ -207,6 +211,9 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
         raise NotStreamable("logged LN columns")
     parts = position_parts(ctx)
     merged.parts = parts if merged.parts is None else merged.parts + parts
+    bounds = interval_bounds(ctx)
+    # one split of the readings for the interval and reference grids (as assess does)
+    ctx = ctx.with_shared_split([bounds, reference_bounds(ctx)[0]])
     ref = reference_la90(ctx)
     merged.reference_basis = ref.basis
     for j in range(max(ref.bounds_ms.size - 1, 0)):
@@ -214,9 +221,6 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
             int(ref.bounds_ms[j + 1]), int(ref.period_index[j]), float(ref.la90_db[j]),
             float(ref.valid_s[j]), bool(ref.sufficient[j]))
     rows, _ = intervals_section(ctx)
-    from surveytools.assessment.intervals import interval_bounds
-
-    bounds = interval_bounds(ctx)
     for j, row in enumerate(rows):
         merged.intervals[int(bounds[j])] = row
     reading_rows = survey.readings["row"].to_numpy(dtype=np.int64)
