@@ -154,16 +154,16 @@ def _add_findings(merged: _Merged, survey: Any, first_own_row: int, stop_row: in
     for f in survey.findings:
         if f.code == "findings-truncated":
             continue
-        if f.row is None:
-            key = (f.code, f.sheet, f.column, f.message)
+        if f.row is None or f.sheet != survey.readings_sheet:
+            # file-level, or on another table (a shared weather file): every batch sees it
+            key = (f.code, f.sheet, f.row, f.column, f.message)
             if key in merged.file_level:
                 dropped[f.code] = dropped.get(f.code, 0) + 1
                 continue
             merged.file_level.add(key)
             merged.findings.append(f)
             continue
-        own_sheet = f.sheet == survey.readings_sheet
-        if own_sheet and (f.row < first_own_row or (stop_row is not None and f.row >= stop_row)):
+        if f.row < first_own_row or (stop_row is not None and f.row >= stop_row):
             dropped[f.code] = dropped.get(f.code, 0) + 1
             continue
         merged.findings.append(f)

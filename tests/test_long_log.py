@@ -179,3 +179,23 @@ def test_csv_blank_lines_and_a_semicolon_delimiter_as_the_whole_read(tmp_path, f
             == [(f["code"], f["row"]) for f in whole["findings"]])
     _close(parts["days"], whole["days"], 1e-9)
     _close(parts["intervals"], whole["intervals"], 1e-9)
+
+
+def test_findings_beyond_the_cap_are_counted_once_across_batches(tmp_path, files,
+                                                                 monkeypatch):
+    from surveytools.validation.findings import DEFAULT_MAX_PER_CODE
+
+    settings = files[2]
+    frame = _log(2 * 86400)
+    bad = np.arange(1000, 168_000, 557)  # implausible levels spread over every batch
+    assert bad.size > DEFAULT_MAX_PER_CODE
+    frame.loc[bad, "LAeq"] = 151.0
+    path = tmp_path / "mast_e.parquet"
+    frame.to_parquet(path, index=False)
+    whole, parts = _both(path, settings, monkeypatch, batch_rows=20_000)
+    assert parts["finding_counts"] == whole["finding_counts"]
+    assert whole["finding_counts"]["level-out-of-range"] == bad.size + 3  # 3 in _log
+    assert ([(f["code"], f["row"], f["message"]) for f in parts["findings"]]
+            == [(f["code"], f["row"], f["message"]) for f in whole["findings"]])
+    _close(parts["exclusion_spans"], whole["exclusion_spans"], 1e-9)
+    _close(parts["coverage"], whole["coverage"], 1e-9)
