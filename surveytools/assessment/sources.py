@@ -269,8 +269,7 @@ def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | 
         raise SettingsError(f"residual settings: {exc}") from exc
     specific, difference = float(specific_arr), float(difference_arr)
     basis = str(basis_arr.item())
-    corrections = {name: float(assessment.corrections_db.get(name, 0.0))
-                   for name in CORRECTION_NAMES}
+    corrections = {name: assessment.given_correction_db(name) for name in CORRECTION_NAMES}
     spectra = assessment_spectra(ctx, on_selection, off_selection, assessment.tonal_method)
     if spectra.tonal_correction_db is not None:
         corrections["tonal"] = spectra.tonal_correction_db

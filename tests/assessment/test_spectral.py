@@ -169,7 +169,7 @@ def _assessment(**kwargs):
 
 def test_derived_tonal_correction_flows_into_rating_and_excess():
     derived = assess(spectral_survey(), Settings(assessments=(
-        _assessment(tonal_method="one-third-octave"),)))["assessments"][0]
+        _assessment(corrections_db={"tonal": "one-third-octave"}),)))["assessments"][0]
     given = assess(spectral_survey(), Settings(assessments=(
         _assessment(corrections_db={"tonal": 0.0}),)))["assessments"][0]
     # BS 4142:2014+A1:2019 one-third-octave method (from memory): the 100 Hz tone is in
@@ -194,7 +194,7 @@ def test_derived_tonal_correction_flows_into_rating_and_excess():
 def test_tone_also_in_residual_gives_no_correction():
     survey = spectral_survey(tone_to="2026-07-04 01:00")
     (a,) = assess(survey, Settings(assessments=(
-        _assessment(tonal_method="one-third-octave"),)))["assessments"]
+        _assessment(corrections_db={"tonal": "one-third-octave"}),)))["assessments"]
     assert a["corrections_db"]["tonal"] == 0.0
     assert "also in the residual" in a["tonal_basis"]["reason"]
 
@@ -203,7 +203,7 @@ def test_no_bands_derived_correction_is_zero_with_reason():
     survey = build_survey([local_ms("2026-07-03 23:30") + MINUTE_MS * k for k in range(90)],
                           60, {"LAeq": [50.0] * 60 + [40.0] * 30})
     (a,) = assess(survey, Settings(assessments=(
-        _assessment(tonal_method="one-third-octave"),)))["assessments"]
+        _assessment(corrections_db={"tonal": "one-third-octave"}),)))["assessments"]
     assert a["corrections_db"]["tonal"] == 0.0
     assert "could not be derived" in a["tonal_basis"]["reason"]
     assert "spectrum_source_on" not in a
