@@ -34,6 +34,7 @@ from surveytools.outputs.episodes import (
     write_episodes_sheet,
     write_summary_episodes,
 )
+from surveytools.outputs.spectra_sheet import SHEET_SPECTRA, summary_lines, write_spectra_sheet
 from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
     SHEET_MAX_ROWS,
@@ -392,6 +393,17 @@ def _write_summary(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
                             "Assessments sheet", "note", measure=False)
             row += 1
     row += 1
+
+    # frequency content (only with band levels): one line per tone and per flag
+    frequency_lines = summary_lines(doc)
+    if frequency_lines:
+        sw.text(row, 0, "Frequency content (one-third-octave bands)", "subtitle", measure=False)
+        row += 1
+        for line, flagged in frequency_lines:
+            _merged_text(sw, row, 0, _SUMMARY_LAST_COL, line,
+                         "caution_bold" if flagged else "note")
+            row += 1
+        row += 1
 
     # criteria
     criteria = list(doc.get("criteria") or [])
@@ -1139,6 +1151,8 @@ def write_results_workbook(path: Path, doc: dict[str, Any],
         _write_intervals(sheet(SHEET_INTERVALS), wb, doc)
         _write_background(sheet(SHEET_BACKGROUND), wb, doc)
         _write_assessments(sheet(SHEET_ASSESSMENTS), doc)
+        if doc.get("spectral"):
+            write_spectra_sheet(sheet(SHEET_SPECTRA), wb, doc)
         _write_exclusions(sheet(SHEET_EXCLUSIONS), doc)
         if doc.get("criteria"):
             write_episodes_sheet(sheet(SHEET_EPISODES), doc)
