@@ -207,3 +207,33 @@ def test_no_bands_derived_correction_is_zero_with_reason():
     assert a["corrections_db"]["tonal"] == 0.0
     assert "could not be derived" in a["tonal_basis"]["reason"]
     assert "spectrum_source_on" not in a
+
+
+def test_empty_and_incomplete_band_columns_give_no_nan():
+    import json
+
+    start = local_ms("2026-07-03 18:00")
+    starts = [start + MINUTE_MS * k for k in range(30)]
+    survey = build_survey(starts, 60, {"LAeq": [50.0] * 30})
+    survey.readings[band_name(1000.0)] = np.nan  # a band column left empty
+    survey.readings[band_name(1250.0)] = 45.0
+    spectral = assess(survey, Settings())["spectral"]
+    json.dumps(spectral, allow_nan=False)
+    assert spectral["bands_hz"] == [1000.0, 1250.0]
+    assert spectral["periods"] == {"day": None, "evening": None, "night": None}
+    assert spectral["band_check"]["intervals"] == 0
+    assert spectral["band_check"]["mismatch"] is False
+    assert spectral["incomplete_readings"] == 30
+    assert spectral["tones"] == [] and spectral["intervals"] == []
+
+
+def test_readings_with_a_missing_band_value_are_left_out():
+    survey = spectral_survey(tone_from=None)
+    column = band_name(1000.0)
+    values = survey.readings[column].to_numpy(copy=True)
+    values[:30] = np.nan  # the first half hour of the day lacks the 1 kHz band
+    survey.readings[column] = values
+    spectral = assess(survey, Settings())["spectral"]
+    assert spectral["incomplete_readings"] == 30
+    assert spectral["periods"]["day"]["valid_s"] == 1800.0
+    assert spectral["periods"]["day"]["LZeq"] == [60.0] * len(BANDS)

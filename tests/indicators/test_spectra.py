@@ -6,6 +6,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from surveytools.indicators.spectra import (
     band_numbers,
@@ -158,3 +160,15 @@ def test_derived_tonal_correction():
     assert one_third_octave_tonal_correction(on, [False, True, False])[0] == 0.0
     assert one_third_octave_tonal_correction(on, None)[0] == 6.0
     assert one_third_octave_tonal_correction([False] * 3, None)[0] == 0.0
+
+
+@settings(max_examples=50, deadline=None)
+@given(st.lists(st.floats(20.0, 90.0), min_size=len(BANDS), max_size=len(BANDS)),
+       st.integers(-30, 30))
+def test_screening_depends_on_level_differences_only(levels, shift):
+    # Property: the tone test compares a band with its neighbours, so adding the same
+    # whole number of dB to every band cannot change which bands are tonal.
+    levels = np.round(np.array(levels), 1)
+    _, found = screen_tones(levels, BANDS)
+    _, shifted = screen_tones(levels + shift, BANDS)
+    assert found.tolist() == shifted.tolist()
