@@ -71,7 +71,7 @@ BAND_MISMATCH_MESSAGE = (
 
 @dataclass(frozen=True)
 class Bands:
-    """The band columns of a survey as one matrix.
+    """The band columns of a survey.
 
     Parameters
     ----------
@@ -79,16 +79,26 @@ class Bands:
         Canonical column names, ascending frequency.
     nominal_hz : numpy.ndarray
         Nominal mid-band frequency of each column. [Hz]
-    levels : numpy.ndarray
-        Band levels, shape ``(n_readings, n_bands)``. [dB]
     complete : numpy.ndarray of bool
         Readings whose every band is a number.
     """
 
     columns: tuple[str, ...]
     nominal_hz: FloatArray
-    levels: FloatArray
     complete: np.ndarray
+
+    def levels(self, ctx: Context, rows: IntArray) -> FloatArray:
+        """Band levels of the readings ``rows``, shape ``(rows, n_bands)`` [dB].
+
+        Only the chosen rows are gathered, so a long log never holds a second full copy
+        of its band columns.
+        """
+        out = np.empty((rows.size, len(self.columns)), dtype=np.float64)
+        for k, name in enumerate(self.columns):  # one column at a time, 34 at most
+            values = ctx.level(name)
+            assert values is not None
+            out[:, k] = values[rows]
+        return out
 
 
 def band_columns(columns: list[str]) -> list[tuple[float, str]]:
@@ -102,24 +112,17 @@ def band_columns(columns: list[str]) -> list[tuple[float, str]]:
 
 
 def survey_bands(ctx: Context) -> Bands | None:
-    """Return the survey's band levels, None without band columns or readings."""
+    """Return the survey's band columns, None without band columns or readings."""
     found = band_columns(list(ctx.survey.readings.columns))
     if not found or ctx.n == 0:
         return None
-    key = ("bands",)
-    cached = ctx.cache.get(key)
-    if isinstance(cached, Bands):
-        return cached
     columns = tuple(name for _, name in found)
-    levels = np.empty((ctx.n, len(columns)), dtype=np.float64)
-    for k, name in enumerate(columns):  # one column at a time, a few dozen at most
+    complete = np.ones(ctx.n, dtype=bool)
+    for name in columns:  # one column at a time, 34 at most
         values = ctx.level(name)
         assert values is not None
-        levels[:, k] = values
-    bands = Bands(columns, np.array([hz for hz, _ in found]), levels,
-                  np.asarray(np.isfinite(levels).all(axis=1), dtype=bool))
-    ctx.cache[key] = bands
-    return bands
+        complete &= np.isfinite(values)
+    return Bands(columns, np.array([hz for hz, _ in found]), complete)
 
 
 def _thresholds(ctx: Context, nominal_hz: FloatArray) -> FloatArray:
@@ -176,7 +179,7 @@ def spectral_section(ctx: Context) -> tuple[dict[str, Any] | None, list[Finding]
     weights_ms = pieces.weights_ms[chosen]
     cell = interval[chosen] * N_PERIODS + scheme[chosen] % N_PERIODS
     n_cells = n_intervals * N_PERIODS
-    band_levels = bands.levels[index]
+    band_levels = bands.levels(ctx, index)
     reference = float(band_levels.max()) if band_levels.size else 0.0
     energy, time = grouped_band_energy_sums(band_levels, weights_ms, cell, n_cells, reference)
     laeq = ctx.level("LAeq")
@@ -296,21 +299,18 @@ class SelectionSpectrum:
     difference_db: FloatArray
 
 
-def selection_spectrum(ctx: Context, index: IntArray, durations_s: FloatArray
+def selection_spectrum(ctx: Context, bands: Bands, index: IntArray, durations_s: FloatArray
                        ) -> SelectionSpectrum | None:
     """Energy-average spectrum of the readings ``index`` (valid, with a complete spectrum).
 
     ``index`` and ``durations_s`` are the readings (or reading pieces) of a selection such
-    as an assessment's source-on time; None without band columns or without any chosen
-    reading with a complete spectrum.
+    as an assessment's source-on time; None without any chosen reading with a complete
+    spectrum.
     """
-    bands = survey_bands(ctx)
-    if bands is None:
-        return None
     keep = bands.complete[index] & (durations_s > 0)
     if not keep.any():
         return None
-    levels = bands.levels[index[keep]]
+    levels = bands.levels(ctx, index[keep])
     reference = float(levels.max())
     energy, time = grouped_band_energy_sums(levels, durations_s[keep],
                                             np.zeros(int(keep.sum()), dtype=np.int64), 1,
@@ -321,18 +321,18 @@ def selection_spectrum(ctx: Context, index: IntArray, durations_s: FloatArray
     return SelectionSpectrum(spectrum, float(time[0, 0]), tonal, difference)
 
 
-def spectrum_json(ctx: Context, selection: SelectionSpectrum | None) -> dict[str, Any] | None:
+def spectrum_json(ctx: Context, bands: Bands, selection: SelectionSpectrum | None
+                  ) -> dict[str, Any] | None:
     """JSON form of a selection's spectrum (None stays None)."""
-    bands = survey_bands(ctx)
-    if selection is None or bands is None:
+    if selection is None:
         return None
     return _spectrum_summary(ctx, bands, selection.spectrum, selection.valid_s)
 
 
-def tones_json(ctx: Context, selection: SelectionSpectrum | None) -> list[dict[str, Any]]:
+def tones_json(ctx: Context, bands: Bands, selection: SelectionSpectrum | None
+               ) -> list[dict[str, Any]]:
     """Tonal bands of a selection's spectrum with their level differences."""
-    bands = survey_bands(ctx)
-    if selection is None or bands is None:
+    if selection is None:
         return []
     thresholds = _thresholds(ctx, bands.nominal_hz)
     return [{"band_hz": float(bands.nominal_hz[k]),
@@ -341,7 +341,7 @@ def tones_json(ctx: Context, selection: SelectionSpectrum | None) -> list[dict[s
             for k in np.flatnonzero(selection.tonal)]
 
 
-def tonal_correction(ctx: Context, source_on: SelectionSpectrum | None,
+def tonal_correction(ctx: Context, bands: Bands | None, source_on: SelectionSpectrum | None,
                      residual: SelectionSpectrum | None) -> tuple[float, dict[str, Any]]:
     """Derive the tonal correction and its basis (BS 4142 one-third-octave method).
 
@@ -354,7 +354,6 @@ def tonal_correction(ctx: Context, source_on: SelectionSpectrum | None,
         ``{"source": "derived", "method": "one-third-octave", "bands_hz": [...],
         "reason": text}``.
     """
-    bands = survey_bands(ctx)
     basis: dict[str, Any] = {"source": "derived", "method": ONE_THIRD_OCTAVE, "bands_hz": []}
     if bands is None or source_on is None:
         basis["reason"] = ("no complete one-third-octave spectrum in the source-on time: the "
@@ -416,16 +415,18 @@ def assessment_spectra(ctx: Context, source_on: tuple[IntArray, FloatArray],
     tonal_method : str or None
         ``"one-third-octave"`` to derive the tonal correction; None when it is given.
     """
-    on = selection_spectrum(ctx, *source_on)
-    off = selection_spectrum(ctx, *residual)
+    bands = survey_bands(ctx)
+    on = off = None
     fields: dict[str, Any] = {}
-    if survey_bands(ctx) is not None:
-        fields = {"spectrum_source_on": spectrum_json(ctx, on),
-                  "spectrum_residual": spectrum_json(ctx, off),
-                  "tones_source_on": tones_json(ctx, on)}
+    if bands is not None:
+        on = selection_spectrum(ctx, bands, *source_on)
+        off = selection_spectrum(ctx, bands, *residual)
+        fields = {"spectrum_source_on": spectrum_json(ctx, bands, on),
+                  "spectrum_residual": spectrum_json(ctx, bands, off),
+                  "tones_source_on": tones_json(ctx, bands, on)}
     if tonal_method != ONE_THIRD_OCTAVE:
         return AssessmentSpectra(None, {"source": "given", "method": None, "bands_hz": [],
                                         "reason": "given in the settings (corrections_db)"},
                                  fields)
-    correction, basis = tonal_correction(ctx, on, off)
+    correction, basis = tonal_correction(ctx, bands, on, off)
     return AssessmentSpectra(correction, basis, fields)
