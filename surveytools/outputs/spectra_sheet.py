@@ -35,7 +35,18 @@ PERIODS: tuple[tuple[str, str], ...] = (("day", "Day"), ("evening", "Evening"),
                                        ("night", "Night"))
 
 #: Width of the "Tonal in" column [characters] (longer lists run on into the next cells).
-_TONAL_IN_WIDTH = 28
+_TONAL_IN_WIDTH = 44
+
+#: The note above the table (our own wording).
+SHEET_NOTE = (
+    "One-third-octave band spectra (Z-weighted energy averages over valid time with a "
+    "complete spectrum). Marked cells: the band holds a tone in that spectrum (exceeds both "
+    "adjacent bands by 15 / 8 / 5 dB in 25-125 Hz / 160-400 Hz / 500 Hz-10 kHz; ISO "
+    "1996-2:2007 Annex D). Totals: IEC 61672-1 A and C weights at the exact band "
+    "frequencies. The chart's red diamonds mark tonal bands."
+)
+#: Height of the note row [pt] (three wrapped lines).
+_NOTE_HEIGHT_PT = 45.0
 
 #: First row of the band table (title note, then the header row).
 _HEADER_ROW = 2
@@ -126,16 +137,16 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any]) -> Non
     if not isinstance(spectral, Mapping):
         return
     marked = wb.add_format({"num_format": FMT_LEVEL, "bold": True, "bg_color": COLOUR_WARN_FILL})
-    sw.text(0, 0, "One-third-octave band spectra (Z-weighted energy averages over valid time "
-                  "with a complete spectrum). Marked cells: the band holds a tone in that "
-                  "spectrum (exceeds both adjacent bands by 15 / 8 / 5 dB in 25-125 Hz / "
-                  "160-400 Hz / 500 Hz-10 kHz; ISO 1996-2:2007 Annex D). Totals: IEC 61672-1 "
-                  "A and C weights at the exact band frequencies.", "note", measure=False)
     bands = [finite_number(f) for f in spectral.get("bands_hz") or []]
     columns = spectrum_columns(doc)
+    last_col = 3 + len(columns)
+    note_format = wb.add_format({"italic": True, "font_color": "#595959", "text_wrap": True,
+                                 "valign": "top"})
+    ws.merge_range(0, 0, 0, last_col, SHEET_NOTE, note_format)  # our own text
+    ws.set_row(0, _NOTE_HEIGHT_PT)
     thresholds = list(spectral.get("tone_thresholds_db") or [])
     headers = (["Band [Hz]"] + [c.header for c in columns]
-               + ["Tone threshold [dB]", "Tonal in", "Tone marker (chart) [dB]"])
+               + ["Tone threshold [dB]", "Tone marker (chart) [dB]", "Tonal in"])
     sw.header(_HEADER_ROW, 0, headers)
     ws.freeze_panes(_HEADER_ROW + 1, 1)
     first = _HEADER_ROW + 1
@@ -156,9 +167,9 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any]) -> Non
                 sw.number(r, 1 + j, level, "level")
         sw.number(r, 1 + len(columns), thresholds[k] if k < len(thresholds) else None,
                   "level")
-        sw.text(r, 2 + len(columns), "; ".join(tonal_in.get(k, [])),
+        sw.number(r, 2 + len(columns), marker.get(k), "level")
+        sw.text(r, 3 + len(columns), "; ".join(tonal_in.get(k, [])),
                 "sev_warning" if k in tonal_in else "text", measure=False)
-        sw.number(r, 3 + len(columns), marker.get(k), "level")
     last = first + len(bands) - 1
 
     row = last + 2
@@ -184,7 +195,7 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any]) -> Non
     _write_tonal_bases(sw, doc, row)
     sw.fit_columns(minimum=9.0)
     ws.set_column(0, 0, 24)
-    ws.set_column(2 + len(columns), 2 + len(columns), _TONAL_IN_WIDTH)
+    ws.set_column(3 + len(columns), 3 + len(columns), _TONAL_IN_WIDTH)
 
     if bands and columns:
         chart = wb.add_chart({"type": "line"})
@@ -196,7 +207,7 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any]) -> Non
                 "marker": {"type": "circle", "size": 4},
             })
         if marker:
-            col = 3 + len(columns)
+            col = 2 + len(columns)
             chart.add_series({
                 "name": "Tone",
                 "categories": [ws.name, first, 0, last, 0],
@@ -211,7 +222,7 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any]) -> Non
         chart.set_legend({"position": "bottom"})
         chart.set_size({"width": 900, "height": 460})
         chart.show_blanks_as("gap")
-        ws.insert_chart(_HEADER_ROW, len(headers) + 1, chart)
+        ws.insert_chart(_HEADER_ROW, len(headers) + 1, chart, {"x_offset": 8})
 
 
 def _write_tones(sw: SheetWriter, spectral: Mapping[str, Any], row: int) -> int:
