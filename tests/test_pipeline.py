@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+from datetime import datetime, timedelta
 from pathlib import Path
 
 import pytest
@@ -276,3 +277,33 @@ def test_overlapped_read_finds_deep_formulas_merges_and_text_like_a_plain_one(
     codes = {f[0] for f in plain}
     assert {"formula-without-value", "merged-cells"} <= codes
     assert any(f[2] == 4000 and f[3] == "C" for f in plain)  # the OVL cell is reported
+
+
+def test_band_columns_offset_give_a_located_warning(tmp_path: Path) -> None:
+    # Three band columns spelled three ways (README column table); the 1 kHz column is 3 dB
+    # too high. Hand-evaluated with IEC 61672-1:2013 Table 3 weights (-0.8 / 0 / +0.6 dB):
+    # band total 63 + 10 lg(1 + 10**-1.38 + 10**-1.24) = 63.41 dB against a logged 60.8 dB.
+    import openpyxl
+
+    path = tmp_path / "bands.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    assert ws is not None
+    ws.title = "Survey"
+    for row in (["Field", "Value"], ["Position", "P1"], ["Time zone", "UTC"],
+                ["Calibration before (dB)", 94.0], ["Calibration after (dB)", 94.0]):
+        ws.append(row)
+    rd = wb.create_sheet("Readings")
+    rd.append(["Start", "Duration (s)", "LAeq (dB)", "LZeq 800 Hz", "1 kHz", "1250"])
+    for i in range(8):
+        rd.append([datetime(2026, 6, 1, 12, 0) + timedelta(minutes=15 * i), 900, 60.8,
+                   50.0, 63.0, 50.0])
+    wb.save(path)
+    doc, _ = build_document(path, Settings())
+    assert validate_results(doc) == []
+    assert doc["status"] == "warnings"
+    (finding,) = [f for f in doc["findings"] if f["code"] == "band-total-mismatch"]
+    assert finding["severity"] == "warning" and finding["sheet"] == "Readings"
+    assert "+2.6 dB" in finding["message"]
+    assert doc["spectral"]["bands_hz"] == [800.0, 1000.0, 1250.0]
+    assert doc["spectral"]["band_check"]["median_difference_db"] == pytest.approx(2.61, abs=0.05)
