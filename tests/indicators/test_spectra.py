@@ -19,6 +19,7 @@ from surveytools.indicators.spectra import (
     tone_thresholds,
 )
 from surveytools.indicators.weighting import NOMINAL_THIRD_OCTAVE_HZ, band_total
+from tests.indicators.test_weighting import TABLE_3
 
 BANDS = np.array(NOMINAL_THIRD_OCTAVE_HZ)
 
@@ -93,6 +94,16 @@ def test_band_numbers():
     # IEC 61260-1:2014 base-ten bands: 1 kHz is n = 0, 31.5 Hz is n = -15, 20 kHz n = 13.
     assert band_numbers([31.5, 1000.0, 20000.0]).tolist() == [-15.0, 0.0, 13.0]
     assert np.isnan(band_numbers([700.0])).all()
+
+
+@pytest.mark.parametrize(("nominal", "a_db", "c_db"), TABLE_3, ids=[str(r[0]) for r in TABLE_3])
+def test_single_band_totals_carry_table_3_weights(nominal, a_db, c_db):
+    # IEC 61672-1:2013 Table 3 (standards.md §1a, printed to 0.1 dB): a spectrum with one
+    # band at 70 dB (its neighbours far below) totals 70 dB + that band's weight.
+    levels = np.full(BANDS.size, -100.0)
+    levels[list(BANDS).index(nominal)] = 70.0
+    assert band_total(levels, BANDS, "A") == pytest.approx(70.0 + a_db, abs=0.05)
+    assert band_total(levels, BANDS, "C") == pytest.approx(70.0 + c_db, abs=0.05)
 
 
 # IEC 61672-1:2013 Table 3 (standards.md §1a): A weights, to 0.1 dB.
