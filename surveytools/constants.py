@@ -135,6 +135,12 @@ CALIBRATOR_NOMINAL_TOLERANCE_DB = 0.5
 PLAUSIBLE_LEVEL_MIN_DB = 10.0
 #: Upper end of the plausible range [dB]. See PLAUSIBLE_LEVEL_MIN_DB.
 PLAUSIBLE_LEVEL_MAX_DB = 140.0
+#: Lowest plausible one-third-octave band level [dB] (the broadband lower end does not
+#: apply to band columns). Own choice: a band is much narrower than the broadband channel,
+#: so a class 1 meter's self-noise in its high-frequency bands lies near 0-10 dB and quiet
+#: sites log band levels well under PLAUSIBLE_LEVEL_MIN_DB; -20 dB still refuses sentinel
+#: values such as -99.
+PLAUSIBLE_BAND_LEVEL_MIN_DB = -20.0
 
 #: Default fraction of a period that must hold valid readings for the figure to count as
 #: sufficient. Common practice (no standard value).

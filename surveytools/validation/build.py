@@ -13,7 +13,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from surveytools.constants import GAP_FACTOR
+from surveytools.constants import GAP_FACTOR, PLAUSIBLE_BAND_LEVEL_MIN_DB
 from surveytools.inputs.columns import (
     EXCLUSION_COLUMNS,
     READINGS_COLUMNS,
@@ -289,8 +289,11 @@ def build_survey(raw: RawWorkbook, settings: Settings,
         col = by[name]
         nums = ck.read_numbers(col, n, cols.where, collector, what="a level", unit="dB",
                               code_prefix="level", markers=True)
+        # band levels may lie far under the broadband floor (PLAUSIBLE_BAND_LEVEL_MIN_DB)
+        low = (min(rules.level_min_db, PLAUSIBLE_BAND_LEVEL_MIN_DB)
+               if name.startswith(_BAND_PREFIX) else rules.level_min_db)
         out = ck.check_level_range(nums.values, col, cols.where, collector,
-                                  rules.level_min_db, rules.level_max_db)
+                                  low, rules.level_max_db)
         levels[name] = nums.values
         overload_marker |= nums.marker
         if name == "LAeq":
