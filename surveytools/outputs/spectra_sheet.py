@@ -16,7 +16,7 @@ References
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -130,8 +130,13 @@ def summary_lines(doc: Mapping[str, Any]) -> list[tuple[str, bool]]:
     return lines
 
 
-def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any]) -> None:
-    """Write the Spectra sheet (the caller adds it only when ``doc['spectral']`` is set)."""
+def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any],
+                        place_chart: Callable[[Any], None] | None = None) -> None:
+    """Write the Spectra sheet (the caller adds it only when ``doc['spectral']`` is set).
+
+    ``place_chart`` puts the spectra chart somewhere else (e.g. a sheet that gathers the
+    workbook's charts); by default it goes on the Spectra sheet beside the table.
+    """
     ws = sw.ws
     spectral = doc.get("spectral")
     if not isinstance(spectral, Mapping):
@@ -220,9 +225,12 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any]) -> Non
         chart.set_x_axis({"name": "One-third-octave band [Hz]", "num_font": {"rotation": -45}})
         chart.set_y_axis({"name": "Level (Z) [dB]", "num_format": "0"})
         chart.set_legend({"position": "bottom"})
-        chart.set_size({"width": 900, "height": 460})
         chart.show_blanks_as("gap")
-        ws.insert_chart(_HEADER_ROW, len(headers) + 1, chart, {"x_offset": 8})
+        if place_chart is not None:
+            place_chart(chart)
+        else:
+            chart.set_size({"width": 900, "height": 460})
+            ws.insert_chart(_HEADER_ROW, len(headers) + 1, chart, {"x_offset": 8})
 
 
 def _write_tones(sw: SheetWriter, spectral: Mapping[str, Any], row: int) -> int:

@@ -114,3 +114,17 @@ def test_summary_all_clear_and_mismatch_lines() -> None:
     (line,) = summary_lines(doc)
     assert line[1] and "median difference +3.0 dB" in line[0]
     assert summary_lines(build_results_doc()) == []
+
+
+def test_chart_can_be_placed_elsewhere(tmp_path: Path) -> None:
+    import xlsxwriter
+
+    from surveytools.outputs.spectra_sheet import write_spectra_sheet
+    from surveytools.outputs.xlsx_style import SheetWriter, Styles
+
+    placed: list[Any] = []
+    wb = xlsxwriter.Workbook(str(tmp_path / "x.xlsx"))
+    sw = SheetWriter(wb.add_worksheet(SHEET_SPECTRA), Styles(wb))
+    write_spectra_sheet(sw, wb, spectral_doc(), place_chart=placed.append)
+    wb.close()
+    assert len(placed) == 1  # the spectra chart went to the caller, not onto the sheet
