@@ -8,6 +8,7 @@ modification time changes while we look is deferred, not failed; one input's fai
 
 from __future__ import annotations
 
+import errno
 import json
 import os
 import re
@@ -99,6 +100,8 @@ class BatchResult:
     alerts: list[Any] = field(default_factory=list)
     #: What went wrong writing the ledger or running the alert program (never fatal).
     alert_problems: list[str] = field(default_factory=list)
+    #: Why the overview or manifest could not be written at the end (a full disk), or None.
+    output_error: str | None = None
 
     def counts(self) -> dict[str, int]:
         """Return the number of inputs per final status."""
@@ -111,7 +114,9 @@ class BatchResult:
         return out
 
     def exit_code(self) -> int:
-        """Return 0 when every input was processed without errors, else 1."""
+        """Return 0: every input processed without errors; 1: some were not; 2: no overview."""
+        if self.output_error:
+            return 2
         c = self.counts()
         missing = any(s.code == "path-missing" for s in self.skipped)
         return 1 if (c["errors"] or c["unreadable"] or c["deferred"] or missing) else 0
@@ -241,6 +246,80 @@ def output_stems(candidates: list[Candidate]) -> dict[str, str]:
     return stems
 
 
+#: Why a write into the output folder failed, by errno: (finding code, our words).
+_WRITE_FAULTS = {
+    errno.ENOSPC: ("output-disk-full", "the disk is full (no space left)"),
+    errno.EDQUOT: ("output-disk-full", "your disk quota is used up"),
+    errno.EFBIG: ("output-disk-full", "the file system refused a file that large"),
+    errno.EROFS: ("output-not-writable", "the file system is read-only"),
+    errno.EACCES: ("output-not-writable", "you have no permission to write there"),
+    errno.EPERM: ("output-not-writable", "you have no permission to write there"),
+    errno.ENOTDIR: ("output-not-writable", "part of that path is a file, not a folder"),
+    errno.EEXIST: ("output-not-writable", "a file of that name exists where a folder should be"),
+}
+
+
+def os_error_in(exc: BaseException) -> OSError | None:
+    """Return the operating-system error behind ``exc`` (itself, its cause or first arg)."""
+    seen: set[int] = set()
+    todo: list[object] = [exc]
+    while todo:
+        e = todo.pop()
+        if not isinstance(e, BaseException) or id(e) in seen:
+            continue
+        seen.add(id(e))
+        if isinstance(e, OSError) and e.errno is not None:
+            return e
+        todo.extend([e.__cause__, e.__context__, *e.args[:1]])
+    return None
+
+
+def describe_write_fault(exc: OSError) -> tuple[str, str]:
+    """Return (finding code, reason in our words) for a failed write into the output folder."""
+    if exc.errno in _WRITE_FAULTS:
+        return _WRITE_FAULTS[exc.errno]
+    return "output-not-writable", (exc.strerror or "the system refused the write").lower()
+
+
+def write_failure(path: Path, out_dir: Path, exc: OSError) -> dict[str, Any]:
+    """Return the failure of an input whose results could not be written (a full disk)."""
+    code, reason = describe_write_fault(exc)
+    return _worker_failure(
+        path, code, f"the results could not be written to {out_dir}: {reason}. Your input "
+        "is fine as far as it was read; free some space (or choose another folder with -o) "
+        "and run again - this file will be processed again")
+
+
+def check_output_folder(out_dir: Path) -> None:
+    """Create ``out_dir`` if needed and prove a file can be written there, before any work.
+
+    Raises
+    ------
+    SurveyToolsError
+        The folder cannot be created or written (read-only, no permission, full disk); the
+        message names the folder and why (exit 2).
+    """
+    import tempfile
+
+    from surveytools.errors import SurveyToolsError
+
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+        if not out_dir.is_dir():
+            raise NotADirectoryError(errno.ENOTDIR, "not a folder", str(out_dir))
+        with tempfile.NamedTemporaryFile(dir=out_dir, prefix=".surveytools-probe-",
+                                         suffix=".part") as probe:
+            probe.write(b"x" * 4096)
+            probe.flush()
+            os.fsync(probe.fileno())
+    except OSError as exc:
+        _code, reason = describe_write_fault(exc)
+        raise SurveyToolsError(
+            f"cannot write results to the folder {out_dir}: {reason}. Nothing was processed; "
+            "choose another folder with -o/--output (or free some space) and run again"
+        ) from None
+
+
 def _worker_failure(path: Path, code: str, message: str) -> dict[str, Any]:
     finding = {"severity": "error", "code": code, "message": message,
                "sheet": None, "row": None, "column": None}
@@ -287,8 +366,10 @@ def _crash_failure(path: Path, rc: int | None, err: str) -> dict[str, Any]:
         code, msg = ("internal-error",
                      "surveytools failed on this file (a fault in the tool, not in your data); "
                      "please report it with the file")
-    if tail:
-        msg = f"{msg} [{tail}]"
+    if tail:  # the worker's last words (a library's raw text): the debug log only
+        from surveytools.debuglog import log_raw
+
+        log_raw(f"worker on {path} ended (exit status {rc})", err.strip()[-4000:] or tail)
     return _worker_failure(path, code, msg)
 
 
@@ -418,7 +499,7 @@ class WorkerSlot:
         if line is None:
             self._discard()
             return refusal_of(path) or _worker_failure(
-                path, "worker-timeout", f"processing took longer than {timeout_s:.0f} s and "
+                path, "worker-timeout", f"processing took longer than {timeout_s:g} s and "
                 "was stopped; check the file is a genuine survey export, or raise --timeout")
         if line == b"":
             return self._died(path, err_start)
@@ -479,6 +560,24 @@ def load_manifest(out_dir: Path) -> dict[str, Any]:
         return {}
 
 
+def _manifest_entry(manifest: dict[str, Any], key: str) -> dict[str, str] | None:
+    """Return the manifest's entry for ``key`` if it is well formed, else None.
+
+    An entry names the results of a completed run: a key and two plain file names in the
+    output folder. Anything else (an entry of an older version, a failed input, a hand
+    edit) is ignored, so the input is simply processed again.
+    """
+    entry = manifest.get(key)
+    if not isinstance(entry, dict):
+        return None
+    fields = ("key", "results_json", "results_xlsx")
+    if not all(isinstance(entry.get(f), str) and entry[f] for f in fields):
+        return None
+    if any(Path(entry[f]).name != entry[f] for f in fields[1:]):
+        return None
+    return {f: entry[f] for f in fields}
+
+
 def save_manifest(out_dir: Path, manifest: dict[str, Any]) -> None:
     """Write the manifest atomically."""
     from surveytools.outputs.atomic import atomic_write_text
@@ -536,16 +635,18 @@ class _OnceInBackground:
 def _run_batch(options: BatchOptions, settings_key: str,
                progress: Callable[[int, int, str], None] | None, result: BatchResult,
                first_slot: WorkerSlot) -> BatchResult:
+    out_dir = options.out_dir
+    if options.mode == "run":  # before anything else: finding inputs, waiting for copies
+        assert out_dir is not None
+        check_output_folder(out_dir)
     candidates, skipped = discover(options.paths)
     result.skipped.extend(skipped)
     ready, deferred = settle(candidates, options.settle_s)
     result.skipped.extend(deferred)
     stems = output_stems(ready)
-    out_dir = options.out_dir
     manifest: dict[str, Any] = {}
     if options.mode == "run":
         assert out_dir is not None
-        out_dir.mkdir(parents=True, exist_ok=True)
         from surveytools.outputs.atomic import remove_stale_parts
 
         remove_stale_parts(out_dir)
@@ -569,7 +670,7 @@ def _run_batch(options: BatchOptions, settings_key: str,
             job["stem"] = stems[str(c.path)]
             key = (f"{sha}:{settings_key}:{__version__}:{options.include_readings}"
                    f"{weather_key}")
-            entry = manifest.get(str(c.path.resolve()))
+            entry = _manifest_entry(manifest, str(c.path.resolve()))
             if (not options.force and sha and entry and entry.get("key") == key
                     and (out_dir / entry["results_json"]).exists()
                     and (out_dir / entry["results_xlsx"]).exists()):
@@ -630,15 +731,28 @@ def _run_batch(options: BatchOptions, settings_key: str,
         if options.mode == "run" and outcome.get("results_json") is None:
             outcome = _record_unreadable(options, job, outcome)
         result.outcomes.append(outcome)
-        if options.mode == "run" and outcome.get("results_json") and job.get("manifest_key"):
+        # Only complete results are remembered: an input whose worker failed (a fault of
+        # ours, a time or memory limit, a full disk) is processed again on the next run.
+        if (options.mode == "run" and outcome.get("results_json") and outcome.get("results_xlsx")
+                and job.get("manifest_key")):
             manifest[job["path"]] = {"key": job["manifest_key"],
                                      "results_json": outcome["results_json"],
                                      "results_xlsx": outcome["results_xlsx"]}
+        elif options.mode == "run":
+            manifest.pop(job["path"], None)
     result.outcomes.sort(key=lambda o: o["path"])
     if options.mode == "run":
         assert out_dir is not None
-        save_manifest(out_dir, manifest)
-        write_overview(out_dir, result, settings_key)
+        try:
+            save_manifest(out_dir, manifest)
+            write_overview(out_dir, result, settings_key)
+        except Exception as exc:  # e.g. the disk filled up during the run
+            fault = os_error_in(exc)
+            if fault is None:
+                raise
+            result.output_error = (f"the overview could not be written to {out_dir}: "
+                                   f"{describe_write_fault(fault)[1]}; free some space and run "
+                                   "again (inputs without complete results are processed again)")
         raise_alerts(options, out_dir, result)
     return result
 
@@ -706,7 +820,10 @@ def _record_unreadable(options: BatchOptions, job: dict[str, Any],
     fatal = Finding(f["code"], Severity.ERROR, f["message"])
     doc = unreadable_document(source, [fatal], load_settings(options.settings_path))
     js = options.out_dir / f"{job['stem']}.results.json"
-    atomic_write_text(js, dumps_results(doc))
+    try:
+        atomic_write_text(js, dumps_results(doc))
+    except OSError:  # a full disk: the failure is still reported, in the overview if possible
+        return outcome
     outcome = dict(outcome)
     outcome["results_json"] = js.name
     outcome["sha256"] = source.sha256 or None

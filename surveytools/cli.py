@@ -85,18 +85,38 @@ def build_parser() -> argparse.ArgumentParser:
     check = sub.add_parser("check", help="validate survey workbooks without computing results")
     common(check)
 
-    verify = sub.add_parser("verify", help="recompute a results file and report any difference")
-    verify.add_argument("results", type=Path, metavar="RESULTS.json")
+    verify = sub.add_parser(
+        "verify", help="recompute a results file and report any difference",
+        description="Recompute a *.results.json from its input and the settings recorded in "
+                    "it, and compare every figure and finding exactly. Differences are named "
+                    "by day, interval, period or finding. Exit 0 identical, 1 different, "
+                    "2 the results file or its input cannot be read.")
+    verify.add_argument("results", type=Path, metavar="RESULTS.json",
+                        help="a results file written by 'surveytools run'")
     verify.add_argument("--input", type=Path, metavar="FILE",
                         help="input workbook (default: the path recorded in the results)")
-    verify.add_argument("--format", choices=("text", "json"), default="text")
+    verify.add_argument("--format", choices=("text", "json"), default="text",
+                        help="report format on standard output (default: text)")
 
-    demo = sub.add_parser("demo", help="write the demo workbooks and settings file")
+    demo = sub.add_parser(
+        "demo", help="write the demo workbooks and settings file",
+        description="Write three demo survey workbooks (an invented site) and a settings "
+                    "file into DIR, to try 'surveytools run' on. Existing files are never "
+                    "replaced unless --force is given.")
     demo.add_argument("directory", nargs="?", type=Path, default=Path("surveytools_demo"),
-                      metavar="DIR")
+                      metavar="DIR", help="folder to write to (default: ./surveytools_demo)")
+    demo.add_argument("--force", action="store_true",
+                      help="replace files of the same names already in DIR")
 
-    template = sub.add_parser("template", help="write a blank input workbook with guidance")
-    template.add_argument("file", type=Path, metavar="FILE")
+    template = sub.add_parser(
+        "template", help="write a blank input workbook with guidance",
+        description="Write a blank survey workbook (.xlsx) with a Guidance sheet and drop-down "
+                    "lists, to fill in and then check with 'surveytools check FILE'. An "
+                    "existing file is never replaced unless --force is given.")
+    template.add_argument("file", type=Path, metavar="FILE.xlsx",
+                          help="name of the workbook to write (must end in .xlsx)")
+    template.add_argument("--force", action="store_true",
+                          help="replace an existing file of that name")
     return parser
 
 
@@ -139,20 +159,39 @@ STATUS_WORDS = {"ok": "ok", "warnings": "ok with warnings", "errors": "has error
 
 
 def _headline(outcome: dict[str, Any]) -> str:
-    """One line of figures for a processed input: position, Lden, coverage, criteria."""
+    """One line for a processed input: verdict first, then position, Lden and coverage.
+
+    The same words and the same reported figures as the Summary sheet and the overview
+    (:mod:`surveytools.outputs.display`): criteria not met of those set, the data quality,
+    Lden to 0.1 dB as judged, the valid share to 0.1 %.
+    """
+    from surveytools.outputs.display import hours_text, level_text, share_text
+
     row = outcome.get("overview") or {}
+    verdict = row.get("verdict") or {}
     parts = []
+    if verdict.get("outcome_text"):
+        parts.append(f"criteria: {verdict['outcome_text']}")
+    if verdict.get("data_quality_text"):
+        parts.append(f"data quality: {verdict['data_quality_text']}")
     if row.get("position"):
-        parts.append(str(row["position"]))
+        parts.append(f"position {row['position']}")
     lden = (row.get("survey_average") or {}).get("Lden")
     if lden is not None:
-        parts.append(f"Lden {lden:.1f} dB (survey average)")
+        parts.append(f"Lden {level_text(lden)} (survey average)")
     fraction = (row.get("coverage") or {}).get("valid_fraction")
     if fraction is not None and row.get("measured_s"):
-        parts.append(f"{100 * fraction:.1f} % of {row['measured_s'] / 3600:.1f} h valid")
-    if row.get("criteria_checked"):
-        parts.append(f"criteria: {row['criteria_not_met']} of {row['criteria_checked']} not met")
+        parts.append(f"{share_text(fraction)} of {hours_text(row['measured_s'])} valid")
     return "; ".join(parts)
+
+
+def _render_verdict_warnings(out: TextIO, outcome: dict[str, Any]) -> None:
+    """Print the conditions that affect the figures but are not findings (coverage ...)."""
+    verdict = (outcome.get("overview") or {}).get("verdict") or {}
+    codes = {f.get("code") for f in outcome.get("findings") or []}
+    for w in verdict.get("warnings_affecting_figures") or []:
+        if w.get("code") not in codes:
+            out.write(f"  affects the figures: {w.get('message')}\n")
 
 
 def _render_findings(out: TextIO, outcome: dict[str, Any], limit: int | None) -> None:
@@ -232,32 +271,27 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
 
     _settings, key = _load_settings(args.settings)
     cycles = 0
-    seen: set[str] = set()
+    told: set[tuple[str, str, str]] = set()  # skipped/deferred paths already reported
     while True:
         progress = Progress(err, not args.quiet and args.format == "text")
         result = run_batch(options, key, progress, first_slot=early)
         early = None
         progress.finish()
         cycles += 1
+        later_poll = args.watch and cycles > 1
         if args.format == "json":
             out.write(json.dumps(overview_document(result, key), sort_keys=True, indent=1) + "\n")
         else:
-            for o in result.outcomes:
-                if args.watch and (o["path"] in seen):
-                    continue
-                reused = " (unchanged since the last run; results kept)" if o.get("reused") else ""
-                headline = _headline(o)
-                out.write(f"{o['file']}: {STATUS_WORDS.get(o['status'], o['status'])}{reused}"
-                          + (f" - {headline}" if headline else "") + "\n")
-                if not o.get("reused"):
-                    _render_findings(out, o, limit=5)
-            for s in result.skipped:
-                if args.watch and s.path in seen:
-                    continue
-                out.write(f"{Path(s.path).name}: {s.status} - {s.reason} [{s.code}]\n")
-            out.write(_summary_line(result.counts(), "Processed")
-                      + f". Results in {options.out_dir}/ (overview.xlsx).\n")
+            changed = _report_cycle(out, result, later_poll, told)
+            if changed or not later_poll:
+                out.write(_summary_line(result.counts(), "Processed")
+                          + f". Results in {options.out_dir}/ (overview.xlsx).\n")
+            if args.watch and cycles == 1:
+                out.write(f"Watching {', '.join(str(p) for p in options.paths)} for new or "
+                          f"changed files every {args.interval:g} s; press Ctrl+C to stop.\n")
         out.flush()
+        if result.output_error:
+            err.write(f"surveytools: {result.output_error}\n")
         if os.environ.get("SURVEYTOOLS_TIMINGS"):  # for developers measuring the pipeline
             for o in result.outcomes:
                 err.write(f"timings {o['file']}: {json.dumps(o.get('timings'))}\n")
@@ -266,11 +300,49 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
         for problem in result.alert_problems:
             err.write(f"surveytools: {problem}\n")
         (out if args.format == "text" else err).flush()
-        seen.update(o["path"] for o in result.outcomes)
-        seen.update(s.path for s in result.skipped if s.status == "skipped")
         if not args.watch or (args.max_cycles and cycles >= args.max_cycles):
             return result.exit_code()
         time.sleep(max(args.interval, 0.1))
+
+
+def _report_cycle(out: TextIO, result: Any, later_poll: bool,
+                  told: set[tuple[str, str, str]]) -> bool:
+    """Print one line per input (only what changed on a later ``--watch`` poll).
+
+    Returns True when anything was printed.
+    """
+    changed = False
+    for o in result.outcomes:
+        if later_poll and o.get("reused"):
+            continue  # unchanged since the poll before: said already
+        codes = ",".join(sorted({f["code"] for f in o.get("findings") or []}))
+        said_outcome = (o["path"], f"{o.get('sha256')}:{o['status']}", codes)
+        if later_poll and said_outcome in told:
+            continue  # an input that fails again the same way (it is retried every poll)
+        told.add(said_outcome)
+        reused = " (unchanged since the last run; results kept)" if o.get("reused") else ""
+        headline = _headline(o)
+        words = STATUS_WORDS.get(o["status"], o["status"])
+        not_written = any(f["code"].startswith("output-") for f in o.get("findings") or [])
+        if not_written:
+            words = "read, but its results could not be written"
+        if (o.get("overview") or {}).get("verdict") and not not_written:
+            out.write(f"{o['file']}{reused}: {headline}\n")  # verdict first
+        else:
+            out.write(f"{o['file']}: {words}{reused}"
+                      + (f" - {headline}" if headline else "") + "\n")
+        # a kept result still tells its warnings and verdict, as on the first run
+        _render_findings(out, o, limit=5)
+        _render_verdict_warnings(out, o)
+        changed = True
+    for s in result.skipped:
+        said = (s.path, s.status, s.code)
+        if later_poll and said in told:
+            continue
+        told.add(said)
+        out.write(f"{Path(s.path).name}: {s.status} - {s.reason} [{s.code}]\n")
+        changed = True
+    return changed
 
 
 def execute_check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
@@ -299,9 +371,16 @@ def execute_check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     return result.exit_code()
 
 
-def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sys.stderr) -> int:
-    """Execute parsed arguments; return the exit code. Errors of our own inputs -> 2."""
+def execute(args: argparse.Namespace, out: TextIO | None = None,
+            err: TextIO | None = None) -> int:
+    """Execute parsed arguments; return the exit code. Errors of our own inputs -> 2.
+
+    ``out`` and ``err`` default to the standard streams as they are at the call.
+    """
     from surveytools.errors import SurveyToolsError
+
+    out = sys.stdout if out is None else out
+    err = sys.stderr if err is None else err
 
     try:
         if args.command == "run":
@@ -315,7 +394,7 @@ def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sy
         if args.command == "demo":
             from surveytools.demo import write_demo
 
-            written = write_demo(args.directory)
+            written = write_demo(args.directory, force=args.force)
             out.write(f"Wrote {len(written)} demo files to {args.directory}/:\n")
             for p in written:
                 out.write(f"  {p.name}\n")
@@ -326,7 +405,7 @@ def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sy
         if args.command == "template":
             from surveytools.template import write_template
 
-            write_template(args.file)
+            write_template(args.file, force=args.force)
             out.write(f"Wrote a blank survey workbook to {args.file}; fill in the Survey and "
                       "Readings sheets (the Guidance sheet explains each column).\n")
             return EXIT_OK
@@ -335,6 +414,13 @@ def execute(args: argparse.Namespace, out: TextIO = sys.stdout, err: TextIO = sy
         return EXIT_USAGE
     except KeyboardInterrupt:
         err.write("surveytools: interrupted\n")
+        return EXIT_DATA
+    except BrokenPipeError:  # the reader of our output went away (`surveytools ... | head`)
+        try:
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+        except (OSError, ValueError):
+            pass
         return EXIT_DATA
     except Exception as exc:  # a fault of the tool itself: say so plainly, no traceback
         err.write(f"surveytools: internal error ({type(exc).__name__}: {str(exc)[:300]}). "
@@ -353,4 +439,12 @@ def main(argv: list[str] | None = None) -> int:
     if args.command is None:
         parser.print_help(sys.stderr)
         return EXIT_USAGE
+    if not os.environ.get("SURVEYTOOLS_DEBUG"):
+        # A library's clean-up failing during garbage collection (a zip file closed on a
+        # full disk) would print a traceback; what failed is reported in our words instead.
+        sys.unraisablehook = _quiet_unraisable
     return execute(args)
+
+
+def _quiet_unraisable(unraisable: Any) -> None:
+    """Drop exceptions raised in finalizers (see :func:`main`); SURVEYTOOLS_DEBUG shows them."""

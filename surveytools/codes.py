@@ -56,7 +56,18 @@ CODES: dict[str, Code] = {
     "worker-out-of-memory": Code("error", "file", "reading needed more memory than allowed"),
     "worker-killed": Code("error", "file", "processing was stopped by a CPU-time or kill "
                                            "limit"),
+    "cell-date-out-of-range": Code("error", "file", "a date cell beyond any calendar (e.g. "
+                                                    "-1E+308) that the reader cannot convert"),
+    "grid-too-large": Code("error", "file", "the readings span more intervals than a results "
+                                            "workbook holds at the settings' interval"),
+    "strings-count-implausible": Code("error", "file", "the shared-strings part declares more "
+                                                       "text values than it can hold"),
     "internal-error": Code("error", "file", "a fault in surveytools itself on this file"),
+    "output-disk-full": Code("error", "file", "the results of this input could not be written: "
+                                              "the disk is full; it is processed again on the "
+                                              "next run"),
+    "output-not-writable": Code("error", "file", "the results of this input could not be "
+                                                 "written (read-only or no permission)"),
     # --- batch: paths not processed ------------------------------------------------------
     "path-missing": Code("error", "batch", "a path given on the command line does not exist"),
     "not-regular-file": Code("info", "batch", "a link, pipe or device in the folder: skipped"),
@@ -96,6 +107,14 @@ CODES: dict[str, Code] = {
     "calibrator-level-unusual": Code("warning", "cell", "calibrator level not near a nominal "
                                                         "value (94, 104, 114 dB)"),
     # --- timestamps ----------------------------------------------------------------------
+    "timestamp-stray": Code("error", "cell", "a reading far outside the survey's span (a "
+                                            "wrong year or month); the row is left out"),
+    "column-not-numbers": Code("error", "cell", "most cells of a level or weather column are "
+                                               "text (decimal commas, units in the cells): "
+                                               "reported once, at the column's header"),
+    "timestamp-column-unreadable": Code("error", "cell", "most timestamps of a column share one "
+                                                        "problem (e.g. day/month/year text): "
+                                                        "reported once, at the column's header"),
     "timestamp-invalid": Code("error", "cell", "not a date-time (the row cannot be placed "
                                                "in time)"),
     "timestamp-missing": Code("error", "cell", "a row with values but no timestamp"),

@@ -146,6 +146,12 @@ PLAUSIBLE_BAND_LEVEL_MIN_DB = -20.0
 #: sufficient. Common practice (no standard value).
 COVERAGE_THRESHOLD = 0.75
 
+#: Share of the measured time excluded above which the verdict lists the exclusions as a
+#: warning that affects the figures (the valid rest may not represent the survey period).
+#: Common practice: survey reports explain exclusions of more than about a tenth of the
+#: measured time (no standard value).
+EXCLUDED_SHARE_NOTICE = 0.10
+
 #: A gap is reported when the time between readings exceeds this multiple of the
 #: logging step. Common practice.
 GAP_FACTOR = 1.5
@@ -338,3 +344,33 @@ REPORTED_LEVEL_DECIMALS = 1
 #: a sheet of ~50,000 rows still opens and filters quickly in a spreadsheet program, while
 #: rewriting 604,800 1-s rows costs ~15 s (shared/reference/performance.md §2).
 READINGS_ROW_LIMIT = 50_000
+
+#: Earliest plausible start of a logged reading (1980-01-01) [year]. Own choice, generous:
+#: logging digital sound level meters date from the 1980s; an earlier date is a typing
+#: error (1926 for 2026) and the row is left out instead of stretching the survey.
+PLAUSIBLE_READING_YEAR_MIN = 1980
+#: Readings from this year on (2100-01-01 and later) are implausible [year]. Own choice.
+PLAUSIBLE_READING_YEAR_END = 2100
+#: Longest logging interval accepted in a Duration column [s]: 7 days. Own choice; a
+#: meter's daily summary is 86 400 s, anything far longer is a typing or unit error.
+MAX_INTERVAL_DURATION_S = 604_800.0
+#: A group of readings separated from the rest of the survey by more than this is stray
+#: when it is small (see STRAY_READINGS_MAX_FRACTION) [days]. Own choice.
+STRAY_READINGS_GAP_DAYS = 31
+#: Largest share of a survey's readings a stray group may hold [1]. Own choice: a wrong
+#: year typed in a few rows, not a survey that resumed after a long break.
+STRAY_READINGS_MAX_FRACTION = 0.05
+
+#: Largest settings file read [B]: 1 MiB. Own choice: a full settings file is a few KiB;
+#: the limit stops ``--settings /dev/zero`` or a mistaken data file from filling memory.
+SETTINGS_MAX_BYTES = 1 << 20
+#: Deepest nesting of tables and arrays in a settings file [levels]. Own choice: the
+#: deepest legitimate value (``assessments[].source_on`` pairs) is 5 levels down.
+SETTINGS_MAX_DEPTH = 8
+#: Shortest reporting or background reference interval [s]. Own choice: a meter's
+#: fastest common logging step is 100 ms, but results per interval below 1 s have no use
+#: in an environmental survey and multiply the grid's size.
+MIN_RESULT_INTERVAL_S = 1.0
+#: Most intervals one results grid may hold [1]. Excel's worksheet holds 1,048,576 rows
+#: ("Excel specifications and limits", Microsoft); the intervals sheet must fit.
+MAX_GRID_INTERVALS = 1_000_000

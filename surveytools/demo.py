@@ -382,19 +382,42 @@ def _write_band_position(path: Path, pos: DemoPosition, rng: np.random.Generator
     wb.close()
 
 
-def write_demo(directory: Path) -> list[Path]:
-    """Write the demo workbooks and ``settings.toml`` into ``directory``; return the paths."""
-    from surveytools.outputs.atomic import atomic_path, atomic_write_text
+def write_demo(directory: Path, force: bool = False) -> list[Path]:
+    """Write the demo workbooks and ``settings.toml`` into ``directory``; return the paths.
 
+    Without ``force`` no existing file is replaced (a user's own ``settings.toml`` in that
+    folder stays as it is): the demo is refused before anything is written.
+
+    Raises
+    ------
+    SurveyToolsError
+        Some of the files exist already and ``force`` is False (exit 2; nothing written).
+    """
+    from surveytools.errors import SurveyToolsError
+    from surveytools.outputs.atomic import atomic_path
+
+    contents: list[tuple[Path, DemoPosition | None]] = [
+        (directory / pos.file, pos) for pos in POSITIONS]
+    contents.append((directory / "settings.toml", None))
+    present = [p for p, _ in contents if p.exists() or p.is_symlink()]
+    if present and not force:
+        names = ", ".join(p.name for p in present)
+        raise SurveyToolsError(
+            f"{directory}: already holds {names}; nothing was written so that your files are "
+            "kept. Choose an empty folder (surveytools demo NEW_FOLDER), or add --force to "
+            "replace them with the demo files")
     directory.mkdir(parents=True, exist_ok=True)
     written: list[Path] = []
-    for k, pos in enumerate(POSITIONS):
-        rng = np.random.default_rng(SEED + k)
-        target = directory / pos.file
-        with atomic_path(target) as tmp:
-            (_write_band_position if pos.band_levels else _write_position)(tmp, pos, rng)
-        written.append(target)
-    settings = directory / "settings.toml"
-    atomic_write_text(settings, SETTINGS_TOML)
-    written.append(settings)
+    try:
+        for k, (target, pos) in enumerate(contents):
+            with atomic_path(target, replace=force) as tmp:
+                if pos is None:
+                    tmp.write_text(SETTINGS_TOML, encoding="utf-8")
+                else:
+                    write = _write_band_position if pos.band_levels else _write_position
+                    write(tmp, pos, np.random.default_rng(SEED + k))
+            written.append(target)
+    except FileExistsError as exc:  # created by someone else meanwhile
+        raise SurveyToolsError(f"{exc}: appeared while the demo was being written and was "
+                               "left untouched") from None
     return written

@@ -137,6 +137,7 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     ``weather`` a shared :class:`~surveytools.inputs.shared_weather.WeatherFile`.
     """
     from surveytools.outputs.results_json import document_header, unreadable_document
+    from surveytools.verdict import verdict_section
 
     if read is None:
         read = read_input(path, settings, source, expected_sha256)
@@ -147,23 +148,43 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
         fatal = Finding(exc.code, Severity.ERROR, exc.message, exc.sheet)
         doc = unreadable_document(source, [fatal], settings)
         doc["provenance"] = library_versions()
+        doc["verdict"] = verdict_section(doc)
         return doc, None
 
     from surveytools.assessment import assess, reading_annotations
     from surveytools.validation import build_survey
 
     survey = build_survey(raw, settings, shared_weather=weather)
+    too_large = _grid_refusal(survey, settings)
+    if too_large is not None:  # refused before any grid is allocated
+        doc = unreadable_document(source, [too_large, *survey.findings], settings)
+        doc["provenance"] = library_versions()
+        return doc, None
     sections = assess(survey, settings)
     doc = document_header(source, settings, survey.findings, survey.finding_counts)
     doc["provenance"] = library_versions()
     doc.update(sections)
     if weather is not None:
         doc["weather_file"] = weather.record()
+    doc["verdict"] = verdict_section(doc)
     annotations = None
     output = settings.output
     if output.include_readings or len(survey.readings) <= output.readings_row_limit:
-        annotations = reading_annotations(survey)
+        annotations = reading_annotations(survey, with_levels=True)
     return doc, annotations
+
+
+def _grid_refusal(survey: Any, settings: Settings) -> Finding | None:
+    """Return the refusal of a survey whose result grids would be too large, or None."""
+    from surveytools.validation.checks import grid_size_refusal
+
+    readings = survey.readings
+    steps = {"reporting_interval": settings.reporting_interval_s,
+             "background.reference_interval_day": settings.background.reference_interval_day_s,
+             "background.reference_interval_night":
+                 settings.background.reference_interval_night_s}
+    return grid_size_refusal(readings["start_ms"].to_numpy(), readings["duration_ms"].to_numpy(),
+                             steps)
 
 
 def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: str | None
@@ -176,6 +197,11 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
     excesses = [a.get("excess_over_background") for a in doc.get("assessments") or []
                 if a.get("excess_over_background") is not None]
     background = doc.get("background") or {}
+    verdict = doc.get("verdict")
+    if not isinstance(verdict, dict):  # a document from an earlier version (kept by a rerun)
+        from surveytools.verdict import verdict_section
+
+        verdict = verdict_section(doc)
     reason = None
     if doc.get("status") == "unreadable" and doc.get("findings"):
         reason = doc["findings"][0]["message"]
@@ -188,10 +214,12 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
         "position": survey.get("position"),
         "site": survey.get("site"),
         "coverage": {"first": coverage.get("first"), "last": coverage.get("last"),
-                     "valid_fraction": round(valid / measured, 4) if measured else None},
+                     "valid_fraction": valid / measured if measured else None},
         "survey_average": doc.get("survey_average"),
         "background": {"day": (background.get("day") or {}).get("LA90"),
-                       "night": (background.get("night") or {}).get("LA90")},
+                       "night": (background.get("night") or {}).get("LA90"),
+                       "method": background.get("method")},
+        "verdict": verdict,
         "worst_excess_over_background": max(excesses) if excesses else None,
         "criteria_failed": sum(int(c.get("failed") or 0) for c in doc.get("criteria") or []),
         "criteria_not_met": sum(1 for c in doc.get("criteria") or [] if c.get("passed") is False),

@@ -43,13 +43,45 @@ READINGS_COLUMNS: tuple[tuple[str, str], ...] = (
 )
 
 
-def write_template(path: Path) -> None:
-    """Write a blank input workbook with guidance to ``path`` (atomically)."""
+def write_template(path: Path, force: bool = False) -> None:
+    """Write a blank input workbook with guidance to ``path`` (atomically).
+
+    Parameters
+    ----------
+    path : Path
+        Where to write; must end in ``.xlsx`` (the file is an Excel workbook).
+    force : bool
+        Replace an existing file. Without it an existing file (perhaps a filled-in
+        survey) is never touched.
+
+    Raises
+    ------
+    SurveyToolsError
+        The name does not end in ``.xlsx``, names a folder, or the file exists and
+        ``force`` is False (exit 2; nothing written).
+    """
+    from surveytools.errors import SurveyToolsError
     from surveytools.outputs.atomic import atomic_path
 
+    if path.suffix.lower() != ".xlsx":
+        raise SurveyToolsError(
+            f"{path}: the template is an Excel workbook, so its name must end in .xlsx "
+            f"(for example {path.with_suffix('.xlsx').name}); nothing was written")
+    if path.is_dir():
+        raise SurveyToolsError(f"{path}: is a folder; give a file name ending in .xlsx")
+    if not force and (path.exists() or path.is_symlink()):
+        raise SurveyToolsError(_exists_message(path))
     path.parent.mkdir(parents=True, exist_ok=True)
-    with atomic_path(path) as tmp:
-        _write(tmp)
+    try:
+        with atomic_path(path, replace=force) as tmp:
+            _write(tmp)
+    except FileExistsError:  # created by someone else meanwhile
+        raise SurveyToolsError(_exists_message(path)) from None
+
+
+def _exists_message(path: Path) -> str:
+    return (f"{path}: a file of that name exists already (it may be a filled-in survey) and "
+            "was left untouched; choose another name, or add --force to replace it")
 
 
 def _write(path: Path) -> None:

@@ -19,27 +19,64 @@ from surveytools.errors import SurveyToolsError
 NOT_COMPARED = {("input", "path"), ("provenance",), ("weather_file", "path")}
 
 
-def differences(recorded: Any, recomputed: Any, path: tuple[str, ...] = ()) -> list[str]:
-    """Return human-readable differences between two JSON values (exact comparison)."""
+#: Keys that name an entry of a list in the results, in order of preference, with the
+#: word the reader knows it by (a day by its date, an interval by its start ...).
+_ENTRY_NAMES = (("date", "day"), ("start", "interval from"), ("name", ""),
+                ("code", "finding"), ("row", "row"))
+
+
+def _entry_label(section: str, index: int, entry: Any) -> str:
+    """Name one list entry as a person would: ``day 2026-06-01``, ``interval from ...``."""
+    if isinstance(entry, dict):
+        if section == "findings" and "code" in entry:
+            cell = ""
+            if entry.get("sheet"):
+                cell = f" at {entry['sheet']}"
+                if entry.get("column") or entry.get("row"):
+                    cell += f"!{entry.get('column') or ''}{entry.get('row') or ''}"
+            return f"finding {entry['code']}{cell}"
+        for key, word in _ENTRY_NAMES:
+            if entry.get(key) not in (None, ""):
+                value = entry[key]
+                return f"{word} {value}".strip() if word else f"'{value}'"
+    return f"entry {index + 1}"
+
+
+def _where(labels: tuple[str, ...]) -> str:
+    """Return the place of a difference: section words, entries by their names."""
+    return " > ".join(labels) if labels else "(document)"
+
+
+def differences(recorded: Any, recomputed: Any, path: tuple[str, ...] = (),
+                labels: tuple[str, ...] = ()) -> list[str]:
+    """Return human-readable differences between two JSON values (exact comparison).
+
+    Places are named as a reader of the results knows them: ``days > day 2026-06-01 >
+    Lden``, ``intervals > interval from 2026-06-01 07:00 > LAeq``, ``findings > finding
+    level-range at Readings!C5`` rather than by list positions.
+    """
     if path in NOT_COMPARED:
         return []
-    where = ".".join(path) or "(document)"
+    where = _where(labels)
     if isinstance(recorded, dict) and isinstance(recomputed, dict):
         out: list[str] = []
         for key in sorted(set(recorded) | set(recomputed)):
             if key not in recomputed:
-                out.append(f"{where}.{key}: recorded but not produced any more")
+                out.append(f"{where} > {key}: recorded but not produced any more")
             elif key not in recorded:
-                out.append(f"{where}.{key}: produced now but not recorded")
+                out.append(f"{where} > {key}: produced now but not recorded")
             else:
-                out.extend(differences(recorded[key], recomputed[key], (*path, str(key))))
+                out.extend(differences(recorded[key], recomputed[key], (*path, str(key)),
+                                       (*labels, str(key))))
         return out
     if isinstance(recorded, list) and isinstance(recomputed, list):
         if len(recorded) != len(recomputed):
             return [f"{where}: {len(recorded)} entries recorded, {len(recomputed)} recomputed"]
         out = []
+        section = path[-1] if path else ""
         for i, (a, b) in enumerate(zip(recorded, recomputed, strict=True)):
-            out.extend(differences(a, b, (*path, str(i))))
+            label = _entry_label(section, i, a)
+            out.extend(differences(a, b, (*path, str(i)), (*labels, label)))
         return out
     if recorded != recomputed or type(recorded) is not type(recomputed):
         return [f"{where}: recorded {recorded!r}, recomputed {recomputed!r}"]
@@ -60,8 +97,14 @@ def verify_results(results_path: Path, input_path: Path | None = None
 
     try:
         recorded = json.loads(results_path.read_text(encoding="utf-8"))
-    except (OSError, ValueError) as exc:
-        raise SurveyToolsError(f"{results_path}: not a readable results file ({exc})") from exc
+    except OSError as exc:
+        raise SurveyToolsError(f"{results_path}: cannot be read ({exc.strerror or 'refused'}); "
+                               "check the path") from exc
+    except json.JSONDecodeError as exc:
+        raise SurveyToolsError(f"{results_path}: not a results file (not JSON at line "
+                               f"{exc.lineno}, column {exc.colno})") from exc
+    except ValueError as exc:  # not UTF-8 text
+        raise SurveyToolsError(f"{results_path}: not a results file (not UTF-8 text)") from exc
     if not isinstance(recorded, dict) or "input" not in recorded or "settings" not in recorded:
         raise SurveyToolsError(f"{results_path}: not a surveytools results file (no input or "
                                "settings recorded)")
@@ -74,8 +117,8 @@ def verify_results(results_path: Path, input_path: Path | None = None
     diffs: list[str] = []
     notes: list[str] = []
     if source.sha256 != recorded["input"].get("sha256"):
-        diffs.append(f"input.sha256: recorded {recorded['input'].get('sha256')}, the file now has "
-                     f"{source.sha256} (the input was changed or is a different file)")
+        diffs.append(f"input > sha256: recorded {recorded['input'].get('sha256')}, the file now "
+                     f"has {source.sha256} (the input was changed or is a different file)")
     weather = None
     shared = recorded.get("weather_file")
     if isinstance(shared, dict):  # the run used a shared weather file (--weather)
@@ -88,11 +131,11 @@ def verify_results(results_path: Path, input_path: Path | None = None
         weather = load_weather(str(weather_path), settings)
         now = weather.record().get("sha256")
         if now != shared.get("sha256"):
-            diffs.append(f"weather_file.sha256: recorded {shared.get('sha256')}, the file now "
+            diffs.append(f"weather_file > sha256: recorded {shared.get('sha256')}, the file now "
                          f"has {now} (the weather file was changed)")
     recomputed, _ = build_document(source_path, settings, source, weather=weather)
     diffs.extend(d for d in differences(recorded, recomputed)
-                 if not d.startswith(("input.sha256", "weather_file.sha256")))
+                 if not d.startswith(("input > sha256", "weather_file > sha256")))
     if recorded.get("provenance") != recomputed.get("provenance"):
         notes.append("library versions differ from the recorded run (see provenance); the "
                      "figures were compared exactly all the same")

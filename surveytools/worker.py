@@ -13,6 +13,7 @@ carries on with the others.
 from __future__ import annotations
 
 import json
+import os
 import pickle
 import sys
 import threading
@@ -193,13 +194,32 @@ def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[
     if job["mode"] == "check":
         outcome = check_file(path, settings, read=read).to_json()
     else:
-        outcome = run_file(path, Path(job["out_dir"]), job["stem"], settings, read=read,
-                           weather=load_weather(job.get("weather_path"), settings)).to_json()
+        weather = load_weather(job.get("weather_path"), settings)
+        try:
+            outcome = run_file(path, Path(job["out_dir"]), job["stem"], settings, read=read,
+                               weather=weather).to_json()
+        except Exception as exc:  # a failed write (full disk) is this input's finding
+            from surveytools.batch import os_error_in, write_failure
+
+            fault = os_error_in(exc)
+            if fault is None or not _is_output_fault(fault, Path(job["out_dir"])):
+                raise
+            outcome = write_failure(path, Path(job["out_dir"]), fault)
     # Where a worker's time went, for `SURVEYTOOLS_TIMINGS=1 surveytools run ...` [s].
     outcome["timings"] = {"read_s": round(t_read - t0, 3),
                           "wait_for_imports_s": round(t_ready - t_read, 3),
                           "rest_s": round(time.perf_counter() - t_ready, 3)}
     return outcome
+
+
+def _is_output_fault(exc: OSError, out_dir: Path) -> bool:
+    """Return True when ``exc`` is a write into the output folder that the system refused."""
+    import errno
+
+    if exc.errno in (errno.ENOSPC, errno.EDQUOT, errno.EFBIG, errno.EROFS):
+        return True
+    names = [n for n in (exc.filename, exc.filename2) if isinstance(n, str | bytes) and n]
+    return any(Path(os.fsdecode(n)).parent == out_dir for n in names)
 
 
 def _read_exactly(stream: Any, n: int) -> bytes | None:

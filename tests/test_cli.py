@@ -106,6 +106,10 @@ def test_rerun_skips_unchanged_inputs_and_says_so(tmp_path: Path) -> None:
     second = run_cli("run", str(drop), "-o", str(out), "--quiet", "--settle", "0", cwd=tmp_path)
     assert second.returncode == 0
     assert "unchanged since the last run" in second.stdout
+    # a kept result still tells its verdict and warnings: the same lines as the first run
+    assert second.stdout.replace(" (unchanged since the last run; results kept)", "") == \
+        first.stdout
+    assert "criteria:" in second.stdout and "data quality:" in second.stdout
     assert (out / "a.results.json").read_bytes() == js
     third = run_cli("run", str(drop), "-o", str(out), "--quiet", "--settle", "0", "--force",
                     cwd=tmp_path)
@@ -128,8 +132,8 @@ def test_verify_passes_on_the_original_and_fails_on_an_altered_reading(tmp_path:
     wb.save(altered)
     bad = run_cli("verify", str(out / "v.results.json"), "--input", str(altered), cwd=tmp_path)
     assert bad.returncode == 1
-    assert "input.sha256" in bad.stdout
-    assert "overall.LAeq" in bad.stdout
+    assert "input > sha256" in bad.stdout
+    assert "overall > LAeq" in bad.stdout
 
 
 def test_check_reports_located_findings_as_text_and_json(tmp_path: Path) -> None:
@@ -267,9 +271,10 @@ def test_watch_processes_each_new_completed_file_once(tmp_path: Path) -> None:
     finally:
         out, err = proc.communicate(timeout=300)
     assert proc.returncode == 0, err
-    # Each file is reported once, however many polling cycles ran.
-    assert out.count("first.xlsx: ok") == 1
-    assert out.count("second.xlsx: ok") == 1
+    # Each file is reported once, however many polling cycles ran (verdict first: the
+    # criteria outcome, then the data quality).
+    assert out.count("first.xlsx: criteria: no criteria set; data quality: ok") == 1
+    assert out.count("second.xlsx: criteria: no criteria set; data quality: ok") == 1
 
 
 def test_a_symlinked_input_is_skipped_with_a_note(tmp_path: Path) -> None:
@@ -387,7 +392,22 @@ def test_run_with_a_shared_weather_file(tmp_path: Path) -> None:
     wind[5] = 2.0
     station_workbook(station, datetime(2026, 6, 1, 6, 0), wind)
     changed = run_cli("verify", str(out / "north.results.json"), cwd=tmp_path)
-    assert changed.returncode == 1 and "weather_file.sha256" in changed.stdout
+    assert changed.returncode == 1 and "weather_file > sha256" in changed.stdout
     missing = run_cli("run", str(drop), "-o", str(out), "--weather", str(tmp_path / "no.csv"),
                       cwd=tmp_path)
     assert missing.returncode == 2 and "--weather" in missing.stderr
+
+
+def test_terminal_line_is_verdict_first_with_the_reported_figures() -> None:
+    from surveytools.cli import _headline
+
+    outcome = {"overview": {
+        "position": "KL-2", "measured_s": 604800.0,
+        "survey_average": {"Lden": 58.65},
+        "coverage": {"valid_fraction": 570000.0 / 604800.0},
+        "verdict": {"outcome_text": "4 of 4 criteria not met", "data_quality_text": "ok"}}}
+    # hand-evaluated: Lden 58.65 -> 58.7 dB half up (not 58.6 as binary rounding may give);
+    # 570000 / 604800 = 0.942460... -> 94.2 %; 604800 s = 168.0 h
+    assert _headline(outcome) == ("criteria: 4 of 4 criteria not met; data quality: ok; "
+                                  "position KL-2; Lden 58.7 dB (survey average); "
+                                  "94.2 % of 168.0 h valid")

@@ -12,7 +12,9 @@ failures carry ``"sufficient": false`` so a reader can discount them. ``passed``
 
 A criterion with ``interval_s`` checks LAeq (energy average over the valid time) or LAFmax
 (highest) over longer intervals built from the reporting intervals in the site's civil time,
-e.g. LAeq,1h from 15-minute intervals.
+e.g. LAeq,1h from 15-minute intervals. Such a criterion also lists every longer-interval
+figure under ``interval_figures`` (start, period, value, reported, sufficient, judged:
+inside the criterion's period), so the workbook can show the hourly values it judged.
 
 A criterion with a ``schedule`` judges only figures whose time (an interval, or the period
 of an assessment day) lies wholly inside one of its windows (:mod:`~.schedule`); the rest
@@ -335,6 +337,7 @@ def criteria_section(
                     f"criterion {label!r}: period {criterion.period!r} "
                     f"is not one of {', '.join(INTERVAL_PERIODS)}"
                 )
+            interval_figures: list[dict[str, Any]] | None = None
             if criterion.interval_s is not None and criterion.interval_s != reporting_interval_s:
                 longer = _longer_intervals(intervals, indicator, criterion.interval_s,
                                            reporting_interval_s, coverage_threshold, label,
@@ -344,6 +347,13 @@ def criteria_section(
                 ends = [g[4] for g in chosen]
                 values = [g[1] for g in chosen]
                 ok = [g[2] for g in chosen]
+                # every longer-interval figure (judged or not), so a reader can see the
+                # hourly values the criterion was judged on, not only the failures
+                interval_figures = [
+                    {"start": g[0], "period": g[3], "value": g[1],
+                     "reported": None if g[1] is None else float(reported_level(g[1])),
+                     "sufficient": g[2], "judged": criterion.period in ("any", g[3])}
+                    for g in longer]
             else:
                 rows = [i for i in intervals if criterion.period in ("any", i["period"])]
                 when = [i["start"] for i in rows]
@@ -353,6 +363,8 @@ def criteria_section(
             figures = _Figures(when, values, ok, iso_to_utc_ms(when), iso_to_utc_ms(ends),
                                when, ends)
             out.append(_judge(criterion, "interval", figures, zone, holidays))
+            if interval_figures is not None:
+                out[-1]["interval_figures"] = interval_figures
         elif indicator in ASSESSMENT_INDICATORS:
             if criterion.schedule:
                 raise SettingsError(

@@ -105,18 +105,36 @@ def unplaced_section(survey: Survey) -> list[dict[str, Any]]:
     ]
 
 
-def reading_annotations(survey: Survey) -> pd.DataFrame:
-    """Per reading: ``row``, ``start`` (local ISO text), ``duration_s`` and ``reason``.
+def reading_annotations(survey: Survey, with_levels: bool = True) -> pd.DataFrame:
+    """Per reading: ``row``, ``start`` (local ISO text), ``duration_s``, levels, ``reason``.
 
-    ``reason`` is ``""`` for a valid reading, else the ``"; "``-joined reason codes
-    (background-only reasons marked). Built vectorially, for the workbook writer.
+    The level columns are every level column read (``LAeq``, ``LAFmax``, ``LAF90``, band
+    levels ..., in the order of :attr:`Survey.level_columns`; NaN where empty or unusable)
+    when ``with_levels``; then ``overload`` / ``operating`` (``"yes"``/``"no"``/``""``)
+    and ``note`` when the input gave them. ``reason`` is ``""`` for a valid reading, else the
+    ``"; "``-joined reason codes (background-only reasons marked). Built vectorially, for
+    the workbook writer.
     """
     readings = survey.readings
     tz = site_tz(survey.metadata)
     start = readings["start_ms"].to_numpy(dtype=np.int64)
-    return pd.DataFrame({
+    columns: dict[str, Any] = {
         "row": readings["row"].to_numpy(dtype=np.int64),
         "start": format_local(start, tz),
         "duration_s": readings["duration_ms"].to_numpy(dtype=np.int64) / MS_PER_S,
-        "reason": survey.reasons_per_row(),
-    })
+    }
+    if with_levels:
+        for name in survey.level_columns:
+            if name in readings.columns:
+                columns[name] = readings[name].to_numpy(dtype=np.float64)
+        if "overload" in readings.columns and bool(readings["overload"].any()):
+            columns["overload"] = np.where(readings["overload"].to_numpy(dtype=bool), "yes", "")
+        if "operating" in readings.columns and bool(readings["operating"].notna().any()):
+            flag = readings["operating"]
+            columns["operating"] = np.where(flag.isna().to_numpy(), "",
+                                            np.where(flag.fillna(False).to_numpy(dtype=bool),
+                                                     "yes", "no"))
+        if "note" in readings.columns and bool(readings["note"].notna().any()):
+            columns["note"] = readings["note"].to_numpy(dtype=object)
+    columns["reason"] = survey.reasons_per_row()
+    return pd.DataFrame(columns)

@@ -26,6 +26,7 @@ import numpy as np
 import pandas as pd
 
 from surveytools import constants as const
+from surveytools.debuglog import log_raw
 from surveytools.errors import WorkbookError
 from surveytools.inputs import columns as cols
 from surveytools.inputs.preflight import column_letters
@@ -110,9 +111,12 @@ def read_csv_table(path: str | Path, settings: Settings | None = None,
                             skip_blank_lines=False, engine="c")
     except (pd.errors.ParserError, UnicodeDecodeError, ValueError) as exc:
         code = "csv-encoding" if isinstance(exc, UnicodeDecodeError) else "csv-unreadable"
-        raise WorkbookError(code, f"The CSV file could not be read ({str(exc)[:200]}). Check "
-                            "that every line has the same number of fields and save it again "
-                            "as 'CSV UTF-8'.") from exc
+        log_raw(f"reading {p}", exc)  # the library's own words: debug log only
+        why = ("it is not UTF-8 text" if isinstance(exc, UnicodeDecodeError)
+               else "a line has more fields than the header, an unclosed quote or a binary part")
+        raise WorkbookError(code, f"The CSV file could not be read ({why}). Check that every "
+                            "line has the same number of fields and save it again as "
+                            "'CSV UTF-8'.") from exc
     header_row = best + 1
     columns: list[RawColumn] = []
     for j, header in enumerate(headers):

@@ -41,6 +41,7 @@ from pathlib import Path
 from xml.parsers import expat
 
 from surveytools import constants as const
+from surveytools.debuglog import log_raw
 from surveytools.errors import WorkbookError
 
 _MB = 1_000_000
@@ -213,6 +214,7 @@ def _run(path: str | os.PathLike[str], limits: PreflightLimits | None, scan: boo
             for info in infos:
                 if info.filename.lower().endswith((".xml", ".rels", ".vml")):
                     _check_xml_part(zf, info)
+            _check_declared_strings(zf, names, lim)
             report = _describe(zf, p, names)
             sheets = []
             for s in report.sheets:
@@ -227,7 +229,9 @@ def _run(path: str | os.PathLike[str], limits: PreflightLimits | None, scan: boo
                     sheets.append(_scan_sheet(zf, zf.getinfo(s.part), s, lim, threaded))
                 else:
                     with zf.open(s.part) as fh:
-                        sheets.append(replace(s, head=fh.read(HEAD_KEEP_BYTES)))
+                        head = fh.read(HEAD_KEEP_BYTES)
+                    _check_head_extent(s.name, head, lim)
+                    sheets.append(replace(s, head=head))
             report.sheets = sheets
             report.extents_known = scan
             return report
@@ -235,12 +239,30 @@ def _run(path: str | os.PathLike[str], limits: PreflightLimits | None, scan: boo
         raise
     except (zipfile.BadZipFile, zlib.error, EOFError, OSError, ValueError, KeyError,
             struct.error, UnicodeDecodeError, expat.ExpatError) as exc:
+        log_raw(f"preflight of {path}", exc)  # the library's own words: debug log only
         raise WorkbookError(
             "zip-corrupt",
-            f"The file is damaged or incomplete ({type(exc).__name__}: {str(exc)[:200]}). "
-            "Copy it again from the meter or the sender; if it was still being copied, "
-            "wait until the copy has finished.",
+            f"The file is damaged or incomplete ({_damage(exc)}). Copy it again from the "
+            "meter or the sender; if it was still being copied, wait until the copy has "
+            "finished.",
         ) from exc
+
+
+def _damage(exc: BaseException) -> str:
+    """Say in our words which layer of the file a library found damaged."""
+    if isinstance(exc, zlib.error | EOFError):
+        return "a compressed part does not unpack: it is cut short or altered"
+    if isinstance(exc, expat.ExpatError):
+        return "the markup of a part of the workbook is damaged"
+    if isinstance(exc, UnicodeDecodeError):
+        return "a part of the workbook is not in the text encoding it declares"
+    if isinstance(exc, OSError) and not isinstance(exc, zipfile.BadZipFile):
+        return "the file could not be read to its end"
+    if isinstance(exc, KeyError):
+        return "a part the workbook refers to is missing"
+    if "CRC" in str(exc):
+        return "a part's checksum (CRC) does not match its contents"
+    return "its zip structure is broken"
 
 
 # --------------------------------------------------------------------------------------
@@ -746,6 +768,73 @@ def _too_large(sheet: str, rows: int, cols: int, lim: PreflightLimits) -> Workbo
 def _check_extent(sheet: str, rows: int, cols: int, lim: PreflightLimits) -> None:
     if rows > lim.max_rows or cols > lim.max_columns or rows * cols > lim.max_cells_area:
         raise _too_large(sheet, rows, cols, lim)
+
+
+#: A cell reference of any length in a sheet's head (the fast scan's patterns stop at the
+#: first letters; here a reference like ZZZZZ1 or A99999999999 must be seen whole).
+_HEAD_REF_RE = re.compile(rb'<(?:[A-Za-z_][\w.\-]*:)?c\s[^>]*?\br="([A-Z]+)([0-9]+)"')
+
+
+def _check_head_extent(sheet: str, head: bytes, lim: PreflightLimits) -> None:
+    """Refuse a sheet whose first bytes already reference a cell beyond the limits.
+
+    Run before any reader starts (the overlapped read of the batch worker): a reader sizes
+    its grid by the farthest cell reference, so ``ZZZZZ1`` would cost gigabytes before the
+    full scan beside it could refuse the file. Cells further down are the full scan's job.
+    """
+    refs = _HEAD_REF_RE.findall(head)
+    if not refs:
+        return
+    for c, r in refs:
+        # A reference longer than any limit is judged without converting it (no huge ints).
+        col = column_number(c.decode()) if len(c) <= 4 else lim.max_columns + 1
+        row = int(r) if len(r) <= 9 else lim.max_rows + 1
+        if col > lim.max_columns or row > lim.max_rows or col * row > lim.max_cells_area:
+            ref = (c + r).decode()[:20]
+            raise WorkbookError(
+                "sheet-too-large",
+                f"Sheet '{sheet}' has a cell at {ref}, beyond the limit of {lim.max_rows} rows, "
+                f"{lim.max_columns} columns and {lim.max_cells_area:,} cells in all. Delete that "
+                "cell (or the stray cells far from the table) and save again.", sheet=sheet)
+
+
+#: The root element of the shared-strings part, with its declared counts.
+_SST_COUNTS_RE = re.compile(rb'<(?:[A-Za-z_][\w.\-]*:)?sst\b[^>]*>')
+_COUNT_ATTR_RE = re.compile(rb'\b(count|uniqueCount)\s*=\s*["\']\s*(\d+)\s*["\']')
+#: Fewest bytes one shared string takes in the part (``<si/>``) [B].
+_MIN_SHARED_STRING_BYTES = 5
+
+
+def _check_declared_strings(zf: zipfile.ZipFile, names: set[str], lim: PreflightLimits) -> None:
+    """Refuse a shared-strings part declaring more strings than its size or any sheet allows.
+
+    Readers reserve room for the declared number of strings up front; a count of billions
+    in a tiny file would cost gigabytes before a single string was read.
+    """
+    part = "xl/sharedStrings.xml"
+    if part not in names:
+        return
+    info = zf.getinfo(part)
+    with zf.open(info) as fh:
+        head = fh.read(_HEAD_BYTES)
+    root = _SST_COUNTS_RE.search(head)
+    if root is None:
+        return
+    declared = {k.decode(): v for k, v in _COUNT_ATTR_RE.findall(root.group(0))}
+    unique = declared.get("uniqueCount")
+    total = declared.get("count")
+    most_unique = info.file_size // _MIN_SHARED_STRING_BYTES + 1
+    too_many = ((unique is not None and (len(unique) > 12 or int(unique) > most_unique))
+                or (total is not None and (len(total) > 12
+                                           or int(total) > lim.max_cells_area * 64)))
+    if too_many:
+        shown = (unique or total or b"?").decode()[:15]
+        raise WorkbookError(
+            "strings-count-implausible",
+            f"The workbook declares {shown} shared text values, more than its "
+            f"{info.file_size:,}-byte text part can hold; the file is damaged or was not "
+            "written by a spreadsheet program. Open and re-save it in a spreadsheet program.",
+        )
 
 
 def _scan_sheet(zf: zipfile.ZipFile, info: zipfile.ZipInfo, sheet: SheetInfo,

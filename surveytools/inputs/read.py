@@ -31,6 +31,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from surveytools import constants as const
+from surveytools.debuglog import log_raw
 from surveytools.errors import WorkbookError
 from surveytools.inputs import columns as cols
 from surveytools.inputs.preflight import HEAD_KEEP_BYTES as HEAD_KEEP
@@ -176,14 +177,71 @@ def read_workbook(
     except Exception as exc:  # any reader failure on a file that passed the preflight
         if full is not None:
             full.result()  # a file the full preflight refuses is reported as refused
+        log_raw(f"reading {p}", exc)  # the library's own words: debug log only
         raise WorkbookError(
             "reader-failed",
-            f"The workbook could not be read ({type(exc).__name__}: {str(exc)[:300]}). Open "
-            "it in a spreadsheet program, save it again as .xlsx and retry.",
+            "The workbook could not be read: its contents could not be decoded (a damaged "
+            "part, a cell or style the format does not allow, or a number too large for its "
+            "kind). Open it in a "
+            "spreadsheet program, save it again as .xlsx and retry.",
         ) from exc
+    except BaseException as exc:  # a panic in the native reader (a value beyond its range)
+        if type(exc).__name__ != "PanicException":
+            raise
+        if full is not None:
+            full.result()
+        log_raw(f"reading {p}", exc)
+        raise _panic_refusal(p, reader) from None
     finally:
         if reader is not None:
             reader.close()
+
+
+#: A date cell's serial value in a reader's cell-error detail.
+_DATE_SERIAL_RE = re.compile(r"ExcelDateTime \{ value: ([^,]+),")
+#: Date serials the native reader can convert: year 1 to year 9999 [days since 1899-12-30].
+_SERIAL_MIN, _SERIAL_MAX = -693_593.0, 2_958_465.0
+
+
+def _panic_refusal(path: Path, reader: _Reader | None) -> WorkbookError:
+    """Return the refusal of a workbook whose cells made the native reader panic.
+
+    The usual cause is a date cell whose serial lies beyond any calendar (-1E+308). Each
+    sheet is read again with every column as numbers (a date cell then arrives as a cell
+    error that carries its serial, with no conversion) to name the first such cell.
+    """
+    where = ""
+    try:
+        import fastexcel
+
+        book = fastexcel.read_excel(str(path))
+        for name in book.sheet_names:
+            sheet = book.load_sheet(name, header_row=None, dtypes="float",
+                                    schema_sample_rows=None, dtype_coercion="coerce")
+            _batch, errors = sheet.to_arrow_with_errors()
+            for e in (errors.errors if errors is not None else []):
+                m = _DATE_SERIAL_RE.search(str(e.detail))
+                if m is None:
+                    continue
+                try:
+                    serial = float(m.group(1))
+                except ValueError:
+                    continue
+                if not _SERIAL_MIN <= serial <= _SERIAL_MAX:
+                    row, col = e.position
+                    where = (f" (cell {name}!{column_letters(int(col) + 1)}{int(row) + 1} holds "
+                             f"the date serial {serial:.6g})")
+                    break
+            if where:
+                break
+    except BaseException as exc:  # a second panic: only the location is lost
+        log_raw(f"locating the cell that stopped the reader in {path}", exc)
+    del reader
+    return WorkbookError(
+        "cell-date-out-of-range",
+        f"A date cell holds a value far beyond any calendar{where}, which cannot be read. "
+        "Correct or delete that cell (it shows as ##### in a spreadsheet program) and "
+        "re-run.")
 
 
 class _Background:

@@ -77,8 +77,27 @@ def _new_part_path(final: Path) -> Path:
     raise FileExistsError(f"could not create a temporary file next to {final}")
 
 
+def _publish_new(part: Path, final: Path) -> None:
+    """Give ``part`` the name ``final`` only if no file has that name (never replaces one).
+
+    A hard link is created (fails atomically when the name exists) and the temporary name
+    removed; on file systems without hard links the existence check and the rename are two
+    steps.
+    """
+    try:
+        os.link(part, final)
+    except FileExistsError:
+        raise
+    except OSError:  # no hard links here (FAT, some network shares)
+        if final.exists() or final.is_symlink():
+            raise FileExistsError(final) from None
+        part.replace(final)
+        return
+    part.unlink()
+
+
 @contextlib.contextmanager
-def atomic_path(final_path: str | os.PathLike[str]) -> Iterator[Path]:
+def atomic_path(final_path: str | os.PathLike[str], replace: bool = True) -> Iterator[Path]:
     """Yield a temporary path to write; move it onto ``final_path`` only on success.
 
     The temporary file (``.<name>.<random>.part`` in the same directory) exists, empty,
@@ -90,6 +109,9 @@ def atomic_path(final_path: str | os.PathLike[str]) -> Iterator[Path]:
     ----------
     final_path : str or path-like
         Where the finished file must appear. Its directory must exist.
+    replace : bool
+        False: never replace an existing ``final_path`` (a user's file); raise
+        :class:`FileExistsError` instead and leave it untouched.
 
     Yields
     ------
@@ -101,7 +123,10 @@ def atomic_path(final_path: str | os.PathLike[str]) -> Iterator[Path]:
     try:
         yield part
         _fsync_file(part)
-        part.replace(final)
+        if replace:
+            part.replace(final)
+        else:
+            _publish_new(part, final)
     except BaseException:
         with contextlib.suppress(OSError):
             part.unlink()

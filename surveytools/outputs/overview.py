@@ -13,14 +13,17 @@ from typing import Any
 
 import xlsxwriter
 
+from surveytools.outputs.display import level, share
 from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
     WORKBOOK_OPTIONS,
     SheetWriter,
     Styles,
     cautions_lines,
-    finite_number,
+    print_setup,
+    wrapped_lines,
 )
+from surveytools.verdict import data_quality_words
 
 SHEET_OVERVIEW = "Overview"
 SHEET_SKIPPED = "Skipped"
@@ -28,12 +31,6 @@ SHEET_SKIPPED = "Skipped"
 #: What our own output names look like (sanitised stem, optional hash suffix, ``.xlsx``);
 #: a name that does not match gets no link.
 SAFE_OUTPUT_NAME_RE = re.compile(r"^[A-Za-z0-9_][A-Za-z0-9._-]{0,200}\.xlsx$")
-
-#: Survey-average indicators shown per input (document key, header).
-OVERVIEW_LEVELS: tuple[tuple[str, str], ...] = (
-    ("Lday", "Lday"), ("Levening", "Levening"), ("Lnight", "Lnight"), ("Lden", "Lden"),
-    ("Ldn", "Ldn"), ("LAeq_16h", "LAeq,16h"), ("LAeq_8h", "LAeq,8h"),
-)
 
 
 def safe_link_name(results_xlsx: object) -> str | None:
@@ -90,87 +87,115 @@ def write_overview_workbook(path: Path, overview: dict[str, Any]) -> None:
         wb.close()
 
 
+#: Overview columns: (header, width in characters). Every level is the reported value.
+OVERVIEW_COLUMNS: tuple[tuple[str, float], ...] = (
+    ("Input file", 17.0), ("Position", 8.0), ("Site", 12.0), ("Criteria outcome", 15.0),
+    ("Data quality", 11.0), ("Conditions affecting the figures", 24.0), ("Valid [%]", 6.5),
+    ("Lden [dB]", 6.5), ("Lday [dB]", 6.5), ("Levening [dB]", 8.0), ("Lnight [dB]", 6.5),
+    ("Background LA90 day [dB]", 11.0), ("Background LA90 night [dB]", 11.0),
+    ("Worst excess over background [dB]", 11.0), ("Figures above limits (count)", 8.0),
+    ("Errors", 6.5), ("Warnings", 8.0), ("Results workbook", 11.0),
+)
+
+
+def _conditions_text(item: Mapping[str, Any]) -> str:
+    if item.get("status") == "unreadable":
+        return f"could not be read: {item.get('reason') or 'see the results JSON'}"
+    verdict = item.get("verdict") or {}
+    warnings = list(verdict.get("warnings_affecting_figures") or [])
+    return "; ".join(str(w.get("message") or w.get("code")) for w in warnings) or "none found"
+
+
 def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
     ws = sw.ws
     tool = overview.get("tool") or {}
+    last_col = len(OVERVIEW_COLUMNS) - 1
+    for col, (_name, width) in enumerate(OVERVIEW_COLUMNS):
+        sw.set_width(col, width)
+    total_width = sum(w for _, w in OVERVIEW_COLUMNS)
     sw.text(0, 0, "Sound survey batch overview", "title", measure=False)
-    sw.text(1, 0, f"Written by {tool.get('name', 'surveytools')} {tool.get('version', '')}. "
-                  "Levels are survey averages over all valid time; times are each "
-                  "site's civil time (its time zone).", "note", measure=False)
+    note = (f"Written by {tool.get('name', 'surveytools')} {tool.get('version', '')}. "
+            "One row per input: the criteria outcome (criteria not met of those set) and, "
+            "separately, the data quality. Levels are survey averages over all valid time, "
+            "reported to 0.1 dB as judged; times are each site's civil time (its time zone).")
+    ws.merge_range(1, 0, 1, last_col, "", sw.styles.get("note_across"))
+    sw.text(1, 0, note, "note_across", measure=False)
+    ws.set_row(1, 15.0 * wrapped_lines(note, total_width * 1.05) + 2)
     row = 3
     sw.text(row, 0, "CAUTIONS", "subtitle", measure=False)
     row += 1
     for line in cautions_lines():
-        ws.merge_range(row, 0, row, 12, "", styles_get(sw, "caution"))
+        ws.merge_range(row, 0, row, last_col, "", styles_get(sw, "caution"))
         sw.text(row, 0, line, "caution", measure=False)
-        ws.set_row(row, 30)
+        ws.set_row(row, 15.0 * wrapped_lines(line, total_width) + 2)
         row += 1
     row += 1
     counts = overview.get("counts") or {}
-    sw.text(row, 0, "Counts", "subtitle", measure=False)
-    row += 1
-    for key in ("ok", "warnings", "errors", "unreadable", "skipped"):
-        sw.text(row, 0, key, f"st_{key}" if key != "skipped" else "text", measure=False)
-        sw.number(row, 1, counts.get(key), "int")
-        row += 1
-    row += 1
+    words = {"ok": "data ok", "warnings": "data with warnings", "errors": "data with errors",
+             "unreadable": "could not be read", "skipped": "skipped"}
+    sw.text(row, 0, "Inputs: " + ", ".join(f"{int(counts.get(k) or 0)} {w}"
+                                            for k, w in words.items()), "bold", measure=False)
+    row += 2
 
-    headers = ["Input file", "Position", "Site", "Status", "First (local)", "Last (local)",
-               "Valid [%]"]
-    headers += [f"{name} [dB]" for _, name in OVERVIEW_LEVELS]
-    headers += ["Background LA90 day [dB]", "Background LA90 night [dB]",
-                "Worst excess over background [dB]", "Criteria failed", "Errors", "Warnings",
-                "Info", "Results workbook", "Reason (unreadable)"]
+    headers = [name for name, _ in OVERVIEW_COLUMNS]
     header_row = row
     sw.header(header_row, 0, headers)
-    ws.set_row(header_row, 30)
+    sw.header_height(header_row, 0, headers)
     ws.freeze_panes(header_row + 1, 1)
     inputs = list(overview.get("inputs") or [])
     link_fmt = sw.styles.get("link")
     for i, item in enumerate(inputs):
         r = header_row + 1 + i
         status = str(item.get("status") or "")
-        sw.text(r, 0, item.get("file"))
-        sw.text(r, 1, item.get("position"))
-        sw.text(r, 2, item.get("site"))
-        sw.text(r, 3, status, f"st_{status}" if status in ("ok", "warnings", "errors",
-                                                              "unreadable") else "text")
-        sw.stamp(r, 4, _get(item, "coverage", "first"), "datetime_short")
-        sw.stamp(r, 5, _get(item, "coverage", "last"), "datetime_short")
-        sw.number(r, 6, _get(item, "coverage", "valid_fraction"), "percent")
-        col = 7
+        verdict = item.get("verdict") or {}
+        sw.text(r, 0, item.get("file"), "wrap", measure=False)
+        sw.text(r, 1, item.get("position"), "wrap", measure=False)
+        sw.text(r, 2, item.get("site"), "wrap", measure=False)
+        outcome = verdict.get("outcome")
+        sw.text(r, 3, verdict.get("outcome_text") or ("" if status != "unreadable" else "n/a"),
+                {"not met": "wrap_fail", "met": "wrap_pass"}.get(str(outcome), "wrap"),
+                measure=False)
+        quality = str(verdict.get("data_quality") or status)
+        sw.text(r, 4, data_quality_words(quality),
+                f"wrap_{quality}" if quality in ("ok", "warnings", "errors", "unreadable")
+                else "wrap", measure=False)
+        conditions = _conditions_text(item)
+        sw.text(r, 5, conditions, "wrap", measure=False)
+        sw.number(r, 6, share(_get(item, "coverage", "valid_fraction")), "percent1")
         avg = item.get("survey_average") or {}
-        for key, _ in OVERVIEW_LEVELS:
-            sw.number(r, col, avg.get(key), "level")
-            col += 1
-        sw.number(r, col, _get(item, "background", "day"), "level")
-        sw.number(r, col + 1, _get(item, "background", "night"), "level")
-        excess = finite_number(item.get("worst_excess_over_background"))
-        sw.number(r, col + 2, excess, "level")
+        for j, key in enumerate(("Lden", "Lday", "Levening", "Lnight")):
+            sw.number(r, 7 + j, level(avg.get(key)), "level")
+        whole = _get(item, "background", "method") == "mode"
+        for j, period in enumerate(("day", "night")):
+            sw.number(r, 11 + j, level(_get(item, "background", period), whole),
+                      "whole_db" if whole else "level")
+        sw.number(r, 13, level(item.get("worst_excess_over_background")), "level")
         failed = item.get("criteria_failed")
-        sw.number(r, col + 3, failed, "fail" if isinstance(failed, int) and failed else "int")
+        sw.number(r, 14, failed, "fail" if isinstance(failed, int) and failed else "int")
         findings = item.get("findings") or {}
-        for j, sev in enumerate(("error", "warning", "info")):
+        for j, sev in enumerate(("error", "warning")):
             n = findings.get(sev)
-            sw.number(r, col + 4 + j, n, f"sev_{sev}" if isinstance(n, int) and n else "int")
-        link_col = col + 7
+            sw.number(r, 15 + j, n, f"sev_{sev}" if isinstance(n, int) and n else "int")
         name = safe_link_name(item.get("results_xlsx"))
         if name is not None:
-            ws.write_url(r, link_col, "external:" + name, link_fmt, string=name)
-            sw.widths[link_col] = max(sw.widths.get(link_col, 0), len(name))
+            # a short link text: a file name has no place to wrap and would run off the
+            # printed page; the target (and overview.json) keep the full name
+            ws.write_url(r, 17, "external:" + name, link_fmt, string="open results",
+                         tip=name)
         elif item.get("results_xlsx"):
-            sw.text(r, link_col, "(no link: unexpected output name)", "note")
-        sw.text(r, link_col + 1, item.get("reason"), measure=False)
+            sw.text(r, 17, "(no link: unexpected output name)", "note")
+        lines = max(wrapped_lines(str(t or ""), OVERVIEW_COLUMNS[c][1])
+                    for c, t in ((0, item.get("file")), (2, item.get("site")),
+                                 (3, verdict.get("outcome_text")), (5, conditions)))
+        if lines > 1:
+            ws.set_row(r, 15.0 * lines + 2)
     last = header_row + max(len(inputs), 1)
-    ws.autofilter(header_row, 0, last, len(headers) - 1)
+    ws.autofilter(header_row, 0, last, last_col)
     if not inputs:
         sw.text(header_row + 1, 0, "No inputs were processed.", "note", measure=False)
-    sw.fit_columns(minimum=9.0, maximum=40.0)
-    ws.set_column(len(headers) - 1, len(headers) - 1, 80)
-    ws.set_landscape()
-    ws.set_paper(9)
-    ws.fit_to_pages(1, 0)
-    ws.repeat_rows(header_row)
+    print_setup(ws, total_width, (header_row, header_row), 1, last_row=last,
+                last_col=last_col)
+    ws.fit_to_pages(1, 0)  # always one page wide: the columns above are sized for it
 
 
 def styles_get(sw: SheetWriter, name: str) -> Any:

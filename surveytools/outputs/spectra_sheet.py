@@ -20,11 +20,14 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from surveytools.outputs import display as d
+from surveytools.outputs.book import Book
 from surveytools.outputs.xlsx_style import (
     COLOUR_WARN_FILL,
     FMT_LEVEL,
     SheetWriter,
     finite_number,
+    print_setup,
 )
 
 #: Sheet name (our own, plain).
@@ -45,8 +48,8 @@ SHEET_NOTE = (
     "1996-2:2007 Annex D). Totals: IEC 61672-1 A and C weights at the exact band "
     "frequencies. The chart's red diamonds mark tonal bands."
 )
-#: Height of the note row [pt] (three wrapped lines).
-_NOTE_HEIGHT_PT = 45.0
+#: Width of the first column [characters] (band numbers, then the row labels below).
+_FIRST_COLUMN_WIDTH = 24.0
 
 #: First row of the band table (title note, then the header row).
 _HEADER_ROW = 2
@@ -145,10 +148,7 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any],
     bands = [finite_number(f) for f in spectral.get("bands_hz") or []]
     columns = spectrum_columns(doc)
     last_col = 3 + len(columns)
-    note_format = wb.add_format({"italic": True, "font_color": "#595959", "text_wrap": True,
-                                 "valign": "top"})
-    ws.merge_range(0, 0, 0, last_col, SHEET_NOTE, note_format)  # our own text
-    ws.set_row(0, _NOTE_HEIGHT_PT)
+    sw.text(0, 0, SHEET_NOTE, "note", measure=False)  # wrapped across the table below
     thresholds = list(spectral.get("tone_thresholds_db") or [])
     headers = (["Band [Hz]"] + [c.header for c in columns]
                + ["Tone threshold [dB]", "Tone marker (chart) [dB]", "Tonal in"])
@@ -162,7 +162,7 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any],
         sw.number(r, 0, band)
         for j, column in enumerate(columns):
             levels = column.spectrum.get("LZeq") or []
-            level = finite_number(levels[k]) if k < len(levels) else None
+            level = d.level(levels[k]) if k < len(levels) else None  # reported 0.1 dB
             tonal = band in (column.spectrum.get("tonal_bands_hz") or [])
             if tonal and level is not None:
                 ws.write_number(r, 1 + j, level, marked)
@@ -183,7 +183,7 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any],
     for key, label in totals:
         sw.text(row, 0, label, "bold")
         for j, column in enumerate(columns):
-            sw.number(row, 1 + j, column.spectrum.get(key), "level_bold")
+            sw.number(row, 1 + j, d.level(column.spectrum.get(key)), "level_bold")
         row += 1
     sw.text(row, 0, "Low-frequency flag", "bold")
     for j, column in enumerate(columns):
@@ -197,10 +197,14 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any],
     row += 2
     row = _write_tones(sw, spectral, row)
     row = _write_band_check(sw, spectral, row)
-    _write_tonal_bases(sw, doc, row)
+    row_end = _write_tonal_bases(sw, doc, row)
     sw.fit_columns(minimum=9.0)
-    ws.set_column(0, 0, 24)
-    ws.set_column(3 + len(columns), 3 + len(columns), _TONAL_IN_WIDTH)
+    sw.set_width(0, _FIRST_COLUMN_WIDTH)
+    sw.set_width(3 + len(columns), _TONAL_IN_WIDTH)
+    sw.header_height(_HEADER_ROW, 0, headers)
+    sw.wrap_notes(last_col)
+    print_setup(ws, sw.printed_width(last_col), (_HEADER_ROW, _HEADER_ROW), 1,
+                last_row=row_end, last_col=last_col)
 
     if bands and columns:
         chart = wb.add_chart({"type": "line"})
@@ -249,8 +253,8 @@ def _write_tones(sw: SheetWriter, spectral: Mapping[str, Any], row: int) -> int:
         sw.text(row, 1, tone.get("period"))
         sw.number(row, 2, tone.get("time_fraction"), "percent")
         sw.boolean(row, 3, tone.get("in_period_average"))
-        sw.number(row, 4, tone.get("max_difference_db"), "level")
-        sw.number(row, 5, tone.get("threshold_db"), "level")
+        sw.number(row, 4, d.level(tone.get("max_difference_db")), "level")
+        sw.number(row, 5, d.level(tone.get("threshold_db")), "level")
         row += 1
     return row + 1
 
@@ -262,9 +266,9 @@ def _write_band_check(sw: SheetWriter, spectral: Mapping[str, Any], row: int) ->
     row += 1
     row = sw.key_values(row, 0, [
         ("Intervals compared", check.get("intervals")),
-        ("Median difference [dB]", check.get("median_difference_db")),
-        ("Median absolute difference [dB]", check.get("median_absolute_difference_db")),
-        ("Largest absolute difference [dB]", check.get("max_absolute_difference_db")),
+        ("Median difference [dB]", d.level(check.get("median_difference_db"))),
+        ("Median absolute difference [dB]", d.level(check.get("median_absolute_difference_db"))),
+        ("Largest absolute difference [dB]", d.level(check.get("max_absolute_difference_db"))),
         ("Tolerance [dB]", check.get("tolerance_db")),
     ])
     sw.text(row, 0, "Outcome", "bold")
@@ -288,8 +292,18 @@ def _write_tonal_bases(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int
     for a in items:
         basis = a["tonal_basis"]
         sw.text(row, 0, a.get("name"))
-        sw.number(row, 1, (a.get("corrections_db") or {}).get("tonal"), "level")
+        sw.number(row, 1, d.level((a.get("corrections_db") or {}).get("tonal")), "level")
         sw.text(row, 2, basis.get("source"))
         sw.text(row, 3, basis.get("reason"), measure=False)
         row += 1
     return row + 1
+
+
+def add(book: Book) -> None:
+    """Add the Spectra sheet (only with band spectra); its chart goes on the Charts sheet."""
+    if not isinstance(book.doc.get("spectral"), Mapping):
+        return
+    sw = book.sheet(SHEET_SPECTRA)
+    write_spectra_sheet(sw, book.workbook, book.doc, place_chart=lambda chart: book.add_chart(
+        chart, "One-third-octave band spectra (Spectra sheet): period and assessment "
+               "spectra, tonal bands marked"))

@@ -65,6 +65,7 @@ COLOUR_INFO_FILL = "#E4E8EE"
 COLOUR_GREY_TEXT = "#7F7F7F"
 COLOUR_CAUTION_FILL = "#FFF4D6"
 COLOUR_UNREADABLE_FILL = "#D9D2E9"
+COLOUR_BORDER = "#A6A6A6"
 
 #: Fill per severity / status word.
 SEVERITY_FILLS: dict[str, str] = {
@@ -87,35 +88,89 @@ _STYLE_PROPS: dict[str, dict[str, Any]] = {
     "header": {"bold": True, "bg_color": COLOUR_HEADER_FILL, "text_wrap": True,
                "valign": "top", "border": 1},
     "note": {"italic": True, "font_color": COLOUR_GREY_TEXT, "valign": "top"},
-    "level": {"num_format": FMT_LEVEL},
+    "level": {"num_format": FMT_LEVEL, "valign": "top"},
     "level_bold": {"num_format": FMT_LEVEL, "bold": True, "valign": "top"},
     "level_headline": {"num_format": FMT_LEVEL, "bold": True, "font_size": 13, "valign": "top"},
-    "level_grey": {"num_format": FMT_LEVEL, "italic": True, "font_color": COLOUR_GREY_TEXT},
-    "whole_db": {"num_format": FMT_WHOLE_DB},
+    "level_grey": {"num_format": FMT_LEVEL, "italic": True, "font_color": COLOUR_GREY_TEXT,
+                   "valign": "top"},
+    "whole_db": {"num_format": FMT_WHOLE_DB, "valign": "top"},
     "whole_db_bold": {"num_format": FMT_WHOLE_DB, "bold": True, "valign": "top"},
-    "percent": {"num_format": FMT_PERCENT},
+    "percent": {"num_format": FMT_PERCENT, "valign": "top"},
     "hours": {"num_format": FMT_HOURS, "valign": "top"},
-    "int": {"num_format": FMT_INT},
-    "seconds": {"num_format": "0.0"},
-    "datetime": {"num_format": FMT_DATETIME},
-    "datetime_short": {"num_format": "yyyy-mm-dd hh:mm"},
+    "int": {"num_format": FMT_INT, "valign": "top"},
+    "seconds": {"num_format": "0.0", "valign": "top"},
+    "datetime": {"num_format": FMT_DATETIME, "valign": "top"},
+    "datetime_short": {"num_format": "yyyy-mm-dd hh:mm", "valign": "top"},
+    "note_across": {"italic": True, "font_color": COLOUR_GREY_TEXT, "text_wrap": True,
+                    "valign": "top"},
     "note_wrap": {"italic": True, "font_color": COLOUR_GREY_TEXT, "text_wrap": True,
                   "valign": "top", "font_size": 9},
-    "date": {"num_format": FMT_DATE},
-    "fail": {"bg_color": COLOUR_FAIL_FILL, "font_color": COLOUR_FAIL_TEXT, "bold": True},
+    "date": {"num_format": FMT_DATE, "valign": "top"},
+    "fail": {"bg_color": COLOUR_FAIL_FILL, "font_color": COLOUR_FAIL_TEXT, "bold": True,
+             "valign": "top"},
     "pass": {"bg_color": COLOUR_PASS_FILL},
     "caution": {"bg_color": COLOUR_CAUTION_FILL, "text_wrap": True, "valign": "top"},
     "caution_bold": {"bg_color": COLOUR_CAUTION_FILL, "bold": True, "valign": "top"},
     "warning_line": {"bg_color": COLOUR_FAIL_FILL, "font_color": COLOUR_FAIL_TEXT,
                      "bold": True, "text_wrap": True, "valign": "top"},
-    "link": {"font_color": "#1F4E9A", "underline": 1},
-    "sev_error": {"bg_color": COLOUR_FAIL_FILL},
-    "sev_warning": {"bg_color": COLOUR_WARN_FILL},
-    "sev_info": {"bg_color": COLOUR_INFO_FILL},
+    "link": {"font_color": "#1F4E9A", "underline": 1, "text_wrap": True, "valign": "top"},
+    "sev_error": {"bg_color": COLOUR_FAIL_FILL, "valign": "top"},
+    "sev_warning": {"bg_color": COLOUR_WARN_FILL, "valign": "top"},
+    "sev_info": {"bg_color": COLOUR_INFO_FILL, "valign": "top"},
     "st_ok": {"bg_color": COLOUR_PASS_FILL},
     "st_warnings": {"bg_color": COLOUR_WARN_FILL},
     "st_errors": {"bg_color": COLOUR_FAIL_FILL},
     "st_unreadable": {"bg_color": COLOUR_UNREADABLE_FILL},
+    # table cells with borders (columns never run together when printed)
+    "td": {"valign": "top", "border": 1, "border_color": COLOUR_BORDER},
+    "td_wrap": {"valign": "top", "text_wrap": True, "border": 1,
+                "border_color": COLOUR_BORDER},
+    "td_bold": {"valign": "top", "bold": True, "border": 1, "border_color": COLOUR_BORDER},
+    "td_center": {"valign": "top", "align": "center", "border": 1,
+                  "border_color": COLOUR_BORDER},
+    "td_level": {"num_format": FMT_LEVEL, "valign": "top", "align": "center", "border": 1,
+                 "border_color": COLOUR_BORDER},
+    "td_level_bold": {"num_format": FMT_LEVEL, "valign": "top", "align": "center",
+                      "bold": True, "border": 1, "border_color": COLOUR_BORDER},
+    "td_whole_db_bold": {"num_format": FMT_WHOLE_DB, "valign": "top", "align": "center",
+                         "bold": True, "border": 1, "border_color": COLOUR_BORDER},
+    "td_hours": {"num_format": "0.0", "valign": "top", "align": "center", "border": 1,
+                 "border_color": COLOUR_BORDER},
+    "td_note": {"italic": True, "font_color": COLOUR_GREY_TEXT, "text_wrap": True,
+                "valign": "top", "border": 1, "border_color": COLOUR_BORDER},
+    "td_fail": {"valign": "top", "align": "center", "bold": True, "border": 1,
+                "border_color": COLOUR_BORDER, "bg_color": COLOUR_FAIL_FILL,
+                "font_color": COLOUR_FAIL_TEXT},
+    "td_pass": {"valign": "top", "align": "center", "border": 1, "border_color": COLOUR_BORDER,
+                "bg_color": COLOUR_PASS_FILL},
+    # a figure above the limit it is judged against
+    "level_fail": {"num_format": FMT_LEVEL, "bold": True, "bg_color": COLOUR_FAIL_FILL,
+                   "font_color": COLOUR_FAIL_TEXT, "valign": "top"},
+    "level_fail_grey": {"num_format": FMT_LEVEL, "italic": True, "bg_color": COLOUR_FAIL_FILL,
+                        "font_color": COLOUR_FAIL_TEXT, "valign": "top"},
+    "percent1": {"num_format": "0.0", "valign": "top"},
+    "hours1": {"num_format": "0.0", "valign": "top"},
+    "reading_level": {"num_format": "0.0#", "valign": "top"},
+    # the verdict lines at the top of the Summary
+    "verdict_label": {"bold": True, "font_size": 12, "valign": "vcenter"},
+    "verdict_fail": {"bold": True, "font_size": 12, "bg_color": COLOUR_FAIL_FILL,
+                     "font_color": COLOUR_FAIL_TEXT, "valign": "vcenter", "text_wrap": True},
+    "verdict_pass": {"bold": True, "font_size": 12, "bg_color": COLOUR_PASS_FILL,
+                     "valign": "vcenter", "text_wrap": True},
+    "verdict_neutral": {"bold": True, "font_size": 12, "bg_color": COLOUR_INFO_FILL,
+                        "valign": "vcenter", "text_wrap": True},
+    "verdict_warn": {"bold": True, "font_size": 12, "bg_color": COLOUR_WARN_FILL,
+                     "valign": "vcenter", "text_wrap": True},
+    "warn_line": {"bg_color": COLOUR_WARN_FILL, "text_wrap": True, "valign": "top"},
+    # wrapped, top-aligned outcome cells (overview rows)
+    "wrap_fail": {"bg_color": COLOUR_FAIL_FILL, "font_color": COLOUR_FAIL_TEXT, "bold": True,
+                  "text_wrap": True, "valign": "top"},
+    "wrap_pass": {"bg_color": COLOUR_PASS_FILL, "text_wrap": True, "valign": "top"},
+    "wrap_ok": {"bg_color": COLOUR_PASS_FILL, "text_wrap": True, "valign": "top"},
+    "wrap_warnings": {"bg_color": COLOUR_WARN_FILL, "text_wrap": True, "valign": "top"},
+    "wrap_errors": {"bg_color": COLOUR_FAIL_FILL, "text_wrap": True, "valign": "top"},
+    "wrap_unreadable": {"bg_color": COLOUR_UNREADABLE_FILL, "text_wrap": True,
+                        "valign": "top"},
 }
 
 
@@ -232,29 +287,91 @@ class Styles:
 HEADER_LINE_HEIGHT_PT = 15.0
 
 
-#: Widest sheet (columns) still printed one page wide; wider sheets flow over pages.
-PRINT_FIT_MAX_COLUMNS = 16
+#: Widest table (sum of column widths, in characters of the default 11-pt font) still fitted
+#: one A4 landscape page wide. The printable width with our margins is about 784 pt; a
+#: column of width w takes about 0.75 * (7 w + 5) pt at 100 % (more in LibreOffice's
+#: default font: 215 characters printed 11-pt text at 6.6 pt there), so 190 characters keep
+#: 11-pt text at about 7 pt or more. Wider tables flow over pages at full size with their
+#: key columns repeated (shrinking them further would make them unreadable).
+PRINT_FIT_MAX_CHARS = 190
+
+#: Default column width of a spreadsheet (characters), for columns we did not size.
+DEFAULT_COLUMN_WIDTH = 8.43
+
+#: Footer of every printed page (our own wording).
+PRINT_FOOTER = "&L&8Indicative results - see the cautions on the Summary&R&8&A - page &P of &N"
 
 
-def print_detail_sheet(ws: Any) -> None:
-    """Print a detail sheet landscape on A4, its header rows (and key column) on every page.
+def print_setup(ws: Any, printed_width: float, header_rows: tuple[int, int] | None = None,
+                key_columns: int = 0, last_row: int | None = None,
+                last_col: int | None = None) -> bool:
+    """Print a sheet landscape on A4: fitted one page wide when it can stay legible.
 
-    Sheets of up to :data:`PRINT_FIT_MAX_COLUMNS` columns are fitted one page wide; wider
-    ones flow over several pages at full size (shrinking 40 columns onto one page would
-    make them unreadable).
+    Parameters
+    ----------
+    ws : xlsxwriter.worksheet.Worksheet
+        The sheet.
+    printed_width : float
+        Sum of the widths of the printed columns [characters].
+    header_rows : tuple of int, optional
+        First and last header row (0-based), repeated at the top of every page.
+    key_columns : int
+        Leading columns repeated on every page when the sheet is too wide to fit.
+    last_row, last_col : int, optional
+        Print area (from A1) when given.
+
+    Returns
+    -------
+    bool
+        True when the sheet is fitted one page wide.
     """
     ws.set_landscape()
     ws.set_paper(9)  # A4
-    last_col = getattr(ws, "dim_colmax", None)
-    if last_col is not None and last_col < PRINT_FIT_MAX_COLUMNS:
+    ws.set_margins(left=0.4, right=0.4, top=0.5, bottom=0.6)
+    ws.set_footer(PRINT_FOOTER)
+    fitted = printed_width <= PRINT_FIT_MAX_CHARS
+    if fitted:
         ws.fit_to_pages(1, 0)
-    panes = getattr(ws, "panes", None)
-    if panes:
-        frozen_rows, frozen_cols = int(panes[0]), int(panes[1])
-        if frozen_rows > 0:
-            ws.repeat_rows(0, frozen_rows - 1)
-        if frozen_cols > 0:
-            ws.repeat_columns(0, frozen_cols - 1)
+    elif key_columns > 0:
+        ws.repeat_columns(0, key_columns - 1)
+    if header_rows is not None:
+        ws.repeat_rows(header_rows[0], header_rows[1])
+    if last_row is not None and last_col is not None:
+        ws.print_area(0, 0, last_row, last_col)
+    return fitted
+
+
+def wrapped_lines(text: str, width_chars: float) -> int:
+    """Return how many lines ``text`` takes when wrapped at word boundaries (estimate)."""
+    room = max(width_chars - 1.5, 1.0)
+    lines = 0
+    for part in text.splitlines() or [""]:
+        current = 0.0
+        lines += 1
+        for word in part.split():
+            need = len(word) if current == 0 else current + 1 + len(word)
+            if need <= room or current == 0:
+                current = need
+                while current > room:  # a word longer than the column breaks
+                    lines += 1
+                    current -= room
+            else:
+                lines += 1
+                current = len(word)
+    return lines
+
+
+def text_lines(text: str, width_chars: float) -> int:
+    """Return how many lines ``text`` wraps to in a column ``width_chars`` wide (estimate).
+
+    Average text in the default proportional font is a little narrower than the digit
+    width the column unit counts, so a line holds about ``width_chars`` characters; the
+    estimate is on the safe (taller) side.
+    """
+    total = 0
+    for part in text.splitlines() or [""]:
+        total += max(1, math.ceil(len(part) / max(width_chars - 1.0, 1.0)))
+    return total
 
 
 @dataclass
@@ -274,6 +391,10 @@ class SheetWriter:
     widths: dict[int, float] = field(default_factory=dict)
     #: Columns whose width is not measured (long wrapped notes).
     fixed_widths: dict[int, float] = field(default_factory=dict)
+    #: Widths set so far (for the print layout).
+    set_widths: dict[int, float] = field(default_factory=dict)
+    #: The note in the first cell (A1), wrapped across the table at the end.
+    notes: dict[int, str] = field(default_factory=dict)
 
     def _measure(self, col: int, chars: int) -> None:
         if chars > self.widths.get(col, 0):
@@ -288,6 +409,8 @@ class SheetWriter:
             return
         fmt = self.styles.get(style, quote=is_trigger_led(text))
         self.ws.write_string(row, col, text, fmt)
+        if style == "note" and row == 0 and col == 0 and not measure:
+            self.notes[row] = text
         if measure:
             longest = max((len(part) for part in text.splitlines()), default=0)
             self._measure(col, longest)
@@ -373,7 +496,40 @@ class SheetWriter:
             width = self.fixed_widths.get(col)
             if width is None:
                 width = min(max(self.widths[col] + 1.5, minimum), maximum)
-            self.ws.set_column(col, col, width)
+            self.set_width(col, width)
+
+    def set_width(self, col: int, width: float, hidden: bool = False) -> None:
+        """Set one column's width [characters] and remember it for the print layout."""
+        self.ws.set_column(col, col, width, None, {"hidden": True} if hidden else None)
+        self.set_widths[col] = 0.0 if hidden else width
+
+    def header_height(self, row: int, col: int, names: Sequence[str], bold: bool = True
+                      ) -> None:
+        """Set a header row tall enough for every name wrapped in its final column width."""
+        lines = 1
+        for i, name in enumerate(names):
+            width = self.set_widths.get(col + i, DEFAULT_COLUMN_WIDTH)
+            if width <= 0:
+                continue
+            # bold text is a little wider than the digit width the column unit counts
+            lines = max(lines, wrapped_lines(name, (width + 1.0) / (1.05 if bold else 1.0)))
+        self.ws.set_row(row, HEADER_LINE_HEIGHT_PT * lines + 2)
+
+    def wrap_notes(self, last_col: int) -> None:
+        """Wrap each first-column note across columns ``0..last_col`` (nothing runs off)."""
+        width = self.printed_width(last_col)
+        for row, text in self.notes.items():
+            if last_col > 0:
+                self.ws.merge_range(row, 0, row, last_col, "", self.styles.get("note_across"))
+            self.ws.write_string(row, 0, text, self.styles.get("note_across",
+                                                                quote=is_trigger_led(text)))
+            lines = wrapped_lines(text, width * 1.05)
+            if lines > 1:
+                self.ws.set_row(row, HEADER_LINE_HEIGHT_PT * lines + 2)
+
+    def printed_width(self, last_col: int) -> float:
+        """Return the summed width of columns ``0..last_col`` [characters]."""
+        return sum(self.set_widths.get(c, DEFAULT_COLUMN_WIDTH) for c in range(last_col + 1))
 
 
 def cautions_lines() -> list[str]:
@@ -451,10 +607,3 @@ def severity_counts(findings: Sequence[Mapping[str, Any]],
 def _rank(severity: str) -> int:
     return {"error": 0, "warning": 1, "info": 2}.get(severity, 3)
 
-
-def fmt_db(value: object, whole: bool = False) -> str:
-    """Return a level as display text (``"55.3 dB"``), or ``"n/a"`` when missing."""
-    v = finite_number(value)
-    if v is None:
-        return "n/a"
-    return f"{v:.0f} dB" if whole else f"{v:.1f} dB"

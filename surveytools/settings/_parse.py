@@ -59,7 +59,8 @@ def duration_s(value: Any) -> float:
 
 
 def read_duration(node: Mapping[str, Any], stem: str, where: str, *,
-                  at_most_a_day: bool = True) -> tuple[float | None, list[Problem]]:
+                  at_most_a_day: bool = True, at_least_s: float = 0.0
+                  ) -> tuple[float | None, list[Problem]]:
     """Read a duration given as ``stem`` (text with a unit) or ``stem_s`` (seconds).
 
     Parameters
@@ -72,6 +73,8 @@ def read_duration(node: Mapping[str, Any], stem: str, where: str, *,
         Key path of ``node`` (``"background"``; ``""`` for the top level).
     at_most_a_day : bool
         Whether the duration must be above 0 and at most 24 h.
+    at_least_s : float
+        Shortest duration accepted [s] (a results grid's step: ``MIN_RESULT_INTERVAL_S``).
 
     Returns
     -------
@@ -87,9 +90,13 @@ def read_duration(node: Mapping[str, Any], stem: str, where: str, *,
     if raw is None:
         return None, problems
     seconds = duration_s(raw)
+    key = prefix + (stem if stem in node else f"{stem}_s")
     if at_most_a_day and not 0 < seconds <= SECONDS_PER_DAY:
-        problems.append((prefix + (stem if stem in node else f"{stem}_s"),
-                         f"expected a duration above 0 and at most 24 h, found {show(raw)}"))
+        problems.append((key, f"expected a duration above 0 and at most 24 h, found {show(raw)}"))
+    elif seconds < at_least_s:
+        problems.append((key, f"expected a duration of at least {at_least_s:g} s (results "
+                              f"for shorter intervals would make millions of rows), found "
+                              f"{show(raw)}"))
     return seconds, problems
 
 

@@ -37,8 +37,10 @@ def build_background(given: Mapping[str, Any]) -> tuple[Background, list[Problem
         the same time.
     """
     base = Background()
-    day_s, problems = read_duration(given, "reference_interval_day", "background")
-    night_s, found = read_duration(given, "reference_interval_night", "background")
+    day_s, problems = read_duration(given, "reference_interval_day", "background",
+                                    at_least_s=C.MIN_RESULT_INTERVAL_S)
+    night_s, found = read_duration(given, "reference_interval_night", "background",
+                                   at_least_s=C.MIN_RESULT_INTERVAL_S)
     problems += found
     background = Background(
         reference_interval_day_s=base.reference_interval_day_s if day_s is None else day_s,

@@ -6,15 +6,19 @@ Every problem becomes one line ``source: key.path: expected ..., found ...`` of 
 
 from __future__ import annotations
 
+import math
+import os
 import re
+import stat
 import tomllib
 from collections.abc import Mapping
 from datetime import date, datetime, time
 from pathlib import Path
 from typing import Any
 
+from surveytools import constants as C  # noqa: N812
 from surveytools.errors import SettingsError
-from surveytools.settings._parse import Problem, drop_none, show
+from surveytools.settings._parse import Problem, drop_none, key_path, show
 from surveytools.settings.root import Settings, build_settings
 from surveytools.settings.schema_check import schema_problems
 
@@ -40,6 +44,28 @@ def _plain_toml(value: Any) -> Any:
     if isinstance(value, date):
         return value.isoformat()
     return value
+
+
+def _shape_problems(data: Mapping[str, Any]) -> list[Problem]:
+    """Return numbers that are not finite and values nested too deeply (before any parsing).
+
+    Walks the data without recursion, so that no depth of nesting can exhaust the stack.
+    """
+    problems: list[Problem] = []
+    todo: list[tuple[tuple[Any, ...], Any]] = [((), data)]
+    while todo:
+        path, value = todo.pop()
+        if len(path) > C.SETTINGS_MAX_DEPTH:
+            problems.append((key_path(path[:C.SETTINGS_MAX_DEPTH]), "expected at most "
+                             f"{C.SETTINGS_MAX_DEPTH} levels of tables and arrays, found more"))
+            continue
+        if isinstance(value, Mapping):
+            todo.extend(((*path, k), v) for k, v in value.items())
+        elif isinstance(value, list | tuple):
+            todo.extend(((*path, i), v) for i, v in enumerate(value))
+        elif isinstance(value, float) and not math.isfinite(value):
+            problems.append((key_path(path), f"expected a finite number, found {value!r}"))
+    return problems
 
 
 def _raise(source: str, problems: list[Problem]) -> None:
@@ -78,6 +104,9 @@ def settings_from_mapping(data: Mapping[str, Any], source: str = "settings") -> 
     mapping = dict(data)
     if "column_map" in mapping and "columns" not in mapping:  # Settings.to_dict() spelling
         mapping["columns"] = mapping.pop("column_map")
+    problems = _shape_problems(mapping)
+    if problems:
+        _raise(source, problems)
     plain = _plain_toml(drop_none(mapping))
     problems = schema_problems(plain)
     if problems:
@@ -122,11 +151,7 @@ def load_settings(path: str | Path | None) -> Settings:
         return Settings()
     p = Path(path)
     label = p.name or str(p)
-    try:
-        raw = p.read_bytes()
-    except OSError as exc:
-        raise SettingsError(f"{label}: cannot read the settings file ({exc.strerror or exc}); "
-                            "check the path given to --settings") from exc
+    raw = _read_settings_bytes(p, label)
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
@@ -134,6 +159,9 @@ def load_settings(path: str | Path | None) -> Settings:
                             f"offset {exc.start}; save the file as UTF-8") from exc
     try:
         data = tomllib.loads(text)
+    except RecursionError:
+        raise SettingsError(f"{label}: expected at most {C.SETTINGS_MAX_DEPTH} levels of "
+                            "tables and arrays, found far more") from None
     except tomllib.TOMLDecodeError as exc:
         msg = str(exc)
         m = _TOML_POSITION.search(msg)
@@ -141,3 +169,40 @@ def load_settings(path: str | Path | None) -> Settings:
         detail = _TOML_POSITION.sub("", msg).strip()
         raise SettingsError(f"{label}: {where}not valid TOML: {detail}") from exc
     return settings_from_mapping(data, label)
+
+
+def _read_settings_bytes(p: Path, label: str) -> bytes:
+    """Read a settings file: a regular file of at most ``SETTINGS_MAX_BYTES``.
+
+    Opened without blocking (a pipe given as settings would otherwise wait for a writer
+    for ever) and checked on the open file, so a device such as ``/dev/zero`` or a pipe is
+    refused before anything is read, and at most one byte more than the limit is read.
+    """
+    try:
+        fd = os.open(p, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
+    except OSError as exc:
+        raise SettingsError(f"{label}: cannot read the settings file ({exc.strerror or exc}); "
+                            "check the path given to --settings") from exc
+    st = os.fstat(fd)
+    if not stat.S_ISREG(st.st_mode):
+        os.close(fd)
+        kind = ("a folder" if stat.S_ISDIR(st.st_mode) else
+                "a pipe" if stat.S_ISFIFO(st.st_mode) else "a device or socket")
+        raise SettingsError(f"{label}: expected a settings file (TOML text), found {kind}; "
+                            "give the path of a .toml file to --settings")
+    with os.fdopen(fd, "rb") as fh:
+        if st.st_size > C.SETTINGS_MAX_BYTES:
+            raise SettingsError(_too_large(label, st.st_size))
+        try:
+            raw = fh.read(C.SETTINGS_MAX_BYTES + 1)
+        except OSError as exc:
+            raise SettingsError(f"{label}: cannot read the settings file "
+                                f"({exc.strerror or exc})") from exc
+    if len(raw) > C.SETTINGS_MAX_BYTES:  # it grew while being read
+        raise SettingsError(_too_large(label, len(raw)))
+    return raw
+
+
+def _too_large(label: str, size: int) -> str:
+    return (f"{label}: expected a settings file of at most {C.SETTINGS_MAX_BYTES // 1024} KiB, "
+            f"found {size:,} bytes; is this really the settings file?")

@@ -79,7 +79,8 @@ def build_settings(data: Mapping[str, Any]) -> tuple[Settings, list[Problem]]:
         return value
 
     base = Settings()
-    reporting_interval_s = take(read_duration(data, "reporting_interval", ""))
+    reporting_interval_s = take(read_duration(data, "reporting_interval", "",
+                                              at_least_s=C.MIN_RESULT_INTERVAL_S))
     settings = Settings(
         periods=take(build_periods(section(data, "periods"))),
         reporting_interval_s=(base.reporting_interval_s if reporting_interval_s is None

@@ -13,7 +13,11 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from surveytools.constants import GAP_FACTOR, PLAUSIBLE_BAND_LEVEL_MIN_DB
+from surveytools.constants import (
+    GAP_FACTOR,
+    MAX_INTERVAL_DURATION_S,
+    PLAUSIBLE_BAND_LEVEL_MIN_DB,
+)
 from surveytools.inputs.columns import (
     EXCLUSION_COLUMNS,
     READINGS_COLUMNS,
@@ -329,7 +333,8 @@ def build_survey(raw: RawWorkbook, settings: Settings,
                 "duration-invalid", Severity.ERROR, table.sheet, pos + cols.where.first_row,
                 dcol.letter,
                 [f"{'empty' if _blank(v) else repr(v)} is not an interval length in seconds "
-                 "(a number > 0) — enter the duration; the row is left out" for v in shown])
+                 f"(a number > 0, at most {MAX_INTERVAL_DURATION_S:.0f} s = 7 days) — enter "
+                 "the duration; the row is left out" for v in shown])
             dur_invalid = bad
     fallback = step if step is not None else tb.MS_PER_S
     if step is None and "Duration" not in by and placed.any():
@@ -340,6 +345,9 @@ def build_survey(raw: RawWorkbook, settings: Settings,
         dur_invalid = placed.copy()
     dur_ms = np.where(dur_ok, dur_ms, fallback).astype(np.int64)
     start_ms = stamp - dur_ms if times.is_end else stamp
+    stray = ck.check_stray_times(np.arange(n, dtype=np.int64) + cols.where.first_row, start_ms,
+                                 times.loc.offset_s, placed, times.letter, cols.where, collector)
+    placed &= ~stray
 
     # ---- unplaced ---------------------------------------------------------------------------
     rows_all = np.arange(n, dtype=np.int64) + cols.where.first_row
@@ -354,9 +362,10 @@ def build_survey(raw: RawWorkbook, settings: Settings,
     u = np.flatnonzero(unplaced_mask)
     # Reason texts only for the (few) unplaced rows, not for every reading.
     reasons = np.where(times.loc.nonexistent[u], "timestamp-nonexistent",
-                       np.where(missing_ts[u], "timestamp-missing", "timestamp-invalid"))
+                       np.where(missing_ts[u], "timestamp-missing",
+                                np.where(stray[u], "timestamp-stray", "timestamp-invalid")))
     raw_text = times.naive.raw[u].copy()
-    gone = times.loc.nonexistent[u]
+    gone = times.loc.nonexistent[u] | stray[u]
     raw_text[gone] = tb.format_naive_ms(times.naive.ms[u][gone])
     unplaced = pd.DataFrame({
         "row": pd.Series(rows_all[u], dtype="int64"),

@@ -15,7 +15,13 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from surveytools.constants import LEVEL_ORDER_TOLERANCE_DB, SECONDS_PER_HOUR
+from surveytools.constants import (
+    LEVEL_ORDER_TOLERANCE_DB,
+    MAX_GRID_INTERVALS,
+    SECONDS_PER_HOUR,
+    STRAY_READINGS_GAP_DAYS,
+    STRAY_READINGS_MAX_FRACTION,
+)
 from surveytools.inputs.raw import RawColumn
 from surveytools.settings import Calibration
 from surveytools.validation.findings import Finding, FindingCollector, Severity
@@ -26,6 +32,7 @@ _PLAIN_NUMBER = re.compile(r"^\s*[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?\s*$")
 _TRUE = frozenset({"yes", "y", "true", "1", "x", "on"})
 _FALSE = frozenset({"no", "n", "false", "0", "off", "-"})
 _MS_PER_S = 1000
+MS_PER_DAY = 86_400_000
 
 #: Level columns checked for their order, highest first (LAFmax >= LAeq >= LAF90 >= LAFmin).
 LEVEL_ORDER = ("LAFmax", "LAeq", "LAF90", "LAFmin")
@@ -144,6 +151,11 @@ def read_numbers(
                 [f"'{_clip(v)}' marks an overload: the row is flagged as overloaded and "
                  "the cell counts as empty" for v in tm])
         bad = ~is_marker
+        filled = int(np.count_nonzero(~np.isnan(x))) + pos.size
+        if bad.any() and _column_wide(int(np.count_nonzero(bad)), filled):
+            _report_column_not_numbers(collector, where, col, pos[bad] + rows0, t[bad],
+                                       comma[bad], filled, what, unit)
+            bad = np.zeros_like(bad)
         if bad.any():
             room = collector.room(f"{code_prefix}-not-a-number")
             tb = t[bad].iloc[:room].tolist()
@@ -181,6 +193,40 @@ def read_numbers(
         x[pos] = np.nan
         rejected[pos] = True
     return Numbers(x, rejected, marker)
+
+
+#: A problem is reported once for a column when it affects at least this many cells and
+#: this share of the column's filled cells (same rule as timestamps, see
+#: ``timebase.COLUMN_WIDE_MIN_ROWS``). Own choice.
+COLUMN_WIDE_MIN_CELLS = 10
+COLUMN_WIDE_MIN_FRACTION = 0.5
+_NUMBER_WITH_UNIT = re.compile(r"^\s*[+-]?\d+(?:[.,]\d+)?\s*[A-Za-z%()/]+\s*$")
+
+
+def _column_wide(count: int, filled: int) -> bool:
+    return count >= COLUMN_WIDE_MIN_CELLS and count >= COLUMN_WIDE_MIN_FRACTION * filled
+
+
+def _report_column_not_numbers(collector: FindingCollector, where: Where, col: RawColumn,
+                               rows: np.ndarray, texts: pd.Series, comma: np.ndarray,
+                               filled: int, what: str, unit: str) -> None:
+    """Report once that most of a number column is text, naming the likely cause and fix."""
+    count = rows.size
+    example = f"'{_clip(str(texts.iloc[0]))}' in row {rows[0]}"
+    if comma.mean() >= COLUMN_WIDE_MIN_FRACTION:
+        fix = ("the column uses decimal commas — write decimal points, or export with '.' "
+               "as the decimal separator")
+    elif texts.str.fullmatch(_NUMBER_WITH_UNIT).mean() >= COLUMN_WIDE_MIN_FRACTION:
+        fix = (f"the unit is written in every cell — keep only the number (the unit {unit} "
+               "belongs in the header)")
+    else:
+        fix = f"enter {what} in {unit} as a number, or leave the cell empty"
+    header = f" ({col.header})" if col.header else ""
+    collector.add(Finding(
+        "column-not-numbers", Severity.ERROR,
+        f"column {col.letter}{header}: {count:,} of {filled:,} cells are not {what} in {unit} "
+        f"(e.g. {example}): {fix}; these cells count as empty", where.sheet,
+        max(where.first_row - 1, 1), col.letter))
 
 
 def check_level_range(
@@ -328,6 +374,50 @@ def _span_text(ms: int) -> str:
     if s >= SECONDS_PER_HOUR:
         return f"{s / SECONDS_PER_HOUR:g} h"
     return f"{s / 60:g} min" if s >= 60 else f"{s:g} s"
+
+
+def check_stray_times(
+    rows: np.ndarray, start_ms: np.ndarray, offset_s: np.ndarray, placed: np.ndarray,
+    letter: str | None, where: Where, collector: FindingCollector,
+) -> np.ndarray:
+    """Return the placed readings far outside the survey's span, reported (``timestamp-stray``).
+
+    Readings are split into groups wherever more than ``STRAY_READINGS_GAP_DAYS`` pass
+    without one; a group other than the largest that holds at most
+    ``STRAY_READINGS_MAX_FRACTION`` of the readings is stray (a wrong year or month typed
+    in a few rows). Its rows are left out, so no grid is sized by the span between a
+    stray time and the survey. Groups of similar size (a survey resumed after a long
+    break) are all kept.
+    """
+    stray = np.zeros(start_ms.size, bool)
+    pos = np.flatnonzero(placed)
+    if pos.size < 2:
+        return stray
+    order = pos[np.argsort(start_ms[pos], kind="stable")]
+    t = start_ms[order]
+    breaks = np.diff(t) > STRAY_READINGS_GAP_DAYS * MS_PER_DAY
+    if not breaks.any():
+        return stray
+    group = np.r_[0, np.cumsum(breaks)]
+    counts = np.bincount(group)
+    main = int(np.argmax(counts))
+    small = counts <= STRAY_READINGS_MAX_FRACTION * pos.size
+    small[main] = False
+    if not small.any():
+        return stray
+    stray[order[small[group]]] = True
+    first, last = t[group == main][[0, -1]]
+    span = _local_text(np.array([first, last]), offset_s[order[group == main]][[0, -1]])
+    hit = np.flatnonzero(stray)
+    shown = hit[:collector.room("timestamp-stray")]
+    texts = _local_text(start_ms[shown], offset_s[shown])
+    away = np.minimum(np.abs(start_ms[shown] - first), np.abs(start_ms[shown] - last))
+    collector.add_rows(
+        "timestamp-stray", Severity.ERROR, where.sheet, rows[hit], letter,
+        [f"{text} is {a / MS_PER_DAY:,.0f} days away from the other readings ({span[0]} to "
+         f"{span[1]}) — check the date (a wrong year or month?); the row is left out"
+         for text, a in zip(texts, away, strict=True)])
+    return stray
 
 
 @dataclass
@@ -551,3 +641,33 @@ def group_labels(labels: Sequence[str], scopes: Sequence[str]) -> dict[tuple[str
     for i, key in enumerate(zip(labels, scopes, strict=True)):
         groups.setdefault(key, []).append(i)
     return groups
+
+
+def grid_size_refusal(start_ms: np.ndarray, duration_ms: np.ndarray,
+                      steps_s: Mapping[str, float]) -> Finding | None:
+    """Return why the survey cannot be assessed on its grids (too many intervals), or None.
+
+    Parameters
+    ----------
+    start_ms, duration_ms : numpy.ndarray of int64
+        Placed readings' starts and lengths [ms].
+    steps_s : mapping of str to float
+        Settings key (``reporting_interval``) -> the grid step it sets [s].
+
+    A grid's size is the readings' span divided by its step; one beyond
+    ``MAX_GRID_INTERVALS`` is refused before any grid is built, naming the key to change.
+    """
+    if start_ms.size == 0:
+        return None
+    span_s = float(np.max(start_ms + duration_ms) - np.min(start_ms)) / _MS_PER_S
+    for key, step in steps_s.items():
+        n = span_s / step
+        if n > MAX_GRID_INTERVALS:
+            need = float(np.ceil(span_s / MAX_GRID_INTERVALS))
+            return Finding(
+                "grid-too-large", Severity.ERROR,
+                f"the readings span {span_s / 86_400:,.1f} days; at {key} = {step:g} s that is "
+                f"{n:,.0f} intervals, more than the {MAX_GRID_INTERVALS:,} a results workbook "
+                f"can hold — set {key} to at least {need:,.0f} s in the settings, or split the "
+                "survey into shorter workbooks")
+    return None

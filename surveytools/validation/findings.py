@@ -190,8 +190,10 @@ class FindingCollector:
                     Finding(
                         "findings-truncated",
                         Severity.INFO,
-                        f"{n} findings with code '{code}'; only the first {self.max_per_code} "
-                        "are listed. Fix the listed ones and re-run to see the rest.",
+                        f"{n} findings with code '{code}'; the first {self.max_per_code} are "
+                        f"listed and all {n} are counted (finding_counts). Many rows with one "
+                        "problem usually share one cause: fix it at the source (the export "
+                        "settings, the column's format) rather than row by row.",
                     )
                 )
         return sorted(out, key=Finding.sort_key)

@@ -237,11 +237,13 @@ def validate_survey(
             and not _FIXED_OFFSET.match(tz):
         try:
             zoneinfo.ZoneInfo(tz)
-        except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+        except (zoneinfo.ZoneInfoNotFoundError, ValueError, OSError):
+            # OSError: a name too long for a path in the zone database
             src = origin["time_zone"].entry
+            shown = tz if len(tz) <= 60 else tz[:57] + "..."
             collector.add(Finding(
                 "survey-time-zone-unknown", Severity.ERROR,
-                f"{src.key if src else 'Time zone'}: '{tz}' is not a known IANA time zone "
+                f"{src.key if src else 'Time zone'}: '{shown}' is not a known IANA time zone "
                 "— use a name such as Europe/Berlin or a fixed offset such as UTC+01:00",
                 sheet_name if src else None, src.row if src else None,
                 src.value_column if src else None))

@@ -35,6 +35,11 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 
+from surveytools.constants import (
+    MAX_INTERVAL_DURATION_S,
+    PLAUSIBLE_READING_YEAR_END,
+    PLAUSIBLE_READING_YEAR_MIN,
+)
 from surveytools.inputs.raw import RawColumn
 from surveytools.validation.findings import Finding, FindingCollector, Severity
 
@@ -174,8 +179,10 @@ def parse_clock(clock: str, time_zone: str) -> Clock:
         return Clock("fixed", off)
     try:
         zoneinfo.ZoneInfo(time_zone)
-    except (zoneinfo.ZoneInfoNotFoundError, ValueError) as exc:
-        raise ValueError(f"unknown time zone {time_zone!r}") from exc
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError, OSError) as exc:
+        # OSError: a name too long for a file path (the zone database is a folder tree)
+        shown = time_zone if len(time_zone) <= 60 else time_zone[:57] + "..."
+        raise ValueError(f"unknown time zone {shown!r}") from exc
     return Clock("local", 0, time_zone)
 
 
@@ -367,7 +374,7 @@ def column_datetimes(col: RawColumn, n: int) -> NaiveTimes:
                  "and time, or write ISO 8601 text such as 2026-07-03 22:00:00",
                  np.array([str(v) for v in vals[pos]], dtype=object))
     if col.kind != "text" and not col.text_cells:
-        return out  # typed cells only: no text to parse
+        return _implausible_years(out)  # typed cells only: no text to parse
     texts = _text_series(col, n)
     has_text = texts.notna().to_numpy()
     if has_text.any():
@@ -384,6 +391,29 @@ def column_datetimes(col: RawColumn, n: int) -> NaiveTimes:
         out.fail(bad, "not a date-time in a supported form — write ISO 8601 text such as "
                  "2026-07-03 22:00:00 or 2026-07-03T22:00:00+02:00, or use a date-time cell",
                  sub[~ok].to_numpy(dtype=object))
+    return _implausible_years(out)
+
+
+#: Plausible reading times, naive ms: [1980-01-01, 2100-01-01) (see constants).
+_PLAUSIBLE_FIRST_MS = int(np.datetime64(f"{PLAUSIBLE_READING_YEAR_MIN}-01-01", "ms")
+                          .astype(np.int64))
+_PLAUSIBLE_END_MS = int(np.datetime64(f"{PLAUSIBLE_READING_YEAR_END}-01-01", "ms")
+                        .astype(np.int64))
+
+
+def _implausible_years(out: NaiveTimes) -> NaiveTimes:
+    """Mark readable times outside the plausible years as problems (the row is left out).
+
+    A year typed wrong (1926, 9999) or a huge date serial must not stretch the survey to
+    a century: it is a located finding, and no later step sees the time.
+    """
+    far = out.ok & ((out.ms < _PLAUSIBLE_FIRST_MS) | (out.ms >= _PLAUSIBLE_END_MS))
+    if far.any():
+        pos = np.flatnonzero(far)
+        out.fail(pos, f"the year is outside {PLAUSIBLE_READING_YEAR_MIN}–"
+                 f"{PLAUSIBLE_READING_YEAR_END - 1}, so this cannot be when the reading was "
+                 "logged — correct the year; the row is left out", format_naive_ms(out.ms[pos]))
+        out.ms[pos] = _NAT
     return out
 
 
@@ -642,7 +672,7 @@ def durations_from_seconds(values: RawColumn | None, n: int) -> tuple[np.ndarray
     if values.formula_without_value:
         given[np.fromiter(values.formula_without_value, np.int64)] = True
     with np.errstate(invalid="ignore"):
-        valid = np.isfinite(x) & (x > 0)
+        valid = np.isfinite(x) & (x > 0) & (x <= MAX_INTERVAL_DURATION_S)
     ms = np.zeros(n, np.int64)
     ms[valid] = np.rint(x[valid] * MS_PER_S).astype(np.int64)
     valid &= ms > 0
@@ -658,8 +688,15 @@ def report_time_problems(
     loc: Localised,
     clock: Clock,
 ) -> None:
-    """Add ``timestamp-invalid``, ``timestamp-nonexistent`` and ``timestamp-ambiguous``."""
+    """Add ``timestamp-invalid``, ``timestamp-nonexistent`` and ``timestamp-ambiguous``.
+
+    A problem shared by most of the column (every timestamp written day/month/year) is
+    reported once, as ``timestamp-column-unreadable``; per-cell findings stay for the
+    scattered rest.
+    """
     bad = np.flatnonzero(naive.flagged)
+    if bad.size:
+        bad = _report_column_wide(collector, sheet, first_row, letter, naive, bad)
     if bad.size:
         msgs = [f"{_quote(naive.raw[i])}{naive.problem[i]}" for i in bad[:collector.max_per_code]]
         collector.add_rows("timestamp-invalid", Severity.ERROR, sheet, bad + first_row,
@@ -686,3 +723,43 @@ def report_time_problems(
 
 def _quote(raw: object) -> str:
     return "" if raw is None else f"'{str(raw)[:_MAX_QUOTE]}': "
+
+
+#: A timestamp problem is reported once for the column when it affects at least this many
+#: rows and this share of the column's non-empty cells. Own choice.
+COLUMN_WIDE_MIN_ROWS = 10
+COLUMN_WIDE_MIN_FRACTION = 0.5
+_DAY_FIRST = re.compile(r"^\s*\d{1,2}[./-]\d{1,2}[./-]\d{2,4}\b")
+
+
+def _report_column_wide(collector: FindingCollector, sheet: str, first_row: int,
+                        letter: str | None, naive: NaiveTimes, bad: np.ndarray) -> np.ndarray:
+    """Report the column's dominant timestamp problem once; return the positions left over.
+
+    The rows stay unplaced (left out) all the same; only the reporting is folded into one
+    finding naming the column, how many rows, an example and the fix.
+    """
+    filled = int(np.count_nonzero(~naive.empty))
+    if bad.size < COLUMN_WIDE_MIN_ROWS or bad.size < COLUMN_WIDE_MIN_FRACTION * filled:
+        return bad
+    reasons = pd.Series(naive.problem[bad], dtype=object).astype(str)
+    top = reasons.value_counts()
+    reason, count = str(top.index[0]), int(top.iloc[0])
+    if count < COLUMN_WIDE_MIN_ROWS or count < COLUMN_WIDE_MIN_FRACTION * filled:
+        return bad
+    same = bad[(reasons == reason).to_numpy()]
+    raw = pd.Series(naive.raw[same], dtype=object).astype(str)
+    day_first = raw.str.match(_DAY_FIRST).to_numpy()
+    example = f"'{str(naive.raw[same[0]])[:_MAX_QUOTE]}' in row {same[0] + first_row}"
+    where = f"column {letter}" if letter else "the time column"
+    if day_first.mean() >= COLUMN_WIDE_MIN_FRACTION:
+        why = ("they are written day/month/year (or month/day/year), an order that cannot be "
+               "told apart for days 1-12 and is never guessed — format the column as date-time "
+               "cells, or write ISO 8601 text such as 2026-07-03 22:00:00, and run again")
+    else:
+        why = reason
+    collector.add(Finding(
+        "timestamp-column-unreadable", Severity.ERROR,
+        f"{where}: {count:,} of {filled:,} timestamps cannot be read (e.g. {example}): {why}; "
+        "these rows are left out", sheet, max(first_row - 1, 1), letter))
+    return np.setdiff1d(bad, same, assume_unique=True)

@@ -48,3 +48,17 @@ def test_reading_annotations() -> None:
                                        "2026-06-10T10:00:01.250+02:00"]
     assert table["reason"].tolist() == ["", "rain; technician (background only)"]
     assert table["duration_s"].tolist() == [1.0, 1.0]
+
+
+def test_reading_annotations_keep_every_level_column_read() -> None:
+    # The Readings sheet of the workbook must let a person check each row against the
+    # input: every level column read is carried, unchanged, beside the exclusion reason.
+    t = local_ms("2026-06-10 10:00")
+    survey = build_survey([t, t + 1000], 1, {"LAeq": [50.0, 51.25], "LAFmax": [60.5, 62.0]},
+                          exclusions=[("rain", "all", [False, True])])
+    table = reading_annotations(survey)
+    assert list(table.columns)[:3] == ["row", "start", "duration_s"]
+    assert list(table.columns)[-1] == "reason"
+    assert table["LAeq"].tolist() == [50.0, 51.25]
+    assert table["LAFmax"].tolist() == [60.5, 62.0]
+    assert "LAeq" not in reading_annotations(survey, with_levels=False).columns

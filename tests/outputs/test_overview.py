@@ -9,14 +9,15 @@ from __future__ import annotations
 import shutil
 import subprocess
 import zipfile
-from datetime import datetime
 from pathlib import Path
 from typing import Any
 
 import openpyxl
 import pytest
 
+from surveytools.indicators.reporting import reported_level
 from surveytools.outputs.overview import safe_link_name, write_overview_workbook
+from surveytools.verdict import verdict_section
 from tests.outputs.results_fixture import INJECTIONS, build_results_doc
 
 
@@ -34,6 +35,7 @@ def entry(doc: dict[str, Any], results_xlsx: str) -> dict[str, Any]:
         "background": {"day": 46.0, "night": 38.0},
         "worst_excess_over_background": 13.2, "criteria_failed": 2,
         "findings": {"error": 3, "warning": 1, "info": 1}, "reason": None,
+        "verdict": verdict_section(doc),
     }
 
 
@@ -79,17 +81,25 @@ def test_one_row_per_input_with_figures(tmp_path: Path) -> None:
     for i, item in enumerate(doc["inputs"]):
         r = hr + 1 + i
         assert ws.cell(r, col["Input file"]).value == item["file"]
-        assert ws.cell(r, col["Status"]).value == item["status"]
-        assert ws.cell(r, col["Lden [dB]"]).value == item["survey_average"].get("Lden")
+        verdict = item.get("verdict") or {}
+        assert ws.cell(r, col["Criteria outcome"]).value == (
+            verdict.get("outcome_text") or "n/a")
+        lden = item["survey_average"].get("Lden")
+        # one number everywhere: the reported value, half up to 0.1 dB
+        assert ws.cell(r, col["Lden [dB]"]).value == (
+            None if lden is None else reported_level(lden))
         assert ws.cell(r, col["Background LA90 night [dB]"]).value == \
             item["background"]["night"]
-        assert ws.cell(r, col["Criteria failed"]).value == item["criteria_failed"]
+        # the count of failing figures says so in its header
+        assert ws.cell(r, col["Figures above limits (count)"]).value == \
+            item["criteria_failed"]
         assert ws.cell(r, col["Errors"]).value == item["findings"]["error"]
-        assert ws.cell(r, col["Reason (unreadable)"]).value == item["reason"]
-    # hand-evaluated: "2026-06-10T12:00:00+02:00" -> wall clock 12:00
-    assert ws.cell(hr + 1, col["First (local)"]).value == datetime(2026, 6, 10, 12, 0)
+    # hand-evaluated: 169200 / 172800 = 0.979166.. -> 97.9 % (half up at 0.1 %)
+    assert ws.cell(hr + 1, col["Valid [%]"]).value == 97.9
+    assert ws.cell(hr + 3, col["Conditions affecting the figures"]).value == (
+        "could not be read: " + doc["inputs"][2]["reason"])
     # status colours of our own: unreadable row gets the lilac fill
-    assert ws.cell(hr + 3, col["Status"]).fill.fgColor.rgb.endswith("D9D2E9")
+    assert ws.cell(hr + 3, col["Data quality"]).fill.fgColor.rgb.endswith("D9D2E9")
     texts = " ".join(str(c.value) for row in ws.iter_rows() for c in row if c.value)
     assert "CAUTIONS" in texts and "competent person" in texts
     skipped = openpyxl.load_workbook(path)["Skipped"]

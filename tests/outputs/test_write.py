@@ -21,6 +21,7 @@ import openpyxl
 import pandas as pd
 import pytest
 
+from surveytools.indicators.reporting import reported_level
 from surveytools.outputs.write import flatten_settings, write_results_workbook
 from tests.outputs.results_fixture import (
     INJECTIONS,
@@ -108,21 +109,21 @@ def test_summary_identity_coverage_status_and_criteria(tmp_path: Path) -> None:
     assert ws.cell(find_label(ws, "Position"), 2).value == "North fence"
     r = find_label(ws, "Survey window (local)")
     # hand-evaluated: "2026-06-10T12:00:00+02:00" -> wall clock 2026-06-10 12:00, offset +02:00
-    assert ws.cell(r, 2).value == datetime(2026, 6, 10, 12, 0)
-    assert ws.cell(r, 4).value == datetime(2026, 6, 12, 12, 0)
-    assert ws.cell(r, 5).value == "UTC +02:00"
+    assert ws.cell(r, 2).value == "2026-06-10 12:00 to 2026-06-12 12:00 (UTC +02:00)"
     cov = ws.cell(find_label(ws, "Data coverage"), 2).value
     # hand-evaluated: 169200 s = 47.0 h valid of 172800 s = 48.0 h; 47/48 = 97.9 %
-    assert cov.startswith("47.0 h valid of 48.0 h measured (97.9%)")
-    assert ws.cell(find_label(ws, "Status"), 2).value == "errors"
-    # criteria: 1 pass, 2 fail in the fixture
-    assert find_label(ws, "1 passed, 2 failed, 0 not checked")
+    assert cov.startswith("47.0 h valid of 48.0 h measured (97.9 % valid)")
+    # verdict first: criteria outcome (2 of the fixture's 3 criteria fail), then data quality
+    assert find_label(ws, "Criteria outcome") == 4
+    assert ws.cell(4, 2).value.startswith("NOT MET - 2 of 3 criteria not met")
+    assert find_label(ws, "Data quality") == 5
+    assert ws.cell(5, 2).value.startswith("with errors")
     fail_row = find_label(ws, "Night LAFmax")
-    assert ws.cell(fail_row, 5).value == "FAIL"
-    assert ws.cell(fail_row, 5).fill.fgColor.rgb.endswith("F8D0C8")
+    assert ws.cell(fail_row, 3).value == "not met"
+    assert ws.cell(fail_row, 3).fill.fgColor.rgb.endswith("F8D0C8")
     # findings by severity: error count uses the full count (3), not the one listed
-    assert ws.cell(find_label(ws, "Errors"), 2).value == 3
-    assert ws.cell(find_label(ws, "Warnings"), 2).value == 1
+    findings = ws.cell(find_label(ws, "Findings"), 2).value
+    assert findings.startswith("Findings: 3 error(s), 1 warning(s)")
 
 
 def test_summary_page_setup_is_one_landscape_a4_page(tmp_path: Path) -> None:
@@ -176,7 +177,8 @@ def test_days_sheet_values_and_insufficient_greyed(tmp_path: Path) -> None:
     doc = build_results_doc()
     ws = openpyxl.load_workbook(write(tmp_path, doc))["Days"]
     headers = [c.value for c in ws[2]]
-    col = {h: i + 1 for i, h in enumerate(headers)}
+    # a header may name the limit of a criterion judged per day ("Lnight [dB] limit 45.0")
+    col = {h.split(" limit ")[0]: i + 1 for i, h in enumerate(headers) if h}
     assert ws.freeze_panes == "B3"
     assert ws.auto_filter.ref is not None
     for i, day in enumerate(doc["days"]):
@@ -185,17 +187,19 @@ def test_days_sheet_values_and_insufficient_greyed(tmp_path: Path) -> None:
         for key, name in (("Lden", "Lden [dB]"), ("Lnight", "Lnight [dB]"),
                           ("LAeq_16h", "LAeq,16h [dB]")):
             cell = ws.cell(r, col[name])
-            assert cell.value == day[key]
+            # the reported value: half up to 0.1 dB (indicators.reporting)
+            assert cell.value == (None if day[key] is None else reported_level(day[key]))
             if day[key] is not None and not day["sufficient"][key]:
                 assert cell.font.i and cell.font.color.rgb.endswith("7F7F7F")
-        assert ws.cell(r, col["Day coverage [%]"]).value == day["coverage"]["day"]
-        assert ws.cell(r, col["Night events above threshold"]).value == \
-            day["night_events"]["count"]
+        assert ws.cell(r, col["Valid day [%]"]).value == reported_level(
+            100 * day["coverage"]["day"])
+        events = next(c for h, c in col.items() if h.startswith("Night LAFmax events"))
+        assert ws.cell(r, events).value == day["night_events"]["count"]
     # fixture day 1: Lday, Lden, Ldn, CNEL, LAeq,16h are None; day 3: Lday 57.9 on 42 % cover
     assert ws.cell(3, col["Note"]).value == \
         "not computed (no valid time): Lday, Lden, Ldn, CNEL, LAeq,16h"
     assert ws.cell(5, col["Note"]).value == (
-        "indicative only (coverage below 75%): Lday; not computed (no valid time): Levening, "
+        "indicative only (coverage below 75 %): Lday; not computed (no valid time): Levening, "
         "Lnight, Lden, Ldn, CNEL, LAeq,16h, LAeq,8h")
     lday = ws.cell(5, col["Lday [dB]"])
     assert lday.value == 57.9 and lday.font.i and lday.font.color.rgb.endswith("7F7F7F")
@@ -215,14 +219,19 @@ def test_intervals_sheet_times_levels_and_exceedance_formatting(tmp_path: Path) 
     assert ws.cell(r, 3).value == "+02:00"
     assert ws.cell(r, 5).value is None  # rain-excluded interval: no level
     assert ws.cell(r, headers.index("Excluded reasons") + 1).value == "rain"
-    assert ws.cell(3, 5).value == doc["intervals"][0]["LAeq"]
+    # one number everywhere: the reported value, half up to 0.1 dB
+    assert ws.cell(3, 5).value == reported_level(doc["intervals"][0]["LAeq"])
     assert ws.cell(3, 5).number_format == "0.0"
-    # the fixture's interval criteria: LAFmax > 60 at night, LAeq > 65 by day
-    rules = [(str(rng.sqref), rule.formula) for rng in ws.conditional_formatting
-             for rule in rng.rules]
-    assert any('"night"' in "".join(f) and "60.0" in "".join(f) for _, f in rules), rules
-    assert any(sq.startswith("F3") for sq, _ in rules)  # LAFmax column
-    assert any(sq.startswith("E3") for sq, _ in rules)  # LAeq column
+    # the fixture's interval criteria (on the reporting intervals): LAFmax > 60 at night,
+    # LAeq > 65 by day. A cell is highlighted exactly when its reported value is above the
+    # limit of a criterion that applies to its period.
+    for i, iv in enumerate(doc["intervals"]):
+        for col, key, limit, period in ((6, "LAFmax", 60.0, "night"), (5, "LAeq", 65.0, "day")):
+            value = iv.get(key)
+            over = (value is not None and iv["period"] == period
+                    and reported_level(value) > limit)
+            fill = ws.cell(3 + i, col).fill.fgColor.rgb
+            assert (str(fill).endswith("F8D0C8")) == over, (i, key)
 
 
 def test_chart_parts_exist_for_time_history_and_daily_levels(tmp_path: Path) -> None:
@@ -256,11 +265,12 @@ def test_injection_strings_arrive_as_text(tmp_path: Path, bad: str) -> None:
     wb = openpyxl.load_workbook(path)
     site = wb["Summary"].cell(find_label(wb["Summary"], "Site"), 2)
     exclusions = wb["Exclusions"]
-    label = exclusions.cell(4, 9)  # second span carries the technician label
+    header = find_label(exclusions, "From")
+    label = exclusions.cell(header + 2, 9)  # second span carries the technician label
     findings = wb["Findings"]
     message = next(row[5] for row in findings.iter_rows(min_row=2)
                if row[1].value == "technician-note")
-    assessments = wb["Assessments"].cell(3, 23)  # the Note column
+    assessments = wb["Assessments"].cell(find_label(wb["Assessments"], "Note"), 2)
     for cell in (site, label, message, assessments):
         assert cell.data_type == "s"
         assert xstring_decode(cell.value) == bad
@@ -297,7 +307,7 @@ def test_none_and_nan_write_empty_cells(tmp_path: Path) -> None:
 def test_unreadable_document_still_writes(tmp_path: Path) -> None:
     wb = openpyxl.load_workbook(write(tmp_path, unreadable_doc()))
     ws = wb["Summary"]
-    assert ws.cell(find_label(ws, "Status"), 2).value == "unreadable"
+    assert ws.cell(find_label(ws, "Data quality"), 2).value.startswith("file could not be read")
     assert wb["Findings"].cell(2, 2).value == "file-not-a-zip"
     assert "No assessment days" in wb["Days"].cell(3, 1).value
 
@@ -309,16 +319,18 @@ def test_unreadable_document_still_writes(tmp_path: Path) -> None:
 def test_exclusions_keep_every_span_and_unplaced_row(tmp_path: Path) -> None:
     doc = build_results_doc()
     ws = openpyxl.load_workbook(write(tmp_path, doc))["Exclusions"]
-    assert [c.value for c in ws[2]][:9] == ["From", "To", "UTC offset", "First row",
-                                            "Last row", "Rows", "Reason", "Scope", "Label"]
+    hr = find_label(ws, "From")
+    assert [c.value for c in ws[hr]][:9] == ["From", "To", "UTC offset", "First row",
+                                             "Last row", "Rows", "Reason", "Scope", "Label"]
     for i, span in enumerate(doc["exclusion_spans"]):
-        r = 3 + i
+        r = hr + 1 + i
         assert ws.cell(r, 1).value == datetime.fromisoformat(span["from"]).replace(tzinfo=None)
         assert (ws.cell(r, 4).value, ws.cell(r, 5).value, ws.cell(r, 6).value) == \
             (span["first_row"], span["last_row"], span["rows"])
         assert ws.cell(r, 7).value == span["reason"]
         assert ws.cell(r, 9).value == span["label"]
-    unplaced = [(ws.cell(3 + i, 11).value, ws.cell(3 + i, 12).value, ws.cell(3 + i, 13).value)
+    unplaced = [(ws.cell(hr + 1 + i, 11).value, ws.cell(hr + 1 + i, 12).value,
+                 ws.cell(hr + 1 + i, 13).value)
                 for i in range(len(doc["unplaced"]))]
     assert unplaced == [(u["row"], u["reason"], u["raw"]) for u in doc["unplaced"]]
 
@@ -341,11 +353,14 @@ def test_background_and_assessments_sheets(tmp_path: Path) -> None:
     wb = openpyxl.load_workbook(write(tmp_path, doc))
     bg = wb["Background"]
     refs = doc["background"]["reference_intervals"]
-    assert [bg.cell(3 + i, 5).value for i in range(len(refs))] == [r["LA90"] for r in refs]
+    hr = find_label(bg, "Start")
+    # reported values: half up to 0.1 dB
+    assert [bg.cell(hr + 1 + i, 5).value for i in range(len(refs))] == [
+        reported_level(r["LA90"]) for r in refs]
     texts = {c.value: c for row in bg.iter_rows() for c in row if isinstance(c.value, str)}
     assert "Method" in texts and "Basis" in texts
     # distribution: union of day and night whole-dB levels, counts per period
-    start = texts["LA90 [dB]"]
+    start = bg.cell(find_label(bg, "LA90 [dB]"), 1)
     rows = []
     r = start.row + 1
     while bg.cell(r, start.column).value is not None:
@@ -355,11 +370,12 @@ def test_background_and_assessments_sheets(tmp_path: Path) -> None:
                     (46, 8, 0), (47, 4, 0)]
     ws = wb["Assessments"]
     a = doc["assessments"][0]
-    headers = [c.value for c in ws[2]]
-    row = {h: ws.cell(3, i + 1).value for i, h in enumerate(headers)}
-    assert row["Specific level [dB]"] == a["specific_level"]
-    assert row["Rating level [dB]"] == a["rating_level"]
-    assert row["Excess over background [dB]"] == a["excess_over_background"]
+    # transposed: one row per figure, one column per assessment
+    assert ws.cell(2, 2).value == a["name"]
+    row = {ws.cell(r, 1).value: ws.cell(r, 2).value for r in range(3, ws.max_row + 1)}
+    assert row["Specific level [dB]"] == reported_level(a["specific_level"])
+    assert row["Rating level [dB]"] == reported_level(a["rating_level"])
+    assert row["Excess over background [dB]"] == reported_level(a["excess_over_background"])
     assert row["Source-on windows"] == "2026-06-11 08:00 to 2026-06-11 12:00"
     # hand-evaluated: 14400 s / 3600 = 4 h
     assert row["Valid time, total [h]"] == 4.0
@@ -478,3 +494,40 @@ def test_libreoffice_reads_injection_text_as_text(tmp_path: Path) -> None:
     with exclusions.open(encoding="utf-8") as fh:
         labels = [r[8] for r in csv.reader(fh) if len(r) > 8]
     assert "@SUM(A1)" in labels
+
+
+def test_hourly_criterion_highlights_hourly_figures_not_reporting_rows(tmp_path: Path) -> None:
+    # A criterion over 1-h intervals is judged on hourly LAeq (its interval_figures); the
+    # 15-min rows are never marked against it, the hourly sheet marks exactly the judged
+    # hours whose reported value is above the limit (hand-built figures below).
+    doc = build_results_doc()
+    doc["criteria"] = [{
+        "name": "Daytime hourly level", "indicator": "LAeq", "period": "day",
+        "limit_db": 56.0, "applies_to": "interval", "interval_s": 3600.0, "checked": 3,
+        "failed": 1, "passed": False,
+        "failures": [{"when": "2026-06-10T13:00:00+02:00", "value": 56.25,
+                      "reported": 56.3, "sufficient": True}],
+        "interval_figures": [
+            {"start": "2026-06-10T12:00:00+02:00", "period": "day", "value": 55.95,
+             "reported": 56.0, "sufficient": True, "judged": True},  # 56.0 is not above 56
+            {"start": "2026-06-10T13:00:00+02:00", "period": "day", "value": 56.25,
+             "reported": 56.3, "sufficient": True, "judged": True},
+            {"start": "2026-06-10T23:00:00+02:00", "period": "night", "value": 58.0,
+             "reported": 58.0, "sufficient": True, "judged": False},  # not in its period
+        ],
+    }]
+    wb = openpyxl.load_workbook(write(tmp_path, doc))
+    intervals = wb["Intervals"]
+    fills = {str(intervals.cell(r, 5).fill.fgColor.rgb) for r in range(3, intervals.max_row + 1)}
+    assert not any(f.endswith("F8D0C8") for f in fills)
+    ws = wb["Hourly"]
+    headers = [c.value for c in ws[2]]
+    col = headers.index("LAeq,1h [dB]") + 1
+    outcome = headers.index("Outcome: Daytime hourly level") + 1
+    got = [(ws.cell(r, col).value, str(ws.cell(r, col).fill.fgColor.rgb).endswith("F8D0C8"),
+            ws.cell(r, outcome).value) for r in (3, 4, 5)]
+    assert got == [(56.0, False, "met"), (56.3, True, "not met"), (58.0, False, None)]
+    # the Summary shows the judged (reported) value of the failure
+    summary = wb["Summary"]
+    row = find_label(summary, "Daytime hourly level")
+    assert "56.3 dB" in summary.cell(row, 6).value

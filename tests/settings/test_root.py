@@ -32,7 +32,7 @@ def test_bad_settings_name_the_key(tmp_path, text, pattern):
 @pytest.mark.parametrize(("text", "seconds"), [
     # ISO 80000-3: 1 h = 3600 s, 1 min = 60 s; hand-evaluated.
     ('"15min"', 900.0), ('"1h"', 3600.0), ('"30s"', 30.0), ('"900s"', 900.0),
-    ("900", 900.0), ('"1.5h"', 5400.0), ('"500ms"', 0.5), ('" 10 min "', 600.0),
+    ("900", 900.0), ('"1.5h"', 5400.0), ('"1500ms"', 1.5), ('" 10 min "', 600.0),
 ])
 def test_duration_spellings(tmp_path, text, seconds):
     s = load_settings(write(tmp_path, f"reporting_interval = {text}\n"))
