@@ -48,6 +48,9 @@ SHEET_NOTE = (
     "1996-2:2007 Annex D). Totals: IEC 61672-1 A and C weights at the exact band "
     "frequencies. The chart's red diamonds mark tonal bands."
 )
+#: Height of a row holding a tonal-correction reason [pt] (three wrapped lines).
+_REASON_ROW_HEIGHT_PT = 47.0
+
 #: Width of the first column [characters] (band numbers, then the row labels below).
 _FIRST_COLUMN_WIDTH = 24.0
 
@@ -197,7 +200,7 @@ def write_spectra_sheet(sw: SheetWriter, wb: Any, doc: Mapping[str, Any],
     row += 2
     row = _write_tones(sw, spectral, row)
     row = _write_band_check(sw, spectral, row)
-    row_end = _write_tonal_bases(sw, doc, row)
+    row_end = _write_tonal_bases(sw, doc, row, last_col)
     sw.fit_columns(minimum=9.0)
     sw.set_width(0, _FIRST_COLUMN_WIDTH)
     sw.set_width(3 + len(columns), _TONAL_IN_WIDTH)
@@ -264,13 +267,16 @@ def _write_band_check(sw: SheetWriter, spectral: Mapping[str, Any], row: int) ->
     sw.text(row, 0, "Band levels against the logged LAeq (A-weighted band total minus LAeq, "
                     "per reporting interval)", "subtitle", measure=False)
     row += 1
-    row = sw.key_values(row, 0, [
-        ("Intervals compared", check.get("intervals")),
-        ("Median difference [dB]", d.level(check.get("median_difference_db"))),
-        ("Median absolute difference [dB]", d.level(check.get("median_absolute_difference_db"))),
-        ("Largest absolute difference [dB]", d.level(check.get("max_absolute_difference_db"))),
-        ("Tolerance [dB]", check.get("tolerance_db")),
-    ])
+    sw.text(row, 0, "Intervals compared", "bold")
+    sw.number(row, 1, check.get("intervals"), "int")
+    row += 1
+    for label, key in (("Median difference [dB]", "median_difference_db"),
+                       ("Median absolute difference [dB]", "median_absolute_difference_db"),
+                       ("Largest absolute difference [dB]", "max_absolute_difference_db"),
+                       ("Tolerance [dB]", "tolerance_db")):
+        sw.text(row, 0, label, "bold")
+        sw.number(row, 1, d.level(check.get(key)), "level")
+        row += 1
     sw.text(row, 0, "Outcome", "bold")
     if check.get("mismatch"):
         sw.text(row, 1, "MISMATCH: check the band columns (Z-weighted? same channel and rows "
@@ -280,7 +286,8 @@ def _write_band_check(sw: SheetWriter, spectral: Mapping[str, Any], row: int) ->
     return row + 2
 
 
-def _write_tonal_bases(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
+def _write_tonal_bases(sw: SheetWriter, doc: Mapping[str, Any], row: int, last_col: int
+                       ) -> int:
     items = [a for a in doc.get("assessments") or [] if isinstance(a.get("tonal_basis"),
                                                                      Mapping)]
     if not items:
@@ -294,7 +301,10 @@ def _write_tonal_bases(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int
         sw.text(row, 0, a.get("name"))
         sw.number(row, 1, d.level((a.get("corrections_db") or {}).get("tonal")), "level")
         sw.text(row, 2, basis.get("source"))
-        sw.text(row, 3, basis.get("reason"), measure=False)
+        reason = str(basis.get("reason") or "")
+        sw.ws.merge_range(row, 3, row, max(last_col, 3), "", sw.styles.get("wrap"))
+        sw.text(row, 3, reason, "wrap", measure=False)
+        sw.ws.set_row(row, _REASON_ROW_HEIGHT_PT)
         row += 1
     return row + 1
 
