@@ -24,7 +24,7 @@ from pathlib import Path
 from typing import Any
 
 from surveytools import __version__
-from surveytools.inputs.kinds import CSV_SUFFIXES, WORKBOOK_SUFFIXES
+from surveytools.inputs.kinds import CSV_SUFFIXES, PARQUET_SUFFIXES, WORKBOOK_SUFFIXES
 
 #: Name prefixes of lock / temporary / metadata files left by spreadsheet programs and
 #: file systems (Office owner files, LibreOffice locks, macOS AppleDouble files).
@@ -137,7 +137,7 @@ def discover(paths: list[Path]) -> tuple[list[Candidate], list[Skipped]]:
     """Expand files and folders into input candidates; everything else is reported skipped."""
     found: list[Candidate] = []
     skipped: list[Skipped] = []
-    suffixes = WORKBOOK_SUFFIXES + CSV_SUFFIXES
+    suffixes = WORKBOOK_SUFFIXES + CSV_SUFFIXES + PARQUET_SUFFIXES
 
     def consider(p: Path, explicit: bool) -> None:
         try:
@@ -161,7 +161,7 @@ def discover(paths: list[Path]) -> tuple[list[Candidate], list[Skipped]]:
         if p.suffix.lower() not in suffixes:
             if explicit:
                 skipped.append(Skipped(str(p), "not-a-survey-file",
-                                       "not an .xlsx, .xlsm or .csv file"))
+                                       "not an .xlsx, .xlsm, .csv or .parquet file"))
             return
         found.append(Candidate(p, st.st_size, st.st_mtime_ns, from_folder=not explicit))
 

@@ -44,7 +44,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     def common(p: argparse.ArgumentParser) -> None:
         p.add_argument("paths", nargs="+", type=Path, metavar="PATH",
-                       help="survey workbooks (.xlsx, .xlsm, .csv) or folders holding them")
+                       help="survey workbooks (.xlsx, .xlsm, .csv, .parquet) or folders "
+                            "holding them")
         p.add_argument("--settings", type=Path, metavar="FILE", help="settings file (TOML)")
         p.add_argument("--jobs", type=int, default=os.cpu_count() or 1, metavar="N",
                        help="inputs processed at once (default: number of cores)")
@@ -117,6 +118,10 @@ def build_parser() -> argparse.ArgumentParser:
                           help="name of the workbook to write (must end in .xlsx)")
     template.add_argument("--force", action="store_true",
                           help="replace an existing file of that name")
+
+    from surveytools.archive.command import add_parser as add_archive_parser
+
+    add_archive_parser(sub)
     return parser
 
 
@@ -212,7 +217,24 @@ def _render_findings(out: TextIO, outcome: dict[str, Any], limit: int | None) ->
             break
 
 
-def _summary_line(counts: dict[str, int], verb: str) -> str:
+def _summary_line(counts: dict[str, int], verb: str,
+                  outcomes: list[dict[str, Any]] | None = None) -> str:
+    """Return the closing line of a run or check.
+
+    With ``outcomes`` (a run), the counts are the data quality each input's verdict states
+    (so the line agrees with the per-input lines and the Summary), led by how many
+    positions did not meet their criteria.
+    """
+    counts = dict(counts)
+    not_met = 0
+    if outcomes is not None:
+        for o in outcomes:
+            verdict = (o.get("overview") or {}).get("verdict") or {}
+            quality = verdict.get("data_quality")
+            if quality in counts and quality != o["status"]:
+                counts[o["status"]] -= 1
+                counts[quality] += 1
+            not_met += bool(verdict.get("criteria_not_met"))
     total = sum(counts.values()) - counts.get("skipped", 0)
     parts = [f"{counts.get('ok', 0)} ok", f"{counts.get('warnings', 0)} with warnings",
              f"{counts.get('errors', 0)} with errors", f"{counts.get('unreadable', 0)} unreadable"]
@@ -220,7 +242,12 @@ def _summary_line(counts: dict[str, int], verb: str) -> str:
         parts.append(f"{counts['deferred']} deferred")
     if counts.get("skipped"):
         parts.append(f"{counts['skipped']} skipped")
-    return f"{verb} {total} file{'s' if total != 1 else ''}: " + ", ".join(parts)
+    head = f"{verb} {total} file{'s' if total != 1 else ''}: "
+    if outcomes is None:
+        return head + ", ".join(parts)
+    criteria = (f"criteria not met at {not_met} of {len(outcomes)} "
+                f"input{'s' if len(outcomes) != 1 else ''}; ")
+    return head + criteria + "data quality " + ", ".join(parts)
 
 
 def _batch_options(args: argparse.Namespace, mode: str) -> Any:
@@ -284,7 +311,7 @@ def _run_cycles(args: argparse.Namespace, out: TextIO, err: TextIO, options: Any
         else:
             changed = _report_cycle(out, result, later_poll, told)
             if changed or not later_poll:
-                out.write(_summary_line(result.counts(), "Processed")
+                out.write(_summary_line(result.counts(), "Processed", result.outcomes)
                           + f". Results in {options.out_dir}/ (overview.xlsx).\n")
             if args.watch and cycles == 1:
                 out.write(f"Watching {', '.join(str(p) for p in options.paths)} for new or "
@@ -387,6 +414,10 @@ def execute(args: argparse.Namespace, out: TextIO | None = None,
             return execute_run(args, out, err)
         if args.command == "check":
             return execute_check(args, out, err)
+        if args.command == "archive":
+            from surveytools.archive.command import execute_archive
+
+            return execute_archive(args, out, err)
         if args.command == "verify":
             from surveytools.verify import execute_verify
 

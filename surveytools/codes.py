@@ -52,6 +52,8 @@ CODES: dict[str, Code] = {
                                            "safety checks"),
     "csv-encoding": Code("error", "file", "a CSV file that is not UTF-8"),
     "csv-unreadable": Code("error", "file", "a malformed CSV file"),
+    "parquet-unreadable": Code("error", "file", "a Parquet file that cannot be read (damaged, "
+                               "too large once read, a column of an unusable type)"),
     "worker-timeout": Code("error", "file", "processing took longer than the time limit"),
     "worker-out-of-memory": Code("error", "file", "reading needed more memory than allowed"),
     "worker-killed": Code("error", "file", "processing was stopped by a CPU-time or kill "
@@ -73,7 +75,8 @@ CODES: dict[str, Code] = {
     "not-regular-file": Code("info", "batch", "a link, pipe or device in the folder: skipped"),
     "lock-or-temp-file": Code("info", "batch", "a lock or temporary file of a spreadsheet "
                                                "program: skipped"),
-    "not-a-survey-file": Code("info", "batch", "not an .xlsx, .xlsm or .csv file: skipped"),
+    "not-a-survey-file": Code("info", "batch", "not an .xlsx, .xlsm, .csv or .parquet file: "
+                                               "skipped"),
     "file-changing": Code("warning", "batch", "still being copied: deferred to the next run"),
     # --- sheets and columns ----------------------------------------------------------------
     "readings-sheet-missing": Code("error", "file", "no readings sheet found"),

@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from surveytools.errors import WorkbookError
-from surveytools.inputs.kinds import CSV_SUFFIXES
+from surveytools.inputs.kinds import CSV_SUFFIXES, PARQUET_SUFFIXES
 from surveytools.inputs.source import source_info
 from surveytools.provenance import SourceInfo
 from surveytools.settings import Settings
@@ -50,6 +50,10 @@ def _read_raw(path: Path, settings: Settings, source: SourceInfo,
         from surveytools.inputs.csv_input import read_csv_table
 
         return read_csv_table(path, settings)
+    if path.suffix.lower() in PARQUET_SUFFIXES:
+        from surveytools.inputs.parquet_input import read_parquet_table
+
+        return read_parquet_table(path, settings)
     from surveytools.inputs.read import read_workbook
 
     return read_workbook(path, settings, source=source, overlap_scan=overlap_scan,

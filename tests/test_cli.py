@@ -411,3 +411,22 @@ def test_terminal_line_is_verdict_first_with_the_reported_figures() -> None:
     assert _headline(outcome) == ("criteria: 4 of 4 criteria not met; data quality: ok; "
                                   "position KL-2; Lden 58.7 dB (survey average); "
                                   "94.2 % of 168.0 h valid")
+
+
+def test_closing_line_agrees_with_each_inputs_verdict() -> None:
+    # Hand-made outcomes: one input whose findings are clean but whose verdict lists a
+    # warning that affects the figures and 2 criteria not met; one clean input.
+    from surveytools.cli import _summary_line
+
+    outcomes = [
+        {"status": "ok", "overview": {"verdict": {"data_quality": "warnings",
+                                                 "criteria_not_met": 2}}},
+        {"status": "ok", "overview": {"verdict": {"data_quality": "ok",
+                                                 "criteria_not_met": 0}}},
+    ]
+    counts = {"ok": 2, "warnings": 0, "errors": 0, "unreadable": 0, "skipped": 0,
+              "deferred": 0}
+    line = _summary_line(counts, "Processed", outcomes)
+    assert line == ("Processed 2 files: criteria not met at 1 of 2 inputs; data quality "
+                    "1 ok, 1 with warnings, 0 with errors, 0 unreadable")
+    assert counts["ok"] == 2  # the caller's counts (exit code) are not changed

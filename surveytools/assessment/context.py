@@ -301,13 +301,14 @@ class Context:
         mask = self.valid if scope == "all" else self.valid_background
         return valid_pieces_of(pieces, self.piece_levels(pieces), mask)
 
-    def grouped_laeq(self, bounds_ms: IntArray) -> tuple[FloatArray, FloatArray] | None:
-        """LAeq and valid time [s] of each interval of ``bounds_ms``, from segment sums.
+    def grouped_energy(self, bounds_ms: IntArray) -> SegmentEnergy | None:
+        """Relative energy and valid time [ms] of each interval of ``bounds_ms``.
 
         The valid pieces' energies are summed once per segment of the shared union grid;
         an interval of a grid of union instants is a run of those segments, so its sums
-        come from them without another pass over the pieces. None when ``bounds_ms`` is
-        not such a grid (the caller then groups the pieces itself).
+        come from them without another pass over the pieces (and, being sums, they add
+        up over parts of a log: :mod:`surveytools.assessment.parts`). None when
+        ``bounds_ms`` is not such a grid (the caller then groups the pieces itself).
         """
         if self.split is None or not self._in_union(bounds_ms):
             return None
@@ -318,8 +319,19 @@ class Context:
         group_energy = np.bincount(group[inside], weights=sums.energy[inside],
                                    minlength=n_groups)
         group_ms = np.bincount(group[inside], weights=sums.time_ms[inside], minlength=n_groups)
-        return (level_from_energy_sums(group_energy, group_ms, sums.reference_db),
-                group_ms / MS_PER_S)
+        return SegmentEnergy(group_energy.astype(np.float64), group_ms.astype(np.float64),
+                             sums.reference_db)
+
+    def grouped_laeq(self, bounds_ms: IntArray) -> tuple[FloatArray, FloatArray] | None:
+        """LAeq and valid time [s] of each interval of ``bounds_ms``, from segment sums.
+
+        See :meth:`grouped_energy`; None when ``bounds_ms`` is not a grid of union instants.
+        """
+        sums = self.grouped_energy(bounds_ms)
+        if sums is None:
+            return None
+        return (level_from_energy_sums(sums.energy, sums.time_ms, sums.reference_db),
+                sums.time_ms / MS_PER_S)
 
     def total_laeq(self) -> float | None:
         """LAeq over all valid time, from the segment sums; None before the split."""

@@ -12,6 +12,7 @@ of the configured scheme (``scheme_hours``), as the Directive's formula does.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import date, tzinfo
 from typing import Any
 
 import numpy as np
@@ -34,7 +35,7 @@ from surveytools.indicators.levels import (
     grouped_valid_duration,
 )
 from surveytools.indicators.periods import penalised_day_evening_night, scheme_hours
-from surveytools.settings import PeriodScheme
+from surveytools.settings import PeriodScheme, Settings
 
 #: Periods of a scheme, in order.
 PERIOD_NAMES = ("day", "evening", "night")
@@ -144,8 +145,14 @@ def penalised(levels: FloatArray, scheme: PeriodScheme) -> FloatArray:
 
 def all_scheme_times(ctx: Context) -> list[list[str]]:
     """Local start times of every scheme: Lden, Ldn, CNEL and the 16 h / 8 h pair."""
-    p = ctx.settings.periods
-    return [scheme_times(p.lden), scheme_times(p.ldn), scheme_times(p.cnel), _pair_times(ctx)]
+    return scheme_times_of(ctx.settings)
+
+
+def scheme_times_of(settings: Settings) -> list[list[str]]:
+    """Local start times of every scheme of the settings (see :func:`all_scheme_times`)."""
+    p = settings.periods
+    return [scheme_times(p.lden), scheme_times(p.ldn), scheme_times(p.cnel),
+            [p.laeq16_start, p.laeq16_end, p.laeq16_end]]
 
 
 def _pair_times(ctx: Context) -> list[str]:
@@ -156,10 +163,15 @@ def _pair_times(ctx: Context) -> list[str]:
 
 def period_of_instants(ctx: Context, instants_ms: IntArray) -> list[str]:
     """Lden period (``day``/``evening``/``night``) holding each instant."""
-    if not ctx.candidate_days:
+    return lden_period_names(ctx.candidate_days, ctx.settings, ctx.tz, instants_ms)
+
+
+def lden_period_names(days: list[date], settings: Settings, tz: tzinfo, instants_ms: IntArray
+                      ) -> list[str]:
+    """Lden period (``day``/``evening``/``night``) of each instant, on candidate ``days``."""
+    if not days:
         return []
-    bounds = day_offset_boundaries(ctx.candidate_days, scheme_times(ctx.settings.periods.lden),
-                                   ctx.tz)
+    bounds = day_offset_boundaries(days, scheme_times(settings.periods.lden), tz)
     segment = np.searchsorted(bounds, instants_ms, side="right")
     names = np.array(PERIOD_NAMES, dtype=object)
     return list(names[(segment - 1) % N_PERIODS])
@@ -172,12 +184,24 @@ def night_events(ctx: Context, bounds_ms: IntArray, n_days: int) -> tuple[IntArr
     highest is NaN with fewer than N night readings. A reading belongs to the period
     holding its start.
     """
+    counts, highest = night_highest(ctx, bounds_ms, n_days)
+    return counts, highest[:, -1]
+
+
+def night_highest(ctx: Context, bounds_ms: IntArray, n_days: int) -> tuple[IntArray, FloatArray]:
+    """Night LAFmax events and the N highest night LAFmax values, per candidate day.
+
+    Returns the count of night readings above the threshold and a ``(n_days, N)`` table of
+    the highest values in descending order (NaN where a night has fewer readings); both
+    merge over parts of a log (counts add, the tables' N highest of the union).
+    """
     events = ctx.settings.events
+    n = int(events.nth_highest)
     lafmax = ctx.level("LAFmax")
     counts = np.zeros(n_days, dtype=np.int64)
-    nth = np.full(n_days, np.nan)
+    highest = np.full((n_days, n), np.nan)
     if lafmax is None or ctx.n == 0:
-        return counts, nth
+        return counts, highest
     group = segment_groups(np.searchsorted(bounds_ms, ctx.start_ms, side="right"),
                            n_days * N_PERIODS)
     in_night = ctx.valid & np.isfinite(lafmax) & (group >= 0) & (group % N_PERIODS == 2)
@@ -193,18 +217,43 @@ def night_events(ctx: Context, bounds_ms: IntArray, n_days: int) -> tuple[IntArr
     per_day = np.bincount(day_sorted, minlength=n_days)
     first = np.cumsum(per_day) - per_day
     rank = np.arange(day_sorted.size) - first[day_sorted]
-    pick = rank == events.nth_highest - 1
-    nth[day_sorted[pick]] = values[order][pick]
-    return counts.astype(np.int64), nth
+    pick = rank < n
+    highest[day_sorted[pick], rank[pick]] = values[order][pick]
+    return counts.astype(np.int64), highest
 
 
 def days_section(ctx: Context, schemes: SchemeResults | None) -> list[dict[str, Any]]:
     """One entry per assessment day touched by readings (``schemes`` None without any)."""
     if ctx.n == 0 or schemes is None:
         return []
-    periods = ctx.settings.periods
-    threshold = ctx.settings.coverage_threshold
+    counts, nth = night_events(ctx, schemes.lden.bounds_ms, len(ctx.candidate_days))
+    return day_entries(ctx.candidate_days, ctx.settings, schemes,
+                       (counts, nth) if ctx.level("LAFmax") is not None else None)
+
+
+def day_entries(days: list[date], settings: Settings, schemes: SchemeResults,
+                events: tuple[IntArray, FloatArray] | None) -> list[dict[str, Any]]:
+    """Day entries from the scheme results of candidate days (shared by ``run`` and archive).
+
+    Parameters
+    ----------
+    days : list of date
+        Candidate days the scheme results are laid out on.
+    settings : Settings
+        Periods, coverage threshold and night-event settings.
+    schemes : SchemeResults
+        Lden, Ldn, CNEL and the 16 h / 8 h pair, per candidate day.
+    events : (counts, nth highest) or None
+        Night LAFmax events per candidate day; None without an LAFmax column.
+
+    Returns
+    -------
+    list of dict
+        One entry per day touched by readings (the ``days`` section of the results).
+    """
     lden, ldn, cnel, pair = schemes.lden, schemes.ldn, schemes.cnel, schemes.pair
+    periods = settings.periods
+    threshold = settings.coverage_threshold
     values = {
         "Lday": lden.level_db[:, 0],
         "Levening": lden.level_db[:, 1],
@@ -239,13 +288,14 @@ def days_section(ctx: Context, schemes: SchemeResults | None) -> list[dict[str, 
         "LAeq_16h": enough(pair.coverage[:, :1], pair.length_s[:, :1]),
         "LAeq_8h": enough(pair.coverage[:, 2:], pair.length_s[:, 2:]),
     }
-    n_days = len(ctx.candidate_days)
-    counts, nth = night_events(ctx, lden.bounds_ms, n_days)
-    has_lafmax = ctx.level("LAFmax") is not None
-    events = ctx.settings.events
+    n_days = len(days)
+    has_lafmax = events is not None
+    counts, nth = events if events is not None else (
+        np.zeros(n_days, dtype=np.int64), np.full(n_days, np.nan))
+    night = settings.events
     out: list[dict[str, Any]] = []
     for d in np.flatnonzero(lden.touched):
-        entry: dict[str, Any] = {"date": ctx.candidate_days[d].isoformat()}
+        entry: dict[str, Any] = {"date": days[d].isoformat()}
         for key, value_list in lists.items():
             entry[key] = value_list[d]
         entry["coverage"] = {key: fraction(c[d]) for key, c in cover.items()}
@@ -255,10 +305,10 @@ def days_section(ctx: Context, schemes: SchemeResults | None) -> list[dict[str, 
         }
         entry["sufficient"] = {key: bool(flags[d]) for key, flags in sufficient.items()}
         entry["night_events"] = {
-            "threshold_db": float(events.night_lafmax_threshold_db),
+            "threshold_db": float(night.night_lafmax_threshold_db),
             "count": int(counts[d]) if has_lafmax else None,
             "nth_highest_LAFmax": db(nth[d]),
-            "n": int(events.nth_highest),
+            "n": int(night.nth_highest),
         }
         out.append(entry)
     return out

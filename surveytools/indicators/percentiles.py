@@ -48,9 +48,11 @@ __all__ = [
     "combine_logged_levels",
     "exceedance_level",
     "exceedance_levels",
+    "exceedance_levels_from_step_times",
     "grouped_exceedance_levels",
     "integer_weights",
     "level_order",
+    "level_step_times",
     "whole_db_distribution",
 ]
 
@@ -493,7 +495,14 @@ def _histogram_levels(
         return None
     cell = group_index * n_steps + (steps - low)
     time_per_step = np.bincount(cell, weights=weights, minlength=n_groups * n_steps)
-    time_per_step = time_per_step.astype(np.int64).reshape(n_groups, n_steps)
+    return _levels_from_step_times(time_per_step.astype(np.int64).reshape(n_groups, n_steps),
+                                   low, steps_per_db, targets)
+
+
+def _levels_from_step_times(time_per_step: IntArray, low: int, steps_per_db: float,
+                            targets: list[Target]) -> FloatArray:
+    """LN per row of a (groups, level steps) table of whole time; step ``k`` is ``low + k``."""
+    n_groups = time_per_step.shape[0]
     cumulative = np.cumsum(time_per_step, axis=1)
     totals = cumulative[:, -1]
     has_samples = totals > 0
@@ -508,6 +517,89 @@ def _histogram_levels(
         step = np.argmax(occupied & (cumulative >= threshold[:, None]), axis=1)
         out[has_samples, column] = (low + step) / steps_per_db
     return out
+
+
+def level_step_times(
+    levels_db: ArrayLike, durations: ArrayLike, groups: ArrayLike, n_groups: int,
+    first_step: int, n_steps: int, steps_per_db: float,
+) -> IntArray:
+    r"""Time spent at each level step, per group: counts that merge by addition.
+
+    Each level is taken to its nearest step ``k = round(L * steps_per_db)`` (exact for
+    levels logged on that grid); steps below ``first_step`` or beyond the table are
+    clamped to its ends. Tables of disjoint sets of samples add up to the table of their
+    union, so LN over any union of parts follows from
+    :func:`exceedance_levels_from_step_times` without the samples.
+
+    Parameters
+    ----------
+    levels_db : array-like
+        Sample levels; non-finite ones are left out. [dB]
+    durations : array-like
+        Time each sample represents, read as :func:`integer_weights` reads it (whole
+        milliseconds stay as they are); non-positive or non-finite ones are left out.
+    groups : array-like of int
+        Group per sample, ``0 .. n_groups-1``; -1: in no group.
+    n_groups, first_step, n_steps : int
+        Table shape and the step of its first column.
+    steps_per_db : float
+        Steps per decibel (10 for 0.1 dB steps). [1/dB]
+
+    Returns
+    -------
+    numpy.ndarray of int64
+        Whole time per (group, step), shape ``(n_groups, n_steps)``.
+
+    References
+    ----------
+    .. [1] ISO 1996-1:2016, N percent exceedance level (time above a level).
+    """
+    levels = as_float_array(levels_db).ravel()
+    weights = integer_weights(durations)
+    group_index = np.asarray(groups, dtype=np.int64).ravel()
+    keep = (np.isfinite(levels) & (weights > 0) & (group_index >= 0)
+            & (group_index < n_groups))
+    steps = np.clip(np.rint(levels[keep] * steps_per_db).astype(np.int64) - first_step,
+                    0, n_steps - 1)
+    cell = group_index[keep] * n_steps + steps
+    table = np.bincount(cell, weights=weights[keep], minlength=n_groups * n_steps)
+    return table.astype(np.int64).reshape(n_groups, n_steps)
+
+
+def exceedance_levels_from_step_times(
+    time_per_step: ArrayLike, first_step: int, steps_per_db: float, percents: ArrayLike
+) -> FloatArray:
+    r"""Exceedance levels LN from the time spent at each level step.
+
+    The same convention as :func:`exceedance_levels` (the lowest occupied step whose
+    cumulative time reaches ``1 - N/100`` of the total, decided exactly in whole time), on
+    a table from :func:`level_step_times` (possibly summed over parts).
+
+    Parameters
+    ----------
+    time_per_step : array-like of int
+        Whole time per (group, step); one row per group (a 1-D table is one group).
+    first_step : int
+        Step of the first column (level ``first_step / steps_per_db``).
+    steps_per_db : float
+        Steps per decibel. [1/dB]
+    percents : array-like
+        The N values. [%]
+
+    Returns
+    -------
+    numpy.ndarray
+        LN per group and percent, shape ``(n_groups, n_percents)``; NaN for a group
+        without time. [dB]
+
+    References
+    ----------
+    .. [1] ISO 1996-1:2016, N percent exceedance level.
+    .. [2] design.md §5 (the convention pinned here).
+    """
+    table = np.atleast_2d(np.asarray(time_per_step, dtype=np.int64))
+    return _levels_from_step_times(table, int(first_step), float(steps_per_db),
+                                   _targets(percents))
 
 
 def whole_db_distribution(values_db: ArrayLike) -> tuple[FloatArray, NDArray[np.int64]]:

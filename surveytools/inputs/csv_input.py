@@ -181,6 +181,12 @@ def _convert(raw: pd.Series, header: str, letter: str, name: str | None) -> RawC
     return RawColumn(header, letter, "text", texts.astype(object))
 
 
+def convert_text_column(raw: pd.Series, header: str, letter: str, name: str | None
+                        ) -> RawColumn:
+    """Convert one column of text cells to its kind (shared with the Parquet reader)."""
+    return _convert(raw, header, letter, name)
+
+
 def _cells(raw: pd.Series, bad: pd.Series) -> dict[int, str]:
     idx = np.flatnonzero(bad.to_numpy(dtype=bool))
     texts = raw.to_numpy(dtype=object)[idx]

@@ -6,3 +6,5 @@ from __future__ import annotations
 WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
 #: Suffixes read as a CSV readings table.
 CSV_SUFFIXES = (".csv",)
+#: Suffixes read as a Parquet readings table.
+PARQUET_SUFFIXES = (".parquet",)

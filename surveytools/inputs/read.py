@@ -718,6 +718,11 @@ def _choose_dtype(header: Any, sample: Sequence[Any], vocabulary: Mapping[str, S
     return kind if sum(counts.values()) == top else "string"
 
 
+def arrow_to_column(arr: Any, header: str, letter: str, date_system: int) -> RawColumn:
+    """Convert one typed Arrow column to a RawColumn (shared with the Parquet reader)."""
+    return _arrow_to_column(arr, header, letter, date_system)
+
+
 def _arrow_to_column(arr: Any, header: str, letter: str, date_system: int) -> RawColumn:
     import pandas as pd
     import pyarrow as pa

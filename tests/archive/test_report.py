@@ -1,0 +1,182 @@
+"""``archive report``: long-term figures on a local Dask cluster, equal to ``run``'s days."""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+import openpyxl
+import pytest
+
+from surveytools.outputs.archive_report import validate_archive_report
+from tests.archive.archive_inputs import cli, demo_folder, write_csv_log, write_settings
+
+
+@pytest.fixture(scope="module")
+def demo_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    return demo_folder(tmp_path_factory)
+
+DAY_LEVELS = ("Lday", "Levening", "Lnight", "Lden", "Ldn", "CNEL", "LAeq_16h", "LAeq_8h")
+
+
+def _report(archive: Path | str, out: Path, *extra: str) -> dict:
+    code, stdout, err = cli("archive", "report", str(archive), "-o", str(out), "--workers",
+                            "1", "--quiet", *extra)
+    assert code == 0, (stdout, err)
+    doc = json.loads((out / "archive-report.json").read_text(encoding="utf-8"))
+    assert validate_archive_report(doc) == []
+    return doc
+
+
+def _close(a: object, b: object) -> bool:
+    if isinstance(a, dict) and isinstance(b, dict):
+        return a.keys() == b.keys() and all(_close(a[k], b[k]) for k in a)
+    if isinstance(a, float) and isinstance(b, float):
+        return math.isclose(a, b, abs_tol=0.01)
+    return a == b
+
+
+@pytest.fixture(scope="module")
+def demo_archive(demo_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> Path:
+    archive = tmp_path_factory.mktemp("archive") / "archive"
+    code, out, err = cli("archive", "add", str(demo_dir), "--archive", str(archive),
+                         "--settings", str(demo_dir / "settings.toml"))
+    assert code == 0, (out, err)
+    return archive
+
+
+def test_archive_of_the_demo_reports_runs_days(demo_dir, demo_archive, tmp_path):
+    # The acceptance rule of the archive: per-day figures equal those of 'run' on the same
+    # inputs and settings (0.01 dB), every key of run's days.
+    settings = str(demo_dir / "settings.toml")
+    code, out, err = cli("run", str(demo_dir), "-o", str(tmp_path / "run"), "--settings",
+                         settings, "--quiet", "--jobs", "1")
+    assert code in (0, 1), (out, err)
+    run_days = {}
+    for path in (tmp_path / "run").glob("*.results.json"):
+        doc = json.loads(path.read_text(encoding="utf-8"))
+        run_days[doc["survey"]["position"]] = doc["days"]
+    report = _report(demo_archive, tmp_path / "report", "--settings", settings)
+    archive_days = {p["position"]: p["days"] for p in report["positions"]}
+    assert archive_days.keys() == run_days.keys() == {"KL-1", "KL-2", "KL-3"}
+    for position, days in run_days.items():
+        assert [d["date"] for d in archive_days[position]] == [d["date"] for d in days]
+        for mine, theirs in zip(archive_days[position], days, strict=True):
+            assert _close(mine, theirs), (position, mine, theirs)
+
+
+def test_report_workbook_has_every_sheet_and_the_cautions(demo_dir, demo_archive, tmp_path):
+    _report(demo_archive, tmp_path, "--settings", str(demo_dir / "settings.toml"))
+    book = openpyxl.load_workbook(tmp_path / "archive-report.xlsx")
+    assert book.sheetnames == ["Summary", "Charts", "Years", "Months", "Days", "Levels",
+                               "Criteria"]
+    text = " ".join(str(c.value) for row in book["Summary"].iter_rows() for c in row
+                    if c.value)
+    assert "indicative" in text and "competent person" in text and "hearing" in text
+    assert len(book["Charts"]._charts) == 6  # months and years of three positions
+    days = list(book["Days"].iter_rows(values_only=True))
+    assert days[0][:3] == ("Position", "Date", "Lday [dB]")
+    assert len(days) == 1 + 8 + 8 + 1
+
+
+@pytest.fixture(scope="module")
+def july_archive(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path]:
+    """A month of 1-minute readings alternating 60.0 / 40.0 dB from 2026-07-01 07:00."""
+    folder = tmp_path_factory.mktemp("july")
+    levels = np.tile([60.0, 40.0], 31 * 1440 // 2)
+    log = write_csv_log(folder / "mast.csv", "2026-07-01 07:00:00", 31, 60, levels)
+    criteria = (
+        '[[criteria]]\nname = "Night"\nindicator = "Lnight"\nlimit_db = 55.0\n'
+        '[[criteria]]\nname = "Quarter hours"\nindicator = "LAeq"\nperiod = "day"\n'
+        'limit_db = 57.0\n')
+    settings = write_settings(folder / "settings.toml", "Mast", criteria)
+    archive = folder / "archive"
+    assert cli("archive", "add", str(log), "--archive", str(archive), "--settings",
+               str(settings))[0] == 0
+    return archive, settings
+
+
+def test_month_and_year_figures_by_hand(july_archive, tmp_path):
+    archive, settings = july_archive
+    doc = _report(archive, tmp_path, "--settings", str(settings))
+    (mast,) = doc["positions"]
+    # Hand-evaluated: equal time at 60 and 40 dB in every period (whole minutes, even
+    # counts from 07:00): L = 10 lg((10^6 + 10^4)/2) = 10 lg(505000) = 57.03 dB.
+    # Lden (Directive 2002/49/EC Annex I, 12/4/8 h, +5/+10 dB):
+    #   57.03 + 10 lg((12 + 4*10^0.5 + 8*10)/24) = 57.03 + 10 lg(4.36038) = 57.03 + 6.40
+    #   = 63.43 dB; Ldn (15/9 h, +10 dB): 57.03 + 10 lg((15 + 90)/24) = 57.03 + 6.41 = 63.44.
+    (july,) = mast["months"]
+    assert july["month"] == "2026-07"
+    for key in ("Lday", "Levening", "Lnight"):
+        assert july[key] == pytest.approx(57.03, abs=0.005)
+    assert july["Lden"] == pytest.approx(63.43, abs=0.01)
+    assert july["Ldn"] == pytest.approx(63.44, abs=0.01)
+    assert july["coverage"] == {"day": 1.0, "evening": 1.0, "night": 1.0}
+    assert july["sufficient"] is True and july["days_with_data"] == 31
+    (year,) = mast["years"]
+    assert year["year"] == 2026 and year["Lden"] == pytest.approx(63.43, abs=0.01)
+    # 31 of 365 assessment days of 2026 hold readings: coverage 31/365 = 0.0849
+    assert year["coverage"]["night"] == pytest.approx(31 / 365, abs=1e-4)
+    assert year["sufficient"] is False
+    # LN (design §5): 50 % of the time strictly above 40 dB -> L50 = 40; L10 = 60; L90 = 40
+    assert {k: mast["levels"]["night"][k] for k in ("LA10", "LA50", "LA90")} == {
+        "LA10": 60.0, "LA50": 40.0, "LA90": 40.0}
+    assert mast["levels"]["night"]["valid_s"] == 31 * 8 * 3600
+    night, quarters = mast["criteria"]
+    # every night (57.0 dB) is above 55 dB
+    assert (night["applies_to"], night["checked"], night["above"]) == ("day", 31, 31)
+    # Quarter hours of the day period alternate between 8 x 60 + 7 x 40 dB
+    # (10 lg((8e6 + 7e4)/15) = 57.31 dB, above 57) and 7 x 60 + 8 x 40 dB (56.74 dB):
+    # 48 quarter hours a day, half of them above, 31 days -> 744 of 1488.
+    assert (quarters["applies_to"], quarters["checked"], quarters["above"]) == (
+        "interval", 1488, 744)
+
+
+def test_date_range_and_position_filter(july_archive, tmp_path):
+    archive, settings = july_archive
+    doc = _report(archive, tmp_path, "--settings", str(settings), "--from", "2026-07-10",
+                  "--to", "2026-07-19", "--position", "Mast")
+    (mast,) = doc["positions"]
+    assert [d["date"] for d in mast["days"]] == [f"2026-07-{d}" for d in range(10, 20)]
+    (july,) = mast["months"]
+    assert (july["from"], july["to"], july["days_with_data"]) == ("2026-07-10", "2026-07-19", 10)
+    assert july["coverage"]["day"] == 1.0
+    other = _report(archive, tmp_path / "none", "--position", "Elsewhere")
+    assert other["positions"] == []
+    assert any("Elsewhere" in c for c in other["cautions"])
+
+
+def test_report_of_a_folder_without_an_archive_is_refused(tmp_path):
+    code, _, err = cli("archive", "report", str(tmp_path), "-o", str(tmp_path / "o"))
+    assert code == 2 and "no archive here" in err
+    code, _, err = cli("archive", "report", str(tmp_path), "-o", str(tmp_path / "o"),
+                       "--from", "July")
+    assert code == 2 and "YYYY-MM-DD" in err
+
+
+def test_a_damaged_partition_is_a_problem_and_the_rest_is_reported(tmp_path):
+    settings = write_settings(tmp_path / "s.toml", "Mast")
+    log = write_csv_log(tmp_path / "two_months.csv", "2026-07-25 07:00:00", 14, 600, 50.0)
+    archive = tmp_path / "archive"
+    assert cli("archive", "add", str(log), "--archive", str(archive), "--settings",
+               str(settings))[0] == 0
+    (july,) = (archive / "readings").rglob("month=2026-07/*.parquet")
+    july.write_bytes(b"not parquet any more")
+    code, out, _ = cli("archive", "report", str(archive), "-o", str(tmp_path / "out"),
+                       "--settings", str(settings), "--workers", "1", "--quiet")
+    assert code == 1
+    assert "problem: position Mast, month 2026-07: could not be read" in out
+    doc = json.loads((tmp_path / "out" / "archive-report.json").read_text(encoding="utf-8"))
+    assert [m["month"] for m in doc["positions"][0]["months"]] == ["2026-07", "2026-08"]
+    assert doc["positions"][0]["days"][0]["date"] == "2026-07-31"
+
+
+def test_an_fsspec_url_reads_the_same_archive(july_archive, tmp_path):
+    # fsspec's "file://" protocol stands in for a remote filesystem (s3:// needs s3fs).
+    archive, settings = july_archive
+    by_path = _report(archive, tmp_path / "path", "--settings", str(settings))
+    by_url = _report(archive.as_uri(), tmp_path / "url", "--settings", str(settings))
+    assert by_url["archive"]["location"].startswith("file:///")
+    assert by_url["positions"] == by_path["positions"]

@@ -1,0 +1,185 @@
+#!/usr/bin/env python3
+"""Archive and large-log benchmark (a script, not part of the unit tests).
+
+Generates its own invented Parquet logs (0.1 dB LAeq, LAFmax, LAFmin with a daily
+cycle), then measures, each command a fresh process tree:
+
+- **large log**: a month at 1 s (2,678,400 rows) in one Parquet file — the bare read of
+  the file by pyarrow (whole process: the yardstick) against ``surveytools run`` on the
+  same file (whole process, both outputs), alternating, ``--repeats`` times; the peak
+  resident memory of the largest process;
+- **archive at 1 min**: 10 positions x 1 year at 1 min (5,256,000 rows), one Parquet file
+  per position: ``archive add`` (ingest time), then ``archive report`` with 1 and with 2
+  workers (report time, rows per second per worker, peak memory per worker as the report
+  records it);
+- **archive at 1 s**: 1 position x 1 year at 1 s (31,536,000 rows) as 12 monthly files:
+  the same measurements.
+
+Usage::
+
+    python tests/benchmarks/archive_benchmarks.py [--parts large,minute,second]
+        [--repeats 3] [--workdir DIR]
+
+Targets (issue 17): month at 1 s ``run`` <= 2x the bare read, peak < 1.5 GiB; report with
+2 workers at least 1.7x faster than with 1; peak memory per worker < 1 GiB.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import shutil
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+MEASURE = (
+    "import resource, subprocess, sys, time, json; t = time.perf_counter(); "
+    "p = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE); "
+    "dt = time.perf_counter() - t; "
+    "print(json.dumps({'s': dt, 'rc': p.returncode, "
+    "'rss_mib': resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024, "
+    "'err': p.stderr.decode()[-400:]}))"
+)
+BARE_READ = ("import sys, pyarrow.parquet as pq; t = pq.read_table(sys.argv[1]); "
+             "print(t.num_rows)")
+
+
+def measure(cmd: list[str]) -> dict[str, float]:
+    """Run ``cmd`` in a fresh process tree; return wall seconds and the peak RSS [MiB]."""
+    out = subprocess.run([sys.executable, "-c", MEASURE, *cmd], capture_output=True,
+                         text=True, check=True)
+    res = json.loads(out.stdout)
+    if res["rc"] not in (0, 1):
+        raise SystemExit(f"command failed ({res['rc']}): {' '.join(cmd)}\n{res['err']}")
+    return res
+
+
+def surveytools(*args: str) -> list[str]:
+    exe = Path(sys.executable).with_name("surveytools")
+    return [str(exe), *args] if exe.exists() else [sys.executable, "-m", "surveytools", *args]
+
+
+def write_log(path: Path, first: str, n: int, step_s: int, seed: int) -> None:
+    """An invented log of ``n`` readings from ``first`` (UTC)."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    if path.exists():
+        return
+    rng = np.random.default_rng(seed)
+    start = np.datetime64(first, "ms") + np.arange(n, dtype=np.int64) * (step_s * 1000)
+    hours = (np.arange(n) * step_s / 3600.0) % 24
+    laeq = np.round(48 + 8 * np.sin((hours - 8) / 24 * 2 * np.pi) + rng.normal(0, 2.5, n), 1)
+    table = pa.table({
+        "Start": pa.array(start, pa.timestamp("ms")),
+        "Duration (s)": pa.array(np.full(n, float(step_s))),
+        "LAeq": laeq,
+        "LAFmax": np.round(laeq + np.abs(rng.normal(3.0, 1.2, n)), 1),
+        "LAFmin": np.round(laeq - np.abs(rng.normal(2.0, 1.0, n)), 1),
+    })
+    tmp = path.with_suffix(".tmp")
+    pq.write_table(table, tmp, compression="zstd")
+    tmp.rename(path)
+
+
+def settings_file(path: Path, position: str) -> Path:
+    """Settings of one position; the invented meters stamp UTC (no summer-time gaps)."""
+    path.write_text(f'[survey]\nposition = "{position}"\ntime_zone = "Europe/Berlin"\n'
+                    'clock = "UTC"\n', encoding="utf-8")
+    return path
+
+
+def large_log(work: Path, repeats: int) -> dict[str, object]:
+    log = work / "month_1s.parquet"
+    write_log(log, "2026-07-01T00:00:00", 31 * 86_400, 1, seed=1)
+    settings = settings_file(work / "large.toml", "Month")
+    reads, runs = [], []
+    for _ in range(repeats):
+        reads.append(measure([sys.executable, "-c", BARE_READ, str(log)]))
+        out = work / "large_out"
+        shutil.rmtree(out, ignore_errors=True)
+        runs.append(measure(surveytools("run", str(log), "-o", str(out), "--settings",
+                                        str(settings), "--quiet", "--jobs", "1")))
+    read_s = statistics.median(r["s"] for r in reads)
+    run_s = statistics.median(r["s"] for r in runs)
+    ratios = statistics.median(b["s"] / a["s"] for a, b in zip(reads, runs, strict=True))
+    return {"rows": 31 * 86_400, "bare_read_s": round(read_s, 2), "run_s": round(run_s, 2),
+            "ratio": round(ratios, 2),
+            "run_peak_mib": round(max(r["rss_mib"] for r in runs), 0)}
+
+
+def archive(work: Path, name: str, logs: list[tuple[Path, str]], rows: int
+            ) -> dict[str, object]:
+    folder = work / f"archive_{name}"
+    shutil.rmtree(folder, ignore_errors=True)
+    t = time.perf_counter()
+    peak_add = 0.0
+    by_position: dict[str, list[str]] = {}
+    for path, position in logs:
+        by_position.setdefault(position, []).append(str(path))
+    for position, paths in by_position.items():
+        settings = settings_file(work / f"{name}_{position}.toml", position)
+        res = measure(surveytools("archive", "add", *paths, "--archive", str(folder),
+                                  "--settings", str(settings), "--quiet", "--jobs", "2"))
+        peak_add = max(peak_add, res["rss_mib"])
+    ingest_s = time.perf_counter() - t
+    out: dict[str, object] = {"rows": rows, "ingest_s": round(ingest_s, 1),
+                              "ingest_rows_per_s": round(rows / ingest_s),
+                              "ingest_peak_mib": round(peak_add)}
+    for workers in (1, 2):
+        target = work / f"report_{name}_{workers}"
+        shutil.rmtree(target, ignore_errors=True)
+        res = measure(surveytools("archive", "report", str(folder), "-o", str(target),
+                                  "--workers", str(workers), "--quiet"))
+        doc = json.loads((target / "archive-report.json").read_text(encoding="utf-8"))
+        out[f"report_{workers}w_s"] = round(res["s"], 1)
+        out[f"report_{workers}w_rows_per_s_per_worker"] = round(rows / res["s"] / workers)
+        out[f"report_{workers}w_peak_worker_mib"] = doc["engine"].get("peak_worker_rss_mib")
+    out["speed_up_2w"] = round(float(out["report_1w_s"]) / float(out["report_2w_s"]), 2)
+    return out
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--parts", default="large,minute,second")
+    parser.add_argument("--repeats", type=int, default=3)
+    parser.add_argument("--workdir", type=Path)
+    args = parser.parse_args()
+    work = args.workdir or Path(tempfile.mkdtemp(prefix="surveytools-archive-bench-"))
+    work.mkdir(parents=True, exist_ok=True)
+    parts = set(args.parts.split(","))
+    results: dict[str, object] = {}
+    if "large" in parts:
+        results["large_log_month_1s"] = large_log(work, args.repeats)
+        print(json.dumps(results["large_log_month_1s"]), flush=True)
+    if "minute" in parts:
+        logs = []
+        for k in range(10):
+            path = work / f"pos{k:02d}_year_1min.parquet"
+            write_log(path, "2026-01-01T00:00:00", 365 * 1440, 60, seed=10 + k)
+            logs.append((path, f"P{k:02d}"))
+        results["archive_10x_year_1min"] = archive(work, "minute", logs, 10 * 365 * 1440)
+        print(json.dumps(results["archive_10x_year_1min"]), flush=True)
+    if "second" in parts:
+        logs = []
+        for month in range(1, 13):
+            first = np.datetime64(f"2026-{month:02d}-01", "D")
+            n_days = int(((np.datetime64(f"2026-{month:02d}", "M") + 1).astype("datetime64[D]")
+                          - first).astype(int))
+            path = work / f"year_1s_{month:02d}.parquet"
+            write_log(path, f"2026-{month:02d}-01T00:00:00", n_days * 86_400, 1, seed=month)
+            logs.append((path, "S1"))
+        results["archive_1x_year_1s"] = archive(work, "second", logs, 365 * 86_400)
+        print(json.dumps(results["archive_1x_year_1s"]), flush=True)
+    print(json.dumps(results, indent=1))
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
