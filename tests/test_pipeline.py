@@ -279,6 +279,47 @@ def test_overlapped_read_finds_deep_formulas_merges_and_text_like_a_plain_one(
     assert any(f[2] == 4000 and f[3] == "C" for f in plain)  # the OVL cell is reported
 
 
+def _band_workbook(path: Path, rows: int) -> None:
+    import openpyxl
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    assert ws is not None
+    ws.title = "Survey"
+    for row in (["Field", "Value"], ["Position", "P1"], ["Time zone", "UTC"],
+                ["Calibration before (dB)", 94.0], ["Calibration after (dB)", 94.0]):
+        ws.append(row)
+    rd = wb.create_sheet("Readings")
+    rd.append(["Start", "Duration (s)", "LAeq (dB)", "LZeq 800 Hz", "1 kHz", "1250"])
+    for i in range(rows):
+        rd.append([datetime(2026, 6, 1, 12, 0) + timedelta(minutes=15 * i), 900, 60.8,
+                   50.0, 63.0, 50.0])
+    wb.save(path)
+
+
+@pytest.mark.parametrize(("limit", "include", "bands_written"), [
+    (24, False, True),    # 8 rows x 3 bands = 24 band cells: within the budget
+    (23, False, False),   # one cell over: broadband levels only
+    (0, True, True),      # --readings writes everything
+])
+def test_band_levels_in_readings_within_the_cell_budget(tmp_path: Path, limit: int,
+                                                        include: bool,
+                                                        bands_written: bool) -> None:
+    from dataclasses import replace
+
+    path = tmp_path / "bands.xlsx"
+    _band_workbook(path, 8)
+    settings = Settings()
+    settings = replace(settings, output=replace(settings.output, include_readings=include,
+                                                readings_band_cell_limit=limit))
+    _doc, annotations = build_document(path, settings)
+    assert annotations is not None
+    columns = list(annotations.columns)
+    assert "LAeq" in columns
+    assert ("LZeq_1000Hz" in columns) is bands_written
+    assert len(annotations) == 8
+
+
 def test_band_columns_offset_give_a_located_warning(tmp_path: Path) -> None:
     # Three band columns spelled three ways (README column table); the 1 kHz column is 3 dB
     # too high. Hand-evaluated with IEC 61672-1:2013 Table 3 weights (-0.8 / 0 / +0.6 dB):

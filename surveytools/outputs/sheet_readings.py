@@ -27,8 +27,13 @@ def add(book: Book) -> None:
     doc = book.doc
     sw = book.sheet(SHEET_READINGS)
     ws = sw.ws
+    bands = (doc.get("spectral") or {}).get("bands_hz") or []
+    bands_left_out = bool(bands) and not any(str(c).startswith("LZeq_") for c in table.columns)
+    left_out = (f" The {len(bands)} band levels of each reading are not repeated here for a "
+                "log this long (the input holds them; the Spectra sheet has the spectra; "
+                "run with --readings to write them too)." if bands_left_out else "")
     sw.text(0, 0, "Every row of the input's readings sheet with the levels as read and its "
-                  "exclusion reason (empty = valid). " + d.offset_note(doc), "note",
+                  "exclusion reason (empty = valid). " + d.offset_note(doc) + left_out, "note",
             measure=False)
     header_row = 1
     limit = SHEET_MAX_ROWS - header_row - 2
