@@ -348,3 +348,35 @@ def test_band_columns_offset_give_a_located_warning(tmp_path: Path) -> None:
     assert "+2.6 dB" in finding["message"]
     assert doc["spectral"]["bands_hz"] == [800.0, 1000.0, 1250.0]
     assert doc["spectral"]["band_check"]["median_difference_db"] == pytest.approx(2.61, abs=0.05)
+
+
+def test_band_columns_of_readings_sheet_are_one_closed_group(tmp_path: Path) -> None:
+    # Band levels stay in the Readings sheet (filterable), folded so that a printed page
+    # is not eleven pages wide; the broadband columns stay open.
+    import openpyxl
+
+    path = tmp_path / "bands.xlsx"
+    _band_workbook(path, 8)
+    out = tmp_path / "out"
+    out.mkdir()
+    run_file(path, out, "bands", Settings())
+    wb = openpyxl.load_workbook(out / "bands.results.xlsx")
+    ws = wb["Readings"]
+    headers = [c.value for c in ws[2]]
+    band_letters = [openpyxl.utils.get_column_letter(i + 1)
+                    for i, h in enumerate(headers) if str(h).startswith("LZeq_")]
+    assert len(band_letters) == 3
+    laeq_letter = openpyxl.utils.get_column_letter(headers.index("LAeq [dB]") + 1)
+
+    def dims(letter: str) -> tuple[int, bool]:
+        for key, dim in ws.column_dimensions.items():
+            first, last = dim.min or 0, dim.max or 0
+            index = openpyxl.utils.column_index_from_string(letter)
+            if key == letter or first <= index <= last:
+                return dim.outlineLevel, bool(dim.hidden)
+        return 0, False
+
+    assert all(dims(letter) == (1, True) for letter in band_letters)
+    assert dims(laeq_letter) == (0, False)
+    assert "folded column group" in str(ws["A1"].value)
+    wb.close()
