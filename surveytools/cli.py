@@ -228,13 +228,11 @@ def _summary_line(counts: dict[str, int], verb: str,
     counts = dict(counts)
     not_met = 0
     if outcomes is not None:
-        for o in outcomes:
-            verdict = (o.get("overview") or {}).get("verdict") or {}
-            quality = verdict.get("data_quality")
-            if quality in counts and quality != o["status"]:
-                counts[o["status"]] -= 1
-                counts[quality] += 1
-            not_met += bool(verdict.get("criteria_not_met"))
+        from surveytools.verdict import batch_tally
+
+        tally, not_met = batch_tally([(o["status"], (o.get("overview") or {}).get("verdict"))
+                                      for o in outcomes])
+        counts.update(tally)
     total = sum(counts.values()) - counts.get("skipped", 0)
     parts = [f"{counts.get('ok', 0)} ok", f"{counts.get('warnings', 0)} with warnings",
              f"{counts.get('errors', 0)} with errors", f"{counts.get('unreadable', 0)} unreadable"]

@@ -158,6 +158,9 @@ CODES: dict[str, Code] = {
     "exclusion-span-invalid": Code("error", "cell", "an exclusion whose To is not after From"),
     "exclusion-scope-unknown": Code("error", "cell", "Applies to is neither all nor "
                                                      "background"),
+    # --- frequency analysis ------------------------------------------------------------
+    "band-total-mismatch": Code("warning", "sheet", "the A-weighted total of the band levels "
+                                                    "does not match the logged LAeq"),
     # --- bookkeeping -----------------------------------------------------------------------
     "findings-truncated": Code("info", "file", "more findings of one code than are listed"),
 }

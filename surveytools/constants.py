@@ -135,6 +135,12 @@ CALIBRATOR_NOMINAL_TOLERANCE_DB = 0.5
 PLAUSIBLE_LEVEL_MIN_DB = 10.0
 #: Upper end of the plausible range [dB]. See PLAUSIBLE_LEVEL_MIN_DB.
 PLAUSIBLE_LEVEL_MAX_DB = 140.0
+#: Lowest plausible one-third-octave band level [dB] (the broadband lower end does not
+#: apply to band columns). Own choice: a band is much narrower than the broadband channel,
+#: so a class 1 meter's self-noise in its high-frequency bands lies near 0-10 dB and quiet
+#: sites log band levels well under PLAUSIBLE_LEVEL_MIN_DB; -20 dB still refuses sentinel
+#: values such as -99.
+PLAUSIBLE_BAND_LEVEL_MIN_DB = -20.0
 
 #: Default fraction of a period that must hold valid readings for the figure to count as
 #: sufficient. Common practice (no standard value).
@@ -261,6 +267,44 @@ NOMINAL_THIRD_OCTAVE_HZ = (
 NOMINAL_BAND_MATCH_TOLERANCE = 0.15
 
 # --------------------------------------------------------------------------------------
+# Frequency analysis: one-third-octave tonal screening, low-frequency content, band checks
+# --------------------------------------------------------------------------------------
+
+#: Nominal band ranges [Hz] of the one-third-octave tone test: low 25-125 Hz, middle
+#: 160-400 Hz, high 500 Hz-10 kHz; bands outside 25 Hz-10 kHz are not screened.
+#: ISO 1996-2:2007 Annex D (simplified method); the same test in BS 4142:2014+A1:2019
+#: Annex C (one-third-octave method). From memory (shared reference: a secondary page
+#: giving 25-250 Hz for the low range overlaps the middle range and looks like a typo).
+TONE_LOW_BANDS_HZ = (25.0, 125.0)
+#: Middle range of the tone test [Hz]. Same source (from memory).
+TONE_MID_BANDS_HZ = (160.0, 400.0)
+#: High range of the tone test [Hz]. Same source (from memory).
+TONE_HIGH_BANDS_HZ = (500.0, 10000.0)
+#: A low-range band is tonal when it exceeds both adjacent bands by at least this [dB].
+#: ISO 1996-2:2007 Annex D; BS 4142:2014+A1:2019 Annex C (from memory).
+TONE_LOW_DIFFERENCE_DB = 15.0
+#: Same, middle range [dB]. Same source (from memory).
+TONE_MID_DIFFERENCE_DB = 8.0
+#: Same, high range [dB]. Same source (from memory).
+TONE_HIGH_DIFFERENCE_DB = 5.0
+#: Tonal correction when the one-third-octave test finds a tone in the source-on spectrum
+#: that the residual spectrum does not show [dB]. BS 4142:2014+A1:2019, one-third-octave
+#: method (from memory: a tone found by the objective test is rated as "highly
+#: perceptible", the top of the +2 / +4 / +6 dB subjective scale of 9.2).
+ONE_THIRD_OCTAVE_TONAL_CORRECTION_DB = 6.0
+#: LC - LA at or above which sound is flagged as having marked low-frequency content
+#: [dB]. WHO Guidelines for Community Noise (1999), on low-frequency noise: where dB(C)
+#: exceeds dB(A) by more than 10 dB a frequency analysis is recommended (from memory;
+#: clause number not checked).
+LOW_FREQUENCY_C_MINUS_A_DB = 10.0
+#: Largest median absolute difference between the A-weighted total of the band levels
+#: and the logged LAeq per reporting interval before the bands are reported as not
+#: matching the broadband log [dB]. Own choice (no standard): a class 1 meter's bands and
+#: broadband channel agree to a few tenths of a decibel; Z/A-mixed, shifted or foreign
+#: band columns differ by several decibels.
+BAND_TOTAL_TOLERANCE_DB = 1.0
+
+# --------------------------------------------------------------------------------------
 # Propagation (geometric divergence)
 # --------------------------------------------------------------------------------------
 
@@ -300,6 +344,14 @@ REPORTED_LEVEL_DECIMALS = 1
 #: a sheet of ~50,000 rows still opens and filters quickly in a spreadsheet program, while
 #: rewriting 604,800 1-s rows costs ~15 s (shared/reference/performance.md §2).
 READINGS_ROW_LIMIT = 50_000
+
+#: Band levels of each reading are repeated in the Readings sheet up to this many band cells
+#: (rows x bands); a longer band log keeps its broadband levels there, and its band levels
+#: stay in the input and in the Spectra sheet (``--readings`` writes them all). Our own
+#: choice: the workbook writer takes ~10 us a number cell here (3.2 s for a week of 1-min
+#: readings x 33 bands, tests/benchmarks/spectral_benchmark.py), so the band table of a
+#: log within this budget costs at most about a second.
+READINGS_BAND_CELL_LIMIT = 100_000
 
 #: Earliest plausible start of a logged reading (1980-01-01) [year]. Own choice, generous:
 #: logging digital sound level meters date from the 1980s; an earlier date is a typing

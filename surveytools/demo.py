@@ -1,7 +1,7 @@
 """The demo: an invented monitoring scenario written as survey workbooks and a settings file.
 
 Everything here is fiction made for the demo (no real site, firm or person): a depot on
-"Kestrel Lane" with three monitoring positions over a week of late October, so that the
+"Kestrel Lane" with four monitoring positions over a week of late October, so that the
 week crosses the end of summer time. The data are generated from a fixed seed, so
 ``surveytools demo`` always writes the same workbooks as those kept in ``workbooks_demo/``.
 
@@ -12,6 +12,11 @@ week crosses the end of summer time. The data are generated from a fixed seed, s
   lawn mowing beside the meter, and a barking dog (background only).
 - ``kl3_lane_end.xlsx``: 1-second logging over one day, two overloads (one written by the
   meter as ``OVL``), calibration drift 0.6 dB (above the 0.5 dB limit: a warning for QA).
+- ``kl4_pump_house.xlsx``: 5-minute logging over three days with one-third-octave band
+  levels (12.5 Hz-20 kHz); a drainage pump by the depot's pump house hums at 100 Hz on the
+  first two nights (23:00-05:00) and is off on the third (the residual); an ``Operating``
+  column records it (so the background is pump-free). The results show a night-time tone,
+  a low-frequency flag and a derived tonal correction.
 """
 
 from __future__ import annotations
@@ -56,6 +61,13 @@ position = "KL-2"
 use_operating_column = true
 corrections_db = { tonal = 2.0 }
 
+[[assessments]]
+name = "Pump house hum at night"
+position = "KL-4"
+source_on = [["2026-10-22 23:30", "2026-10-23 01:30"]]
+residual  = [["2026-10-24 23:30", "2026-10-25 01:30"]]
+corrections_db = { tonal = "one-third-octave" }
+
 [[criteria]]
 name = "Night level outside bedrooms"
 indicator = "Lnight"
@@ -93,6 +105,7 @@ class DemoPosition:
     calibration_before_db: float
     calibration_after_db: float
     base_db: float
+    band_levels: bool = False
 
 
 POSITIONS = (
@@ -102,6 +115,23 @@ POSITIONS = (
                  datetime(2026, 10, 21, 12, 0), 60.0, 7 * 1440, 94.0, 93.9, 38.0),
     DemoPosition("kl3_lane_end.xlsx", "KL-3", "Lane end by the depot gate, 4 m",
                  datetime(2026, 10, 22, 7, 0), 1.0, 86_400, 94.0, 93.4, 46.0),
+    DemoPosition("kl4_pump_house.xlsx", "KL-4", "Garden fence facing the pump house, 1.5 m",
+                 datetime(2026, 10, 22, 12, 0), 300.0, 3 * 288, 94.0, 94.1, 36.0,
+                 band_levels=True),
+)
+
+#: Nominal one-third-octave bands of the KL-4 meter's export [Hz] (12.5 Hz-20 kHz).
+DEMO_BANDS_HZ = (
+    12.5, 16.0, 20.0, 25.0, 31.5, 40.0, 50.0, 63.0, 80.0, 100.0, 125.0, 160.0, 200.0, 250.0,
+    315.0, 400.0, 500.0, 630.0, 800.0, 1000.0, 1250.0, 1600.0, 2000.0, 2500.0, 3150.0,
+    4000.0, 5000.0, 6300.0, 8000.0, 10000.0, 12500.0, 16000.0, 20000.0,
+)
+#: A-weighting of those bands [dB], IEC 61672-1:2013 Table 3 (used to make the invented
+#: broadband LAeq agree with the invented bands, as a real meter's channels do).
+_DEMO_A_WEIGHTS_DB = (
+    -63.4, -56.7, -50.5, -44.7, -39.4, -34.6, -30.2, -26.2, -22.5, -19.1, -16.1, -13.4,
+    -10.9, -8.6, -6.6, -4.8, -3.2, -1.9, -0.8, 0.0, 0.6, 1.0, 1.2, 1.3, 1.2, 1.0, 0.5, -0.1,
+    -1.1, -2.5, -4.3, -6.6, -9.3,
 )
 
 
@@ -256,6 +286,102 @@ def _write_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> 
     wb.close()
 
 
+#: The invented meter's self-noise in a band [dB] (the quietest band level it logs).
+_DEMO_NOISE_FLOOR_DB = 13.0
+
+
+def _band_header(hz: float) -> str:
+    return f"LZeq {hz / 1000:g} kHz" if hz >= 1000 else f"LZeq {hz:g} Hz"
+
+
+def _band_levels(pos: DemoPosition, hours: np.ndarray, rng: np.random.Generator,
+                 pump_on: np.ndarray) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+    """Invented band levels (readings x bands) and the broadband levels that go with them.
+
+    A smooth ambient spectrum (flat 50-500 Hz, falling 1 dB a band above, 3 dB a band
+    below, never under the meter's invented noise floor) follows a diurnal course with a
+    slow wander; each band jitters a little. The pump adds a 100 Hz hum with some broadband
+    energy in the bands around it.
+    """
+    n, bands = hours.size, np.array(DEMO_BANDS_HZ)
+    number = np.round(10 * np.log10(bands / 1000.0))
+    shape = np.where(number > -3, -1.0 * (number + 3), 0.0) + np.where(
+        number < -13, -3.0 * (-13 - number), 0.0)
+    diurnal = pos.base_db + 9.0 * np.clip(np.sin((hours - 5.0) / 24 * 2 * np.pi), -0.6, 1.0)
+    wander = np.convolve(rng.normal(0.0, 1.0, n), np.ones(6) / np.sqrt(6), mode="same")
+    ambient = diurnal[:, None] + wander[:, None] + shape[None, :] + rng.normal(
+        0.0, 0.6, (n, bands.size))
+    energy = 10 ** (np.maximum(ambient, _DEMO_NOISE_FLOOR_DB) / 10)
+    pump = np.full(bands.size, -np.inf)
+    near = np.abs(number + 10) <= 3  # 50-200 Hz: the pump's broadband part
+    pump[near] = 38.0 - 3.0 * np.abs(number[near] + 10)
+    pump[number == -10] = 57.0  # the hum, 100 Hz
+    pump_energy = 10 ** (pump / 10) * rng.uniform(0.8, 1.25, (n, 1))
+    energy = energy + np.where(pump_on[:, None], pump_energy, 0.0)
+    levels = np.round(10 * np.log10(energy), 1)
+    weighted = 10 ** ((levels + np.array(_DEMO_A_WEIGHTS_DB)) / 10)
+    laeq = 10 * np.log10(weighted.sum(axis=1)) + rng.normal(0.0, 0.1, n)
+    lafmax = laeq + np.abs(rng.normal(4.0, 1.5, n))
+    laf90 = laeq - np.abs(rng.normal(2.5, 0.8, n))
+    broadband = {k: np.round(v, 1) for k, v in
+                 {"LAeq": laeq, "LAFmax": lafmax, "LAF90": laf90}.items()}
+    return levels, broadband
+
+
+def _write_band_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> None:
+    """Write a position whose meter also exports one-third-octave band levels (KL-4)."""
+    import xlsxwriter
+
+    stamps = _wall_clock_series(pos)
+    hours = _local_hours(stamps)
+    owner = np.array([(t - timedelta(hours=7)).date() for t in stamps])
+    pump_nights = {datetime(2026, 10, 22).date(), datetime(2026, 10, 23).date()}
+    pump_on = ((hours >= 23) | (hours < 5)) & np.array([d in pump_nights for d in owner])
+    levels, broadband = _band_levels(pos, hours, rng, pump_on)
+
+    wb = xlsxwriter.Workbook(str(path), {"strings_to_formulas": False, "constant_memory": False})
+    wb.set_properties({"title": f"Survey log {pos.position}", "author": "surveytools demo",
+                       "created": datetime(2026, 10, 28, 9, 0)})
+    dt_fmt = wb.add_format({"num_format": "yyyy-mm-dd hh:mm:ss"})
+    bold = wb.add_format({"bold": True})
+    survey = wb.add_worksheet("Survey")
+    rows = [("Position", pos.position), ("Site", SITE), ("Description", pos.description),
+            ("Time zone", TIME_ZONE), ("Clock", "local"), ("Meter class", 1),
+            ("Calibration before (dB)", pos.calibration_before_db),
+            ("Calibration after (dB)", pos.calibration_after_db),
+            ("Calibrator level (dB)", 94.0), ("Microphone", "free-field"), ("Height (m)", 1.5),
+            ("Notes", "Invented data for the surveytools demo: one-third-octave bands, "
+                      "Z-weighted.")]
+    survey.write_row(0, 0, ("Field", "Value"), bold)
+    for i, (k, v) in enumerate(rows, start=1):
+        survey.write_string(i, 0, k)
+        if isinstance(v, str):
+            survey.write_string(i, 1, v)
+        else:
+            survey.write_number(i, 1, v)
+    survey.set_column(0, 0, 26)
+    survey.set_column(1, 1, 52)
+
+    ws = wb.add_worksheet("Readings")
+    ws.write_string(0, 0, f"Logged levels, position {pos.position} (demo export)")
+    ws.write_string(1, 0, f"Logging interval {pos.step_s:g} s; times are local clock; "
+                          "band levels Z-weighted")
+    header = (["Start", "Duration (s)", "LAeq (dB)", "LAFmax (dB)", "LAF90 (dB)"]
+              + [_band_header(hz) for hz in DEMO_BANDS_HZ] + ["Operating", "Note"])
+    ws.write_row(3, 0, header, bold)
+    for i, t in enumerate(stamps):
+        r = 4 + i
+        ws.write_datetime(r, 0, t, dt_fmt)
+        ws.write_number(r, 1, pos.step_s)
+        for c, key in enumerate(("LAeq", "LAFmax", "LAF90"), start=2):
+            ws.write_number(r, c, float(broadband[key][i]))
+        ws.write_row(r, 5, levels[i].tolist())
+        ws.write_string(r, 5 + len(DEMO_BANDS_HZ), "yes" if pump_on[i] else "no")
+    ws.freeze_panes(4, 0)
+    ws.set_column(0, 0, 20)
+    wb.close()
+
+
 def write_demo(directory: Path, force: bool = False) -> list[Path]:
     """Write the demo workbooks and ``settings.toml`` into ``directory``; return the paths.
 
@@ -288,7 +414,8 @@ def write_demo(directory: Path, force: bool = False) -> list[Path]:
                 if pos is None:
                     tmp.write_text(SETTINGS_TOML, encoding="utf-8")
                 else:
-                    _write_position(tmp, pos, np.random.default_rng(SEED + k))
+                    write = _write_band_position if pos.band_levels else _write_position
+                    write(tmp, pos, np.random.default_rng(SEED + k))
             written.append(target)
     except FileExistsError as exc:  # created by someone else meanwhile
         raise SurveyToolsError(f"{exc}: appeared while the demo was being written and was "

@@ -199,7 +199,12 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     annotations = None
     output = settings.output
     if output.include_readings or len(survey.readings) <= output.readings_row_limit:
-        annotations = reading_annotations(survey, with_levels=True)
+        from surveytools.inputs.columns import is_band_column
+
+        bands = sum(1 for name in survey.level_columns if is_band_column(name))
+        with_bands = (output.include_readings
+                      or len(survey.readings) * bands <= output.readings_band_cell_limit)
+        annotations = reading_annotations(survey, with_levels=True, with_bands=with_bands)
     return doc, annotations
 
 

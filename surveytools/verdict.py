@@ -19,7 +19,8 @@ from typing import Any
 
 from surveytools import constants
 
-__all__ = ["FIGURE_AFFECTING_CODES", "data_quality_words", "outcome_words", "verdict_section"]
+__all__ = ["FIGURE_AFFECTING_CODES", "batch_tally", "data_quality_words", "outcome_words",
+           "verdict_section"]
 
 #: Finding codes whose presence makes the figures doubtful (listed on the Summary by message).
 #: A code starting with one of :data:`FIGURE_AFFECTING_PREFIXES` counts too.
@@ -44,6 +45,32 @@ def data_quality_words(quality: str) -> str:
     """Return the data quality as words: ``ok``, ``with warnings``, ``with errors`` ..."""
     return {"ok": "ok", "warnings": "with warnings", "errors": "with errors",
             "unreadable": "file could not be read"}.get(quality, quality)
+
+
+def batch_tally(inputs: Sequence[tuple[str, Mapping[str, Any] | None]]
+                ) -> tuple[dict[str, int], int]:
+    """Count a batch's inputs by the data quality their verdicts state.
+
+    Parameters
+    ----------
+    inputs : sequence of (status, verdict or None)
+        Each input's status (from its findings) and its ``verdict`` section; an input
+        without a verdict (unreadable, or from an older version) counts by its status.
+
+    Returns
+    -------
+    counts : dict
+        Inputs per data quality: ``ok``, ``warnings``, ``errors``, ``unreadable``.
+    not_met : int
+        Inputs with at least one criterion not met.
+    """
+    counts = {"ok": 0, "warnings": 0, "errors": 0, "unreadable": 0}
+    not_met = 0
+    for status, verdict in inputs:
+        quality = str((verdict or {}).get("data_quality") or status)
+        counts[quality] = counts.get(quality, 0) + 1
+        not_met += bool((verdict or {}).get("criteria_not_met"))
+    return counts, not_met
 
 
 def outcome_words(not_met: int, checked: int, total: int) -> str:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+from datetime import datetime, timedelta
 from pathlib import Path
 
 import pytest
@@ -276,3 +277,106 @@ def test_overlapped_read_finds_deep_formulas_merges_and_text_like_a_plain_one(
     codes = {f[0] for f in plain}
     assert {"formula-without-value", "merged-cells"} <= codes
     assert any(f[2] == 4000 and f[3] == "C" for f in plain)  # the OVL cell is reported
+
+
+def _band_workbook(path: Path, rows: int) -> None:
+    import openpyxl
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    assert ws is not None
+    ws.title = "Survey"
+    for row in (["Field", "Value"], ["Position", "P1"], ["Time zone", "UTC"],
+                ["Calibration before (dB)", 94.0], ["Calibration after (dB)", 94.0]):
+        ws.append(row)
+    rd = wb.create_sheet("Readings")
+    rd.append(["Start", "Duration (s)", "LAeq (dB)", "LZeq 800 Hz", "1 kHz", "1250"])
+    for i in range(rows):
+        rd.append([datetime(2026, 6, 1, 12, 0) + timedelta(minutes=15 * i), 900, 60.8,
+                   50.0, 63.0, 50.0])
+    wb.save(path)
+
+
+@pytest.mark.parametrize(("limit", "include", "bands_written"), [
+    (24, False, True),    # 8 rows x 3 bands = 24 band cells: within the budget
+    (23, False, False),   # one cell over: broadband levels only
+    (0, True, True),      # --readings writes everything
+])
+def test_band_levels_in_readings_within_the_cell_budget(tmp_path: Path, limit: int,
+                                                        include: bool,
+                                                        bands_written: bool) -> None:
+    from dataclasses import replace
+
+    path = tmp_path / "bands.xlsx"
+    _band_workbook(path, 8)
+    settings = Settings()
+    settings = replace(settings, output=replace(settings.output, include_readings=include,
+                                                readings_band_cell_limit=limit))
+    _doc, annotations = build_document(path, settings)
+    assert annotations is not None
+    columns = list(annotations.columns)
+    assert "LAeq" in columns
+    assert ("LZeq_1000Hz" in columns) is bands_written
+    assert len(annotations) == 8
+
+
+def test_band_columns_offset_give_a_located_warning(tmp_path: Path) -> None:
+    # Three band columns spelled three ways (README column table); the 1 kHz column is 3 dB
+    # too high. Hand-evaluated with IEC 61672-1:2013 Table 3 weights (-0.8 / 0 / +0.6 dB):
+    # band total 63 + 10 lg(1 + 10**-1.38 + 10**-1.24) = 63.41 dB against a logged 60.8 dB.
+    import openpyxl
+
+    path = tmp_path / "bands.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    assert ws is not None
+    ws.title = "Survey"
+    for row in (["Field", "Value"], ["Position", "P1"], ["Time zone", "UTC"],
+                ["Calibration before (dB)", 94.0], ["Calibration after (dB)", 94.0]):
+        ws.append(row)
+    rd = wb.create_sheet("Readings")
+    rd.append(["Start", "Duration (s)", "LAeq (dB)", "LZeq 800 Hz", "1 kHz", "1250"])
+    for i in range(8):
+        rd.append([datetime(2026, 6, 1, 12, 0) + timedelta(minutes=15 * i), 900, 60.8,
+                   50.0, 63.0, 50.0])
+    wb.save(path)
+    doc, _ = build_document(path, Settings())
+    assert validate_results(doc) == []
+    assert doc["status"] == "warnings"
+    (finding,) = [f for f in doc["findings"] if f["code"] == "band-total-mismatch"]
+    assert finding["severity"] == "warning" and finding["sheet"] == "Readings"
+    assert "+2.6 dB" in finding["message"]
+    assert doc["spectral"]["bands_hz"] == [800.0, 1000.0, 1250.0]
+    assert doc["spectral"]["band_check"]["median_difference_db"] == pytest.approx(2.61, abs=0.05)
+
+
+def test_band_columns_of_readings_sheet_are_one_closed_group(tmp_path: Path) -> None:
+    # Band levels stay in the Readings sheet (filterable), folded so that a printed page
+    # is not eleven pages wide; the broadband columns stay open.
+    import openpyxl
+
+    path = tmp_path / "bands.xlsx"
+    _band_workbook(path, 8)
+    out = tmp_path / "out"
+    out.mkdir()
+    run_file(path, out, "bands", Settings())
+    wb = openpyxl.load_workbook(out / "bands.results.xlsx")
+    ws = wb["Readings"]
+    headers = [c.value for c in ws[2]]
+    band_letters = [openpyxl.utils.get_column_letter(i + 1)
+                    for i, h in enumerate(headers) if str(h).startswith("LZeq_")]
+    assert len(band_letters) == 3
+    laeq_letter = openpyxl.utils.get_column_letter(headers.index("LAeq [dB]") + 1)
+
+    def dims(letter: str) -> tuple[int, bool]:
+        for key, dim in ws.column_dimensions.items():
+            first, last = dim.min or 0, dim.max or 0
+            index = openpyxl.utils.column_index_from_string(letter)
+            if key == letter or first <= index <= last:
+                return dim.outlineLevel, bool(dim.hidden)
+        return 0, False
+
+    assert all(dims(letter) == (1, True) for letter in band_letters)
+    assert dims(laeq_letter) == (0, False)
+    assert "folded column group" in str(ws["A1"].value)
+    wb.close()

@@ -139,6 +139,23 @@ def results_doc() -> dict[str, Any]:
                              "last_row": 61, "rows": 60, "reason": "wind", "scope": "all",
                              "label": None}],
         "unplaced": [],
+        "spectral": {
+            "bands_hz": [80.0, 100.0, 125.0],
+            "periods": {"day": None, "evening": None, "night": {
+                "valid_s": 3600.0, "LZeq": [40.0, 58.0, 41.0], "LAeq_from_bands": 39.1,
+                "LCeq_from_bands": 58.2, "LC_minus_LA": 19.1, "low_frequency": True,
+                "tonal_bands_hz": [100.0], "tone_difference_db": [None, 17.0, None]}},
+            "band_check": {"intervals": 4, "median_difference_db": 0.1,
+                           "median_absolute_difference_db": 0.1,
+                           "max_absolute_difference_db": 0.2, "tolerance_db": 1.0,
+                           "mismatch": False},
+            "tones": [{"band_hz": 100.0, "period": "night", "in_period_average": True,
+                       "time_fraction": 1.0, "max_difference_db": 17.2,
+                       "threshold_db": 15.0}],
+            "intervals": [{"start": t0, "end": "2026-06-10T12:15:00+02:00", "valid_s": 900.0,
+                           "LAeq_from_bands": 39.1, "difference_db": 0.1,
+                           "tonal_bands_hz": [100.0]}],
+        },
     }
 
 
@@ -215,7 +232,7 @@ def test_unreadable_variant_needs_an_error_finding():
     doc = {**results_doc(), "status": "unreadable", "findings": [], "coverage": None,
            "overall": None, "intervals": [], "intervals_basis": None, "days": [],
            "survey_average": None, "background": None, "assessments": [], "criteria": [],
-           "exclusion_spans": [], "unplaced": []}
+           "exclusion_spans": [], "unplaced": [], "spectral": None}
     assert validate_results(doc) != []
     doc["findings"] = [finding("error", "file-not-a-zip")]
     assert validate_results(doc) == []

@@ -79,3 +79,18 @@ def test_unreadable_file_is_not_judged() -> None:
     assert v["outcome"] == "not checked"
     assert v["outcome_text"] == "not judged: the file could not be read"
     assert v["data_quality"] == "unreadable"
+
+
+def test_batch_tally_counts_data_quality_from_verdicts() -> None:
+    # Hand-made batch: an input whose findings are clean but whose verdict states warnings
+    # (a condition that affects the figures) counts as "warnings"; an unreadable input has
+    # no verdict and counts by its status.
+    from surveytools.verdict import batch_tally
+
+    counts, not_met = batch_tally([
+        ("ok", {"data_quality": "warnings", "criteria_not_met": 4}),
+        ("ok", {"data_quality": "ok", "criteria_not_met": 0}),
+        ("unreadable", None),
+    ])
+    assert counts == {"ok": 1, "warnings": 1, "errors": 0, "unreadable": 1}
+    assert not_met == 1

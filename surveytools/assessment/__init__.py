@@ -8,7 +8,8 @@ the meter's clock) turns wall-clock period boundaries into instants per calendar
 (:mod:`surveytools.assessment.timegrid`). Every figure averages valid time only
 (``Survey.valid_mask``); readings straddling a boundary are split in proportion.
 Sections: :mod:`~.intervals` (overall, intervals), :mod:`~.daily` (days, survey
-average), :mod:`~.background`, :mod:`~.sources` (assessments), :mod:`~.criteria`,
+average), :mod:`~.background`, :mod:`~.sources` (assessments), :mod:`~.spectral`
+(one-third-octave band levels), :mod:`~.criteria`,
 :mod:`~.spans` (coverage, exclusion spans, survey metadata, reading annotations).
 """
 
@@ -39,6 +40,7 @@ from surveytools.assessment.spans import (
     survey_section,
     unplaced_section,
 )
+from surveytools.assessment.spectral import spectral_section
 from surveytools.assessment.timegrid import (
     day_offset_boundaries,
     format_local,
@@ -66,8 +68,10 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
     dict
         JSON-ready sections ``survey``, ``coverage``, ``overall``, ``intervals``,
         ``intervals_basis``, ``days``, ``survey_average``, ``background``,
-        ``assessments``, ``criteria``, ``exclusion_spans``, ``unplaced`` (see
-        results_spec.md); no NaN: what cannot be computed is None.
+        ``assessments``, ``criteria``, ``spectral``, ``exclusion_spans``, ``unplaced``
+        (see results_spec.md); no NaN: what cannot be computed is None. Findings of the
+        assessment itself (``band-total-mismatch``) are added to ``survey.findings`` and
+        ``survey.finding_counts``.
 
     Raises
     ------
@@ -90,6 +94,10 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
     reference = reference_la90(ctx) if ctx.n else None
     background = background_section(ctx, reference)
     assessments = assessments_section(ctx, reference)
+    spectral, spectral_findings = spectral_section(ctx)
+    for finding in spectral_findings:
+        survey.findings.append(finding)
+        survey.finding_counts[finding.code] = survey.finding_counts.get(finding.code, 0) + 1
     # unrounded interval LAeq for criteria over longer intervals (LAeq,1h): judged once
     # from unrounded values (design.md §9), not from the JSON levels
     summed = (ctx.grouped_laeq(interval_bounds(ctx))
@@ -112,6 +120,7 @@ def assess(survey: Survey, settings: Settings) -> dict[str, Any]:
         "background": background,
         "assessments": assessments,
         "criteria": criteria,
+        "spectral": spectral,
         "exclusion_spans": exclusion_spans_section(ctx),
         "unplaced": unplaced_section(survey),
     }

@@ -30,7 +30,15 @@ from typing import Any
 
 import numpy as np
 
-from surveytools.assessment._common import IntArray, Pieces, db, run_spans, seconds, split
+from surveytools.assessment._common import (
+    FloatArray,
+    IntArray,
+    Pieces,
+    db,
+    run_spans,
+    seconds,
+    split,
+)
 from surveytools.assessment.background import (
     BACKGROUND_PERIODS,
     ReferenceLA90,
@@ -38,6 +46,7 @@ from surveytools.assessment.background import (
     reference_la90,
 )
 from surveytools.assessment.context import Context
+from surveytools.assessment.spectral import assessment_spectra
 from surveytools.assessment.timegrid import (
     day_offset_boundaries,
     format_local,
@@ -91,21 +100,24 @@ def _window_pieces(ctx: Context, windows: IntArray) -> tuple[Pieces, np.ndarray]
     return pieces, inside & (pieces.duration_ms > 0)
 
 
-def _piece_level(ctx: Context, pieces: Pieces, chosen: np.ndarray) -> tuple[float, float]:
-    """LAeq and valid time [s] of the valid pieces where ``chosen``."""
+#: A selection of valid time: reading of each piece and its duration [s].
+Selection = tuple[IntArray, FloatArray]
+#: No valid time at all.
+_NO_SELECTION: Selection = (np.zeros(0, dtype=np.int64), np.zeros(0))
+
+
+def _piece_selection(ctx: Context, pieces: Pieces, chosen: np.ndarray) -> Selection:
+    """Return the reading and duration [s] of each valid piece where ``chosen``."""
     chosen = chosen & ctx.valid[pieces.index] & (pieces.duration_ms > 0)
+    return pieces.index[chosen], pieces.duration_s[chosen]
+
+
+def _selection_level(ctx: Context, selection: Selection) -> tuple[float, float]:
+    """LAeq and valid time [s] of a selection."""
     laeq = ctx.level("LAeq")
     assert laeq is not None
-    durations = pieces.duration_s[chosen]
-    return energy_average(laeq[pieces.index][chosen], durations), float(np.sum(durations))
-
-
-def _windowed_level(ctx: Context, windows: IntArray) -> tuple[float, float]:
-    """LAeq and valid time [s] of the valid reading pieces inside the windows."""
-    if windows.size == 0 or ctx.n == 0:
-        return float("nan"), 0.0
-    pieces, inside = _window_pieces(ctx, windows)
-    return _piece_level(ctx, pieces, inside)
+    index, durations = selection
+    return energy_average(laeq[index], durations), float(np.sum(durations))
 
 
 def _period_pieces(ctx: Context) -> tuple[Pieces, IntArray]:
@@ -229,20 +241,24 @@ def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | 
                                "of the operating time lies: the residual comes from the other "
                                "period and may not be comparable")
         on_spans, off_spans = _piece_spans(pieces, on_p), _piece_spans(pieces, off_p)
-        total, valid_total = _piece_level(ctx, pieces, on_p)
-        residual, valid_residual = _piece_level(ctx, pieces, off_p)
+        on_selection = _piece_selection(ctx, pieces, on_p)
+        off_selection = _piece_selection(ctx, pieces, off_p)
         source_readings = on  # already out of every background (Operating = yes)
         residual_pieces = (pieces, off_p)
     else:
         selection = "windows"
         on_spans = window_ms(ctx, assessment.source_on)
         off_spans = window_ms(ctx, assessment.residual)
-        total, valid_total = _windowed_level(ctx, on_spans)
-        residual, valid_residual = _windowed_level(ctx, off_spans)
+        on_selection = (_piece_selection(ctx, *_window_pieces(ctx, on_spans))
+                        if on_spans.size and ctx.n else _NO_SELECTION)
         period = majority_period(ctx, on_spans)
         source_readings = _overlapping(ctx, on_spans)
+        off_selection = _NO_SELECTION
         if off_spans.size and ctx.n:
             residual_pieces = _window_pieces(ctx, off_spans)
+            off_selection = _piece_selection(ctx, *residual_pieces)
+    total, valid_total = _selection_level(ctx, on_selection)
+    residual, valid_residual = _selection_level(ctx, off_selection)
 
     try:
         specific_arr, difference_arr, basis_arr = residual_correction(
@@ -253,8 +269,10 @@ def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | 
         raise SettingsError(f"residual settings: {exc}") from exc
     specific, difference = float(specific_arr), float(difference_arr)
     basis = str(basis_arr.item())
-    corrections = {name: float(assessment.corrections_db.get(name, 0.0))
-                   for name in CORRECTION_NAMES}
+    corrections = {name: assessment.given_correction_db(name) for name in CORRECTION_NAMES}
+    spectra = assessment_spectra(ctx, on_selection, off_selection, assessment.tonal_method)
+    if spectra.tonal_correction_db is not None:
+        corrections["tonal"] = spectra.tonal_correction_db
     rating = float(rating_level(specific, *(corrections[name] for name in CORRECTION_NAMES)))
     bg, background_basis, background_note = _source_free_background(
         ctx, period, source_readings, reference, residual_pieces)
@@ -287,6 +305,7 @@ def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | 
         "specific_level": db(specific),
         "specific_basis": basis,
         "corrections_db": corrections,
+        "tonal_basis": spectra.tonal_basis,
         "rating_level": db(rating),
         "background_period": period,
         "background_LA90": db(bg),
@@ -294,6 +313,7 @@ def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | 
         "excess_over_background": db(excess),
         "impact_indication": impact,
         "note": "; ".join(notes) if notes else None,
+        **spectra.fields,
     }
 
 

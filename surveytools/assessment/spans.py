@@ -10,6 +10,7 @@ import pandas as pd
 from surveytools.assessment._common import MS_PER_S, run_spans, seconds
 from surveytools.assessment.context import Context
 from surveytools.assessment.timegrid import format_local, site_tz
+from surveytools.inputs.columns import is_band_column
 from surveytools.survey import Survey
 
 #: Survey metadata keys copied into the results (results_spec.md ``survey``).
@@ -105,15 +106,16 @@ def unplaced_section(survey: Survey) -> list[dict[str, Any]]:
     ]
 
 
-def reading_annotations(survey: Survey, with_levels: bool = True) -> pd.DataFrame:
+def reading_annotations(survey: Survey, with_levels: bool = True,
+                        with_bands: bool = True) -> pd.DataFrame:
     """Per reading: ``row``, ``start`` (local ISO text), ``duration_s``, levels, ``reason``.
 
     The level columns are every level column read (``LAeq``, ``LAFmax``, ``LAF90``, band
     levels ..., in the order of :attr:`Survey.level_columns`; NaN where empty or unusable)
-    when ``with_levels``; then ``overload`` / ``operating`` (``"yes"``/``"no"``/``""``)
-    and ``note`` when the input gave them. ``reason`` is ``""`` for a valid reading, else the
-    ``"; "``-joined reason codes (background-only reasons marked). Built vectorially, for
-    the workbook writer.
+    when ``with_levels`` (band levels only when ``with_bands`` too); then ``overload`` /
+    ``operating`` (``"yes"``/``"no"``/``""``) and ``note`` when the input gave them.
+    ``reason`` is ``""`` for a valid reading, else the ``"; "``-joined reason codes
+    (background-only reasons marked). Built vectorially, for the workbook writer.
     """
     readings = survey.readings
     tz = site_tz(survey.metadata)
@@ -125,7 +127,7 @@ def reading_annotations(survey: Survey, with_levels: bool = True) -> pd.DataFram
     }
     if with_levels:
         for name in survey.level_columns:
-            if name in readings.columns:
+            if name in readings.columns and (with_bands or not is_band_column(name)):
                 columns[name] = readings[name].to_numpy(dtype=np.float64)
         if "overload" in readings.columns and bool(readings["overload"].any()):
             columns["overload"] = np.where(readings["overload"].to_numpy(dtype=bool), "yes", "")

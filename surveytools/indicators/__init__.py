@@ -3,7 +3,8 @@
 One module per concept: :mod:`levels` (energy averages, dB sums and differences),
 :mod:`percentiles` (LN), :mod:`periods` (splitting at period boundaries, Lden / Ldn /
 CNEL), :mod:`background` (residual correction), :mod:`rating`, :mod:`weighting`
-(IEC 61672-1 A / C / Z), :mod:`propagation` and :mod:`exposure` (LEX,8h).
+(IEC 61672-1 A / C / Z), :mod:`spectra` (band spectra, tonal screening, low-frequency
+content), :mod:`propagation` and :mod:`exposure` (LEX,8h).
 """
 
 from surveytools.indicators.background import SPECIFIC_BASES, residual_correction
@@ -41,6 +42,13 @@ from surveytools.indicators.rating import (
     impact_indication,
     rating_level,
 )
+from surveytools.indicators.spectra import (
+    grouped_band_spectra,
+    low_frequency_content,
+    one_third_octave_tonal_correction,
+    screen_tones,
+    tone_thresholds,
+)
 from surveytools.indicators.weighting import (
     NOMINAL_THIRD_OCTAVE_HZ,
     WEIGHTINGS,
@@ -72,6 +80,7 @@ __all__ = [
     "exceeds_action_values",
     "excess_over_background",
     "from_energy",
+    "grouped_band_spectra",
     "grouped_energy_average",
     "grouped_exceedance_levels",
     "grouped_max",
@@ -81,13 +90,17 @@ __all__ = [
     "ldn",
     "lex_8h",
     "line_source_level_at",
+    "low_frequency_content",
+    "one_third_octave_tonal_correction",
     "penalised_day_evening_night",
     "point_source_level_at",
     "rating_level",
     "residual_correction",
     "scheme_hours",
+    "screen_tones",
     "split_at_boundaries",
     "to_energy",
+    "tone_thresholds",
     "whole_db_distribution",
     "z_weighting",
 ]

@@ -72,6 +72,15 @@ def normalise_header(text: object) -> str:
     return s.strip(".")
 
 
+#: Prefix of every canonical band column name (``LZeq_1000Hz``).
+BAND_PREFIX = "LZeq_"
+
+
+def is_band_column(name: str) -> bool:
+    """Return True for a canonical one-third-octave band column name (``LZeq_1000Hz``)."""
+    return name.startswith(BAND_PREFIX)
+
+
 def band_name(frequency_hz: float) -> str:
     """Return the canonical band column name (``LZeq_1000Hz``, ``LZeq_31.5Hz``).
 
@@ -81,7 +90,7 @@ def band_name(frequency_hz: float) -> str:
         Nominal mid-band frequency. [Hz]
     """
     label = f"{frequency_hz:g}" if frequency_hz < 100 else f"{round(frequency_hz)}"
-    return f"LZeq_{label}Hz"
+    return f"{BAND_PREFIX}{label}Hz"
 
 
 def _band_from_key(key: str) -> str | None:

@@ -23,7 +23,7 @@ from surveytools.outputs.xlsx_style import (
     print_setup,
     wrapped_lines,
 )
-from surveytools.verdict import data_quality_words
+from surveytools.verdict import batch_tally, data_quality_words
 
 SHEET_OVERVIEW = "Overview"
 SHEET_SKIPPED = "Skipped"
@@ -130,11 +130,15 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
         ws.set_row(row, 15.0 * wrapped_lines(line, total_width) + 2)
         row += 1
     row += 1
-    counts = overview.get("counts") or {}
+    inputs = list(overview.get("inputs") or [])
+    counts: dict[str, int] = {"skipped": int((overview.get("counts") or {}).get("skipped") or 0)}
+    tally, not_met = batch_tally([(str(i.get("status")), i.get("verdict")) for i in inputs])
+    counts.update(tally)
     words = {"ok": "data ok", "warnings": "data with warnings", "errors": "data with errors",
              "unreadable": "could not be read", "skipped": "skipped"}
-    sw.text(row, 0, "Inputs: " + ", ".join(f"{int(counts.get(k) or 0)} {w}"
-                                            for k, w in words.items()), "bold", measure=False)
+    sw.text(row, 0, f"Inputs: criteria not met at {not_met} of {len(inputs)}; "
+            + ", ".join(f"{int(counts.get(k) or 0)} {w}" for k, w in words.items()),
+            "bold", measure=False)
     row += 2
 
     headers = [name for name, _ in OVERVIEW_COLUMNS]
@@ -142,7 +146,6 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
     sw.header(header_row, 0, headers)
     sw.header_height(header_row, 0, headers)
     ws.freeze_panes(header_row + 1, 1)
-    inputs = list(overview.get("inputs") or [])
     link_fmt = sw.styles.get("link")
     for i, item in enumerate(inputs):
         r = header_row + 1 + i

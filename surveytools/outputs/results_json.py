@@ -43,7 +43,7 @@ JSON_INDENT = 1
 EMPTY_SECTIONS: Mapping[str, Any] = {
     "coverage": None, "overall": None, "intervals": [], "intervals_basis": None, "days": [],
     "survey_average": None, "background": None, "assessments": [], "criteria": [],
-    "exclusion_spans": [], "unplaced": [],
+    "exclusion_spans": [], "unplaced": [], "spectral": None,
 }
 
 

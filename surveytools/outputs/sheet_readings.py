@@ -11,9 +11,12 @@ import pandas as pd
 
 from surveytools.outputs import display as d
 from surveytools.outputs.book import Book
-from surveytools.outputs.xlsx_style import SHEET_MAX_ROWS, print_setup
+from surveytools.outputs.xlsx_style import SHEET_MAX_ROWS, SheetWriter, print_setup
 
 SHEET_READINGS = "Readings"
+
+#: Prefix of the canonical band column names (``LZeq_1000Hz``).
+_BAND = "LZeq_"
 
 _FIXED = {"row": "Row", "duration_s": "Duration [s]", "overload": "Overload",
           "operating": "Operating", "note": "Note", "reason": "Exclusion reason"}
@@ -27,8 +30,17 @@ def add(book: Book) -> None:
     doc = book.doc
     sw = book.sheet(SHEET_READINGS)
     ws = sw.ws
+    bands = (doc.get("spectral") or {}).get("bands_hz") or []
+    bands_left_out = bool(bands) and not any(str(c).startswith(_BAND) for c in table.columns)
+    folded = (" Band levels are in a folded column group: open it with the + above the "
+              "columns (folded columns are not printed)." if bands and not bands_left_out
+              else "")
+    left_out = (f" The {len(bands)} band levels of each reading are not repeated here for a "
+                "log this long (the input holds them; the Spectra sheet has the spectra; "
+                "run with --readings to write them too)." if bands_left_out else "")
     sw.text(0, 0, "Every row of the input's readings sheet with the levels as read and its "
-                  "exclusion reason (empty = valid). " + d.offset_note(doc), "note",
+                  "exclusion reason (empty = valid). " + d.offset_note(doc) + left_out + folded,
+            "note",
             measure=False)
     header_row = 1
     limit = SHEET_MAX_ROWS - header_row - 2
@@ -91,8 +103,25 @@ def add(book: Book) -> None:
                 "sheet; the exclusion spans cover them.", "note", measure=False)
     ws.autofilter(header_row, 0, last_row, max(len(headers) - 1, 0))
     sw.fit_columns(minimum=6.0, maximum=40.0)
+    _fold_band_columns(sw, headers)
     last_col = max(len(headers) - 1, 0)
     sw.header_height(header_row, 0, headers)
     sw.wrap_notes(last_col)
     print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 3,
                 last_row=last_row, last_col=last_col)
+
+
+def _fold_band_columns(sw: SheetWriter, headers: list[str]) -> None:
+    """Put the band-level columns in one closed outline group.
+
+    Thirty-odd band columns would make every printed page of a long sheet eleven pages
+    wide; closed, they print not at all and open with one click on screen.
+    """
+    band_cols = [i for i, h in enumerate(headers) if h.startswith(_BAND)]
+    if not band_cols:
+        return
+    for col in band_cols:
+        sw.set_width(col, sw.set_widths.get(col) or 8.0, hidden=True, level=1)
+    after = band_cols[-1] + 1
+    if after < len(headers):
+        sw.set_width(after, sw.set_widths.get(after) or 8.0, collapsed=True)

@@ -18,6 +18,7 @@ from typing import Any
 
 from surveytools.outputs import display as d
 from surveytools.outputs.book import Book
+from surveytools.outputs.spectra_sheet import summary_lines
 from surveytools.outputs.xlsx_style import (
     HEADER_LINE_HEIGHT_PT,
     PRINT_FOOTER,
@@ -302,6 +303,19 @@ def _assessments(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
     return row
 
 
+def _frequency(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
+    """One line per tone and per low-frequency flag (only with band levels)."""
+    lines = summary_lines(doc)
+    if not lines:
+        return row
+    sw.text(row, 0, "Frequency content (one-third-octave bands)", "subtitle", measure=False)
+    row += 1
+    for text, flagged in lines:
+        _para(sw, row, text, "caution" if flagged else "note_across", first=0)
+        row += 1
+    return row
+
+
 def _cautions(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
     sw.text(row, 0, "CAUTIONS", "subtitle", measure=False)
     row += 1
@@ -382,6 +396,9 @@ def add(book: Book) -> None:
     ws.set_row(row, GAP_PT)
     if doc.get("assessments"):
         row = _assessments(sw, doc, row + 1)
+        ws.set_row(row, GAP_PT)
+    if doc.get("spectral"):
+        row = _frequency(sw, doc, row + 1)
         ws.set_row(row, GAP_PT)
     row = _cautions(sw, doc, row + 1)
     last_row = _pointers(sw, doc, row) - 1

@@ -43,6 +43,7 @@ from surveytools.outputs import (
     sheet_provenance,
     sheet_readings,
     sheet_summary,
+    spectra_sheet,
 )
 from surveytools.outputs.book import SHEET_CHARTS, Book
 from surveytools.outputs.display import how_derived
@@ -78,6 +79,7 @@ SHEETS: tuple[Callable[[Book], None], ...] = (
     sheet_longer.add,
     sheet_background.add,
     sheet_assessments.add,
+    spectra_sheet.add,
     sheet_exclusions.add,
     add_episodes,
     sheet_readings.add,

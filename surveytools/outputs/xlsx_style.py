@@ -498,9 +498,21 @@ class SheetWriter:
                 width = min(max(self.widths[col] + 1.5, minimum), maximum)
             self.set_width(col, width)
 
-    def set_width(self, col: int, width: float, hidden: bool = False) -> None:
-        """Set one column's width [characters] and remember it for the print layout."""
-        self.ws.set_column(col, col, width, None, {"hidden": True} if hidden else None)
+    def set_width(self, col: int, width: float, hidden: bool = False, level: int = 0,
+                  collapsed: bool = False) -> None:
+        """Set one column's width [characters] and remember it for the print layout.
+
+        ``level`` puts the column in an outline group (a spreadsheet shows a ``+`` above the
+        columns to open it); ``collapsed`` marks the column after a closed group.
+        """
+        options: dict[str, Any] = {}
+        if hidden:
+            options["hidden"] = True
+        if level:
+            options["level"] = level
+        if collapsed:
+            options["collapsed"] = True
+        self.ws.set_column(col, col, width, None, options or None)
         self.set_widths[col] = 0.0 if hidden else width
 
     def header_height(self, row: int, col: int, names: Sequence[str], bold: bool = True

@@ -26,6 +26,7 @@ from surveytools.settings.record import settings_sha256, settings_to_mapping
 from surveytools.settings.residual import Residual
 from surveytools.settings.root import Settings
 from surveytools.settings.schema_check import SETTINGS_SCHEMA
+from surveytools.settings.spectral import Spectral
 from surveytools.settings.survey import SurveyDefaults
 
 __all__ = [
@@ -45,6 +46,7 @@ __all__ = [
     "Periods",
     "Residual",
     "Settings",
+    "Spectral",
     "SurveyDefaults",
     "load_settings",
     "settings_from_dict",

@@ -12,6 +12,10 @@ from surveytools.settings._parse import Problem
 
 #: Rating-level correction names (``corrections_db`` keys); omitted ones are 0 dB.
 CORRECTION_KEYS = ("tonal", "impulsive", "intermittency", "other")
+#: Ways a correction can be derived instead of given: ``tonal = "one-third-octave"``
+#: derives the tonal correction from the band levels (BS 4142:2014+A1:2019, one-third-octave
+#: method; see ``surveytools.assessment.spectral``).
+DERIVED_CORRECTIONS = {"tonal": ("one-third-octave",)}
 
 _LOCAL_DATETIME = re.compile(r"^\d{4}-\d{2}-\d{2}[ T]\d{2}:\d{2}(:\d{2})?$")
 
@@ -22,6 +26,8 @@ class Assessment:
 
     Windows are ``(from, to)`` local-clock ISO text pairs (``"2026-07-03 22:00"``); when
     ``use_operating_column`` is true the Readings ``Operating`` column chooses instead.
+    ``corrections_db`` holds a number [dB] per correction, or for ``tonal`` the name of the
+    method that derives it (``"one-third-octave"``).
     """
 
     name: str
@@ -29,7 +35,18 @@ class Assessment:
     source_on: tuple[tuple[str, str], ...] = ()
     residual: tuple[tuple[str, str], ...] = ()
     use_operating_column: bool = False
-    corrections_db: dict[str, float] = field(default_factory=dict)
+    corrections_db: dict[str, float | str] = field(default_factory=dict)
+
+    @property
+    def tonal_method(self) -> str | None:
+        """Method deriving the tonal correction, None when the settings give it."""
+        value = self.corrections_db.get("tonal")
+        return value if isinstance(value, str) else None
+
+    def given_correction_db(self, name: str) -> float:
+        """Return a given correction [dB]; 0 when omitted or derived."""
+        value = self.corrections_db.get(name, 0.0)
+        return 0.0 if isinstance(value, str) else float(value)
 
 
 def _parse_window_end(text: str) -> datetime | None:
@@ -81,7 +98,10 @@ def _build_one(a: Mapping[str, Any], where: str) -> tuple[Assessment, list[Probl
                                  f"the source_on windows, found an overlap "
                                  f"{_window_text(max(s_on, s_off))} to "
                                  f"{_window_text(min(e_on, e_off))}"))
-    corrections = {k: float(a.get("corrections_db", {}).get(k, 0.0)) for k in CORRECTION_KEYS}
+    given = a.get("corrections_db", {})
+    corrections: dict[str, float | str] = {
+        k: (given[k] if isinstance(given.get(k), str) else float(given.get(k, 0.0)))
+        for k in CORRECTION_KEYS}
     assessment = Assessment(
         name=str(a["name"]), position=str(a["position"]),
         source_on=tuple(windows["source_on"]), residual=tuple(windows["residual"]),

@@ -18,6 +18,8 @@ class Output:
     #: (larger logs: exclusion spans only, unless ``--readings`` is given).
     readings_row_limit: int = C.READINGS_ROW_LIMIT
     include_readings: bool = False
+    #: Band levels of each reading are written up to this many band cells (rows x bands).
+    readings_band_cell_limit: int = C.READINGS_BAND_CELL_LIMIT
 
 
 def build_output(given: Mapping[str, Any]) -> tuple[Output, list[Problem]]:
@@ -30,5 +32,6 @@ def build_output(given: Mapping[str, Any]) -> tuple[Output, list[Problem]]:
         None so far: the schema covers every rule of this section.
     """
     output = replace(Output(), **opt(given, "readings_row_limit", int),
-                     **opt(given, "include_readings", bool))
+                     **opt(given, "include_readings", bool),
+                     **opt(given, "readings_band_cell_limit", int))
     return output, []

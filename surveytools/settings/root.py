@@ -24,6 +24,7 @@ from surveytools.settings.exclusions import ExclusionRules, build_exclusions
 from surveytools.settings.output import Output, build_output
 from surveytools.settings.periods import Periods, build_periods
 from surveytools.settings.residual import Residual, build_residual
+from surveytools.settings.spectral import Spectral, build_spectral
 from surveytools.settings.survey import SurveyDefaults, build_survey
 
 _T = TypeVar("_T")
@@ -49,6 +50,7 @@ class Settings:
     criteria: tuple[Criterion, ...] = ()
     calendar: Calendar = field(default_factory=Calendar)
     output: Output = field(default_factory=Output)
+    spectral: Spectral = field(default_factory=Spectral)
 
     def to_dict(self) -> dict[str, Any]:
         """Return the effective settings as plain JSON-ready data (recorded in results).
@@ -96,5 +98,6 @@ def build_settings(data: Mapping[str, Any]) -> tuple[Settings, list[Problem]]:
         criteria=take(build_criteria(data.get("criteria", []))),
         calendar=take(build_calendar(section(data, "calendar"))),
         output=take(build_output(section(data, "output"))),
+        spectral=take(build_spectral(section(data, "spectral"))),
     )
     return settings, problems

@@ -13,13 +13,18 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from surveytools.constants import GAP_FACTOR, MAX_INTERVAL_DURATION_S
+from surveytools.constants import (
+    GAP_FACTOR,
+    MAX_INTERVAL_DURATION_S,
+    PLAUSIBLE_BAND_LEVEL_MIN_DB,
+)
 from surveytools.inputs.columns import (
     EXCLUSION_COLUMNS,
     READINGS_COLUMNS,
     SURVEY_KEYS,
     WEATHER_COLUMNS,
     canonical_name,
+    is_band_column,
     match_columns,
 )
 from surveytools.inputs.raw import RawColumn, RawTable, RawWorkbook
@@ -33,7 +38,6 @@ from surveytools.validation.findings import Finding, FindingCollector, Severity
 from surveytools.validation.schema import validate_survey
 
 #: Level columns with no standard name in the vocabulary table are recognised by prefix.
-_BAND_PREFIX = "LZeq_"
 _FLAG_COLUMNS = ("Overload", "Operating")
 _TIME_COLUMNS = ("Start", "End", "Date", "Time", "Duration")
 _SCOPES: dict[str, Scope] = {"all": "all", "background": "background"}
@@ -41,7 +45,7 @@ _SCOPES: dict[str, Scope] = {"all": "all", "background": "background"}
 
 def is_level_column(name: str) -> bool:
     """Return True for canonical level column names (``LAeq``, ``LAF90``, ``LZeq_1000Hz``)."""
-    return name.startswith(_BAND_PREFIX) or (name in READINGS_COLUMNS and name.startswith("L"))
+    return is_band_column(name) or (name in READINGS_COLUMNS and name.startswith("L"))
 
 
 @dataclass
@@ -289,8 +293,11 @@ def build_survey(raw: RawWorkbook, settings: Settings,
         col = by[name]
         nums = ck.read_numbers(col, n, cols.where, collector, what="a level", unit="dB",
                               code_prefix="level", markers=True)
+        # band levels may lie far under the broadband floor (PLAUSIBLE_BAND_LEVEL_MIN_DB)
+        low = (min(rules.level_min_db, PLAUSIBLE_BAND_LEVEL_MIN_DB)
+               if is_band_column(name) else rules.level_min_db)
         out = ck.check_level_range(nums.values, col, cols.where, collector,
-                                  rules.level_min_db, rules.level_max_db)
+                                  low, rules.level_max_db)
         levels[name] = nums.values
         overload_marker |= nums.marker
         if name == "LAeq":

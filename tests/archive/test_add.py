@@ -37,7 +37,7 @@ def test_demo_is_stored_by_position_and_month_and_adding_again_changes_nothing(
     records = _records(archive)
     assert [(r["file"], r["status"], r["position"]) for r in records] == [
         ("kl1_north_boundary.xlsx", "stored", "KL-1"), ("kl2_garden.xlsx", "stored", "KL-2"),
-        ("kl3_lane_end.xlsx", "stored", "KL-3")]
+        ("kl3_lane_end.xlsx", "stored", "KL-3"), ("kl4_pump_house.xlsx", "stored", "KL-4")]
     for record in records:
         assert len(record["sha256"]) == 64 and len(record["settings_sha256"]) == 64
         assert record["rows"] > 0 and record["first"] < record["last"]

@@ -60,7 +60,7 @@ def test_archive_of_the_demo_reports_runs_days(demo_dir, demo_archive, tmp_path)
         run_days[doc["survey"]["position"]] = doc["days"]
     report = _report(demo_archive, tmp_path / "report", "--settings", settings)
     archive_days = {p["position"]: p["days"] for p in report["positions"]}
-    assert archive_days.keys() == run_days.keys() == {"KL-1", "KL-2", "KL-3"}
+    assert archive_days.keys() == run_days.keys() == {"KL-1", "KL-2", "KL-3", "KL-4"}
     for position, days in run_days.items():
         assert [d["date"] for d in archive_days[position]] == [d["date"] for d in days]
         for mine, theirs in zip(archive_days[position], days, strict=True):
@@ -75,10 +75,11 @@ def test_report_workbook_has_every_sheet_and_the_cautions(demo_dir, demo_archive
     text = " ".join(str(c.value) for row in book["Summary"].iter_rows() for c in row
                     if c.value)
     assert "indicative" in text and "competent person" in text and "hearing" in text
-    assert len(book["Charts"]._charts) == 6  # months and years of three positions
+    assert len(book["Charts"]._charts) == 8  # months and years of four positions
     days = list(book["Days"].iter_rows(values_only=True))
     assert days[0][:3] == ("Position", "Date", "Lday [dB]")
-    assert len(days) == 1 + 8 + 8 + 1
+    # header + assessment days of KL-1 (8), KL-2 (8), KL-3 (1), KL-4 (22nd to 25th: 4)
+    assert len(days) == 1 + 8 + 8 + 1 + 4
 
 
 @pytest.fixture(scope="module")

@@ -13,7 +13,7 @@ from surveytools.settings import Assessment, Criterion, Settings
 
 SECTIONS = {"survey", "coverage", "overall", "intervals", "intervals_basis", "days",
             "survey_average", "background", "assessments", "criteria", "exclusion_spans",
-            "unplaced"}
+            "unplaced", "spectral"}
 
 
 def test_no_nan_with_empty_periods() -> None:

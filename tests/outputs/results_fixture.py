@@ -257,6 +257,7 @@ def build_results_doc(
             {"row": 14, "reason": "level-not-a-number", "raw": "n/a"},
             {"row": 2890, "reason": "time-not-readable", "raw": "31/02/2026 25:00"},
         ],
+        "spectral": None,
     }
     return doc
 
@@ -296,5 +297,5 @@ def unreadable_doc(file: str = "broken.xlsx") -> dict[str, Any]:
         "finding_counts": {"file-not-a-zip": 1},
         "coverage": None, "overall": None, "intervals": [], "intervals_basis": None,
         "days": [], "survey_average": None, "background": None, "assessments": [],
-        "criteria": [], "exclusion_spans": [], "unplaced": [],
+        "criteria": [], "exclusion_spans": [], "unplaced": [], "spectral": None,
     }

@@ -71,6 +71,10 @@ nth_highest = 10
 [output]
 readings_row_limit = 20000
 
+[spectral]
+tone_mid_db = 7
+band_total_tolerance_db = 1.5
+
 [[assessments]]
 name = "Plant at night"
 position = "NW-2"
@@ -82,6 +86,7 @@ corrections_db = { tonal = 2.0, impulsive = 0 }
 name = "Pump by column"
 position = "NW-2"
 use_operating_column = true
+corrections_db = { tonal = "one-third-octave", impulsive = 3 }
 
 [[criteria]]
 indicator = "Lnight"

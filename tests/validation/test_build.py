@@ -384,3 +384,16 @@ def test_operating_readings_are_left_out_of_background_only():
     assert ex.mask.tolist() == [True, False, False, True]
     assert s.valid_mask("all").tolist() == [True, True, True, True]
     assert s.valid_mask("background").tolist() == [False, True, True, False]
+
+
+def test_band_levels_have_their_own_lower_bound():
+    # Own choice (constants.PLAUSIBLE_BAND_LEVEL_MIN_DB, -20 dB): a quiet high-frequency
+    # one-third-octave band below the 10 dB broadband floor is a real level, a -99 sentinel
+    # is not. The broadband floor still applies to LAeq.
+    t = readings(m(3), [50.0, 51.0, 52.0], num_col("LZeq 16 kHz", "C", [5.0, -99.0, 12.0]))
+    s = build(t)
+    assert located(s) == [("Readings", 3, "C", "level-out-of-range")]
+    assert np.isnan(s.readings["LZeq_16000Hz"].to_numpy()[1])
+    assert s.readings["LZeq_16000Hz"].to_numpy()[0] == 5.0
+    settings = Settings(exclusions=ExclusionRules(level_min_db=-100.0))  # a lower floor wins
+    assert located(build(t, settings=settings)) == []
