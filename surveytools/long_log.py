@@ -24,8 +24,8 @@ How a batch is cut so that the merged result is the whole-log result:
 The cut is also a boundary of the background reference grid, so the LA90 of every
 reference interval comes from one batch too. LN of the whole survey is taken from the
 time per 0.1 dB level step (:mod:`~surveytools.assessment.parts`). Source assessments
-(``[[assessments]]``) and logged LN columns need the whole log at once: with either, the
-log is read whole (:class:`NotStreamable`).
+(``[[assessments]]``), logged LN columns and band levels (the ``spectral`` section) need
+the whole log at once: with any of them, the log is read whole (:class:`NotStreamable`).
 """
 
 from __future__ import annotations
@@ -200,12 +200,16 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
     )
     from surveytools.assessment.parts import position_parts
     from surveytools.assessment.spans import exclusion_spans_section
+    from surveytools.inputs.columns import is_band_column
 
     if merged.first_survey is None:
         merged.first_survey = survey
     ctx = build_context(survey, settings)
     if ctx.n == 0:
         return
+    if any(is_band_column(name) for name in survey.level_columns):
+        # the spectral section (issue 15) is not computed from parts yet
+        raise NotStreamable("band levels")
     if any(ctx.logged(logged_column(p)) is not None for p in settings.percentiles):
         # a logged LN column: the whole survey's LN combines every logged value
         raise NotStreamable("logged LN columns")
@@ -548,7 +552,8 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
         sections.update({"coverage": None, "overall": None, "intervals": [],
                          "intervals_basis": {}, "days": [], "survey_average": None,
                          "background": None, "assessments": [], "criteria": [],
-                         "exclusion_spans": [], "unplaced": unplaced_section(survey_rows)})
+                         "exclusion_spans": [], "unplaced": unplaced_section(survey_rows),
+                         "spectral": None})
         return sections, findings, counts
     tz = site_tz(survey.metadata)
     intervals, interval_laeq = _interval_rows(merged, settings, tz)
@@ -575,6 +580,7 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
         "criteria": criteria,
         "exclusion_spans": merged.spans,
         "unplaced": unplaced_section(survey_rows),
+        "spectral": None,  # band levels are read whole (NotStreamable)
     })
     return sections, findings, counts
 

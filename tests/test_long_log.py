@@ -199,3 +199,14 @@ def test_findings_beyond_the_cap_are_counted_once_across_batches(tmp_path, files
             == [(f["code"], f["row"], f["message"]) for f in whole["findings"]])
     _close(parts["exclusion_spans"], whole["exclusion_spans"], 1e-9)
     _close(parts["coverage"], whole["coverage"], 1e-9)
+
+
+def test_band_levels_are_read_whole(tmp_path, files, monkeypatch):
+    settings = files[2]
+    frame = _log(86400).assign(**{"LZeq_1000Hz": 50.0})
+    path = tmp_path / "mast_f.parquet"
+    frame.to_parquet(path, index=False)
+    monkeypatch.setattr(long_log, "BATCH_ROWS", 50_000)
+    read = read_input(path, settings)
+    with pytest.raises(long_log.NotStreamable):
+        long_log.long_log_sections(long_log.LongLog(path, read.source), settings)
