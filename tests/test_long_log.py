@@ -203,7 +203,7 @@ def test_findings_beyond_the_cap_are_counted_once_across_batches(tmp_path, files
 
 def test_band_levels_are_read_whole(tmp_path, files, monkeypatch):
     settings = files[2]
-    frame = _log(86400).assign(**{"LZeq_1000Hz": 50.0})
+    frame = _log(2 * 86400).assign(**{"LZeq_1000Hz": 50.0})
     path = tmp_path / "mast_f.parquet"
     frame.to_parquet(path, index=False)
     monkeypatch.setattr(long_log, "BATCH_ROWS", 50_000)
