@@ -347,10 +347,10 @@ READINGS_ROW_LIMIT = 50_000
 
 #: Band levels of each reading are repeated in the Readings sheet up to this many band cells
 #: (rows x bands); a longer band log keeps its broadband levels there, and its band levels
-#: stay in the input and in the Spectra sheet (``--readings`` writes them all). Our own
-#: choice: the workbook writer takes ~10 us a number cell here (3.2 s for a week of 1-min
-#: readings x 33 bands, tests/benchmarks/spectral_benchmark.py), so the band table of a
-#: log within this budget costs at most about a second.
+#: stay in the input and in the Spectra sheet (``--readings`` writes them all).
+#: Our own choice: the workbook writer takes ~10 us a number cell here (3.2 s for a week
+#: of 1-min readings x 33 bands, tests/benchmarks/spectral_benchmark.py), so the band
+#: table of a log within this budget costs at most about a second.
 READINGS_BAND_CELL_LIMIT = 100_000
 
 #: Earliest plausible start of a logged reading (1980-01-01) [year]. Own choice, generous:

@@ -24,6 +24,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import datetime, timedelta
 from pathlib import Path
+from typing import Any
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -182,6 +183,19 @@ def _levels(pos: DemoPosition, hours: np.ndarray, rng: np.random.Generator,
              "LAFmin": lafmin}.items()}
 
 
+def _write_survey_rows(survey: Any, rows: list[tuple[str, Any]], bold: Any) -> None:
+    """Write the Survey sheet's key / value pairs under a bold header row."""
+    survey.write_row(0, 0, ("Field", "Value"), bold)
+    for i, (k, v) in enumerate(rows, start=1):
+        survey.write_string(i, 0, k)
+        if isinstance(v, str):
+            survey.write_string(i, 1, v)
+        else:
+            survey.write_number(i, 1, v)
+    survey.set_column(0, 0, 26)
+    survey.set_column(1, 1, 52)
+
+
 def _write_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> None:
     import xlsxwriter
 
@@ -208,15 +222,7 @@ def _write_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> 
             ("Calibrator level (dB)", 94.0), ("Microphone", "free-field"),
             ("Height (m)", 4.0 if pos.position == "KL-3" else 1.5),
             ("Notes", "Invented data for the surveytools demo.")]
-    survey.write_row(0, 0, ("Field", "Value"), bold)
-    for i, (k, v) in enumerate(rows, start=1):
-        survey.write_string(i, 0, k)
-        if isinstance(v, str):
-            survey.write_string(i, 1, v)
-        else:
-            survey.write_number(i, 1, v)
-    survey.set_column(0, 0, 26)
-    survey.set_column(1, 1, 52)
+    _write_survey_rows(survey, rows, bold)
 
     ws = wb.add_worksheet("Readings")
     ws.write_string(0, 0, f"Logged levels, position {pos.position} (demo export)")
@@ -352,15 +358,7 @@ def _write_band_position(path: Path, pos: DemoPosition, rng: np.random.Generator
             ("Calibrator level (dB)", 94.0), ("Microphone", "free-field"), ("Height (m)", 1.5),
             ("Notes", "Invented data for the surveytools demo: one-third-octave bands, "
                       "Z-weighted.")]
-    survey.write_row(0, 0, ("Field", "Value"), bold)
-    for i, (k, v) in enumerate(rows, start=1):
-        survey.write_string(i, 0, k)
-        if isinstance(v, str):
-            survey.write_string(i, 1, v)
-        else:
-            survey.write_number(i, 1, v)
-    survey.set_column(0, 0, 26)
-    survey.set_column(1, 1, 52)
+    _write_survey_rows(survey, rows, bold)
 
     ws = wb.add_worksheet("Readings")
     ws.write_string(0, 0, f"Logged levels, position {pos.position} (demo export)")

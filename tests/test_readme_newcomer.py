@@ -36,7 +36,7 @@ def test_five_steps_template_fill_check_run_verify_in_order() -> None:
 def test_the_assumed_time_zone_trap_is_explained() -> None:
     text = _section("Your own survey, step by step")
     trap = text[text.index("assumed time zone trap"):]
-    assert "UTC is assumed" in trap and "Time zone" in trap and "survey-default-used" in trap
+    assert "else UTC" in trap and "Time zone" in trap and "time-zone-assumed" in trap
 
 
 def test_demo_results_are_ignored_by_git() -> None:
