@@ -210,3 +210,23 @@ def test_band_levels_are_read_whole(tmp_path, files, monkeypatch):
     read = read_input(path, settings)
     with pytest.raises(long_log.NotStreamable):
         long_log.long_log_sections(long_log.LongLog(path, read.source), settings)
+
+
+def test_run_of_a_long_log_writes_a_valid_document_and_workbook(tmp_path, files,
+                                                                monkeypatch):
+    from openpyxl import load_workbook
+
+    from surveytools.outputs.results_json import validate_results
+    from surveytools.pipeline import run_file
+
+    path, settings = files[1], files[2]
+    monkeypatch.setattr(long_log, "STREAM_PARQUET_ROWS", 1000)
+    monkeypatch.setattr(long_log, "BATCH_ROWS", 100_000)
+    outcome = run_file(path, tmp_path, "mast_b", settings)
+    assert outcome.status == "errors"  # the duplicated row is an error finding
+    doc = __import__("json").loads((tmp_path / "mast_b.results.json").read_text("utf-8"))
+    assert validate_results(doc) == []
+    assert doc["background"]["night"]["LA90"] is not None
+    book = load_workbook(tmp_path / "mast_b.results.xlsx", read_only=True)
+    assert {"Days", "Intervals", "Background", "Exclusions"} <= set(book.sheetnames)
+    assert book["Intervals"].max_row > len(doc["intervals"])  # one row each, plus headers
