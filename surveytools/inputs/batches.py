@@ -148,8 +148,10 @@ class LogBatches:
                 raw_columns.append(_column(arr, header, letter, name or header,
                                            self.settings))
                 continue
-            values = pd.Series(arr.to_numpy(zero_copy_only=False), dtype=object)
-            col = convert_text_column(values, header, letter, name)
+            col = _plain_numbers(arr, header, letter, name)
+            if col is None:  # text cells, blanks or dates: the whole-file reader's rules
+                values = pd.Series(arr.to_numpy(zero_copy_only=False), dtype=object)
+                col = convert_text_column(values, header, letter, name)
             if not header and col.kind == "empty":
                 continue
             raw_columns.append(col)
@@ -160,6 +162,31 @@ class LogBatches:
             _clean(out, findings)
             self.findings.extend(findings)
         return out
+
+
+def _plain_numbers(arr: Any, header: str, letter: str, name: str | None) -> RawColumn | None:
+    """Convert a CSV column whose every cell is a finite number with pyarrow; else None.
+
+    The same column the whole-file reader makes of it (kind ``number``, no text cells); any
+    other column (a blank, a marker, a time stamp) returns None and is converted by
+    :func:`~surveytools.inputs.csv_input.convert_text_column`.
+    """
+    import numpy as np
+    import pandas as pd
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    expected = cols.EXPECTED_KIND.get(name or "", "number" if (name or "").startswith("LZeq_")
+                                      else "")
+    if expected not in ("", "number") or len(arr) == 0:
+        return None
+    try:
+        numbers = pc.cast(arr, pa.float64()).to_numpy(zero_copy_only=False)
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        return None
+    if not np.isfinite(numbers).all():
+        return None
+    return RawColumn(header, letter, "number", pd.Series(numbers, dtype="float64"))
 
 
 def open_log(path: Path, settings: Settings) -> LogBatches | None:
