@@ -30,6 +30,7 @@ the whole log at once: with any of them, the log is read whole (:class:`NotStrea
 
 from __future__ import annotations
 
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
 from datetime import date, timedelta
 from pathlib import Path
@@ -281,6 +282,11 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
     own_first = 0  # data position of the first row not yet assessed
     floor_ms: int | None = None  # earliest start a later reading may have
     position = 0
+    # the assessment of a batch runs in a second thread while the next batch is read and
+    # validated (pyarrow and numpy release the interpreter lock for most of it); one batch
+    # at most is in flight, so memory stays about two batches' worth
+    pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="long-log") if assess else None
+    pending: Future[None] | None = None
     try:
         source = batches.tables(BATCH_ROWS)
         table = next(source, None)
@@ -335,8 +341,11 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
             u_keep = (u_rows >= first_own_row) & (u_rows < (stop_row or np.iinfo(np.int64).max))
             if u_keep.any():
                 merged.unplaced.append(unplaced.loc[u_keep])
-            if assess:
-                _assess_batch(merged, _own_survey(survey, assessed), settings)
+            if pool is not None:
+                if pending is not None:
+                    pending.result()  # raises what the assessment raised
+                pending = pool.submit(_assess_batch, merged, _own_survey(survey, assessed),
+                                      settings)
             elif merged.first_survey is None:
                 merged.first_survey = survey
             # what the next batch starts from
@@ -349,8 +358,13 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
             if carried.num_rows > MAX_CARRIED_ROWS:
                 raise NotStreamable("no reporting-interval boundary to cut at")
             table = following
+        if pending is not None:
+            pending.result()
     except BatchReadError as exc:
         raise NotStreamable(str(exc)) from exc
+    finally:
+        if pool is not None:
+            pool.shutdown(wait=True, cancel_futures=True)
     if merged.first_survey is None:
         raise NotStreamable("no data rows")
     return merged
