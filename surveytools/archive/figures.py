@@ -25,7 +25,7 @@ from surveytools.assessment.daily import (
     PERIOD_NAMES,
     day_entries,
     lden_period_names,
-    penalised,
+    period_figures,
     scheme_times,
     scheme_times_of,
 )
@@ -67,11 +67,7 @@ def _span_figures(parts: PositionParts, rows: np.ndarray, calendar: list[date],
     coverage = np.divide(valid_lden, length_ms, out=np.zeros(3), where=length_ms > 0)
     lden, ldn = levels
     return {
-        "Lday": db(lden[0]),
-        "Levening": db(lden[1]),
-        "Lnight": db(lden[2]),
-        "Lden": db(penalised(lden, periods.lden)),
-        "Ldn": db(penalised(ldn, periods.ldn)),
+        **period_figures(lden, ldn, periods),
         "coverage": {name: fraction(coverage[k]) for k, name in enumerate(PERIOD_NAMES)},
         "valid_s": {name: seconds(valid_lden[k] / MS_PER_S)
                     for k, name in enumerate(PERIOD_NAMES)},

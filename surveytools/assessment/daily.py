@@ -35,7 +35,7 @@ from surveytools.indicators.levels import (
     grouped_valid_duration,
 )
 from surveytools.indicators.periods import penalised_day_evening_night, scheme_hours
-from surveytools.settings import PeriodScheme, Settings
+from surveytools.settings import Periods, PeriodScheme, Settings
 
 #: Periods of a scheme, in order.
 PERIOD_NAMES = ("day", "evening", "night")
@@ -314,6 +314,26 @@ def day_entries(days: list[date], settings: Settings, schemes: SchemeResults,
     return out
 
 
+def period_figures(lden: FloatArray, ldn: FloatArray, periods: Periods) -> dict[str, Any]:
+    """Lday, Levening, Lnight, Lden and Ldn of one span from its period levels [dB].
+
+    Parameters
+    ----------
+    lden, ldn : numpy.ndarray
+        Day, evening, night levels of the Lden scheme and day, (evening,) night levels of
+        the Ldn scheme over the span. [dB]
+    periods : Periods
+        The configured period schemes (penalties and hours).
+    """
+    return {
+        "Lday": db(lden[0]),
+        "Levening": db(lden[1]),
+        "Lnight": db(lden[2]),
+        "Lden": db(penalised(lden, periods.lden)),
+        "Ldn": db(penalised(ldn, periods.ldn)),
+    }
+
+
 def survey_average_section(ctx: Context, schemes: SchemeResults | None
                            ) -> dict[str, Any] | None:
     """Energy average of all valid time of each period type over the survey, then formulas.
@@ -333,11 +353,7 @@ def survey_average_from_schemes(schemes: SchemeResults, settings: Settings) -> d
     cnel, _ = scheme_average(schemes.cnel)
     pair, _ = scheme_average(schemes.pair)
     return {
-        "Lday": db(lden[0]),
-        "Levening": db(lden[1]),
-        "Lnight": db(lden[2]),
-        "Lden": db(penalised(lden, periods.lden)),
-        "Ldn": db(penalised(ldn, periods.ldn)),
+        **period_figures(lden, ldn, periods),
         "CNEL": db(penalised(cnel, periods.cnel)),
         "LAeq_16h": db(pair[0]),
         "LAeq_8h": db(pair[2]),
