@@ -383,9 +383,12 @@ def _close_pipes(proc: subprocess.Popen[bytes]) -> None:
 
 
 #: What a worker's last words say when it ran out of memory (Python, Rust, the C library).
+#: A thread whose stack cannot be mapped under the worker's address-space limit fails with
+#: "can't start new thread" (Python's RuntimeError for pthread_create's EAGAIN/ENOMEM).
 OUT_OF_MEMORY_SIGNS = ("MemoryError", "memory allocation", "Cannot allocate memory",
                        "cannot allocate memory", "[Errno 12]", "std::bad_alloc",
-                       "failed to map segment", "Memory allocation still failed")
+                       "failed to map segment", "Memory allocation still failed",
+                       "can't start new thread")
 
 
 #: glibc malloc tuning for the workers: keep freed memory for reuse instead of returning it

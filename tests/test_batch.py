@@ -102,3 +102,16 @@ def test_only_files_found_in_folders_wait_to_settle(tmp_path: Path) -> None:
     assert [c.path for c in ready] == [path] and deferred == []
     found, _ = discover([tmp_path])
     assert [c.from_folder for c in found] == [True]
+
+
+def test_a_worker_that_cannot_start_a_thread_under_its_limit_ran_out_of_memory(
+        tmp_path: Path) -> None:
+    # Under an address-space limit, a thread's stack cannot be mapped and Python says
+    # "RuntimeError: can't start new thread" (exit status 1): a memory condition, not a
+    # fault of the tool.
+    from surveytools.batch import _crash_failure
+
+    err = ("Traceback (most recent call last):\n  File \"x.py\", line 1, in <module>\n"
+           "RuntimeError: can't start new thread\n")
+    failure = _crash_failure(tmp_path / "good.xlsx", 1, err)
+    assert [f["code"] for f in failure["findings"]] == ["worker-out-of-memory"]
