@@ -13,7 +13,7 @@ from typing import Any
 
 import xlsxwriter
 
-from surveytools.outputs.display import level, share
+from surveytools.outputs.display import get, level, share
 from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
     WORKBOOK_OPTIONS,
@@ -52,15 +52,6 @@ def safe_link_name(results_xlsx: object) -> str | None:
     if ".." in name or not SAFE_OUTPUT_NAME_RE.match(name):
         return None
     return name
-
-
-def _get(mapping: object, *keys: str) -> Any:
-    node: Any = mapping
-    for key in keys:
-        if not isinstance(node, Mapping):
-            return None
-        node = node.get(key)
-    return node
 
 
 def write_overview_workbook(path: Path, overview: dict[str, Any]) -> None:
@@ -164,13 +155,13 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
                 else "wrap", measure=False)
         conditions = _conditions_text(item)
         sw.text(r, 5, conditions, "wrap", measure=False)
-        sw.number(r, 6, share(_get(item, "coverage", "valid_fraction")), "percent1")
+        sw.number(r, 6, share(get(item, "coverage", "valid_fraction")), "percent1")
         avg = item.get("survey_average") or {}
         for j, key in enumerate(("Lden", "Lday", "Levening", "Lnight")):
             sw.number(r, 7 + j, level(avg.get(key)), "level")
-        whole = _get(item, "background", "method") == "mode"
+        whole = get(item, "background", "method") == "mode"
         for j, period in enumerate(("day", "night")):
-            sw.number(r, 11 + j, level(_get(item, "background", period), whole),
+            sw.number(r, 11 + j, level(get(item, "background", period), whole),
                       "whole_db" if whole else "level")
         sw.number(r, 13, level(item.get("worst_excess_over_background")), "level")
         failed = item.get("criteria_failed")
