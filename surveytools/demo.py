@@ -183,6 +183,17 @@ def _levels(pos: DemoPosition, hours: np.ndarray, rng: np.random.Generator,
              "LAFmin": lafmin}.items()}
 
 
+def _new_workbook(path: Path, pos: DemoPosition) -> tuple[Any, Any, Any]:
+    """Open a demo workbook with fixed properties; return it, a date-time and a bold format."""
+    import xlsxwriter
+
+    wb = xlsxwriter.Workbook(str(path), {"strings_to_formulas": False, "constant_memory": False})
+    wb.set_properties({"title": f"Survey log {pos.position}", "author": "surveytools demo",
+                       "created": datetime(2026, 10, 28, 9, 0)})
+    return (wb, wb.add_format({"num_format": "yyyy-mm-dd hh:mm:ss"}),
+            wb.add_format({"bold": True}))
+
+
 def _write_survey_rows(survey: Any, rows: list[tuple[str, Any]], bold: Any) -> None:
     """Write the Survey sheet's key / value pairs under a bold header row."""
     survey.write_row(0, 0, ("Field", "Value"), bold)
@@ -197,8 +208,6 @@ def _write_survey_rows(survey: Any, rows: list[tuple[str, Any]], bold: Any) -> N
 
 
 def _write_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> None:
-    import xlsxwriter
-
     stamps = _wall_clock_series(pos)
     hours = _local_hours(stamps)
     nights_off = {datetime(2026, 10, 24).date(), datetime(2026, 10, 26).date()}
@@ -208,11 +217,7 @@ def _write_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> 
         else np.zeros(len(stamps), dtype=bool)
     lv = _levels(pos, hours, rng, plant_on)
 
-    wb = xlsxwriter.Workbook(str(path), {"strings_to_formulas": False, "constant_memory": False})
-    wb.set_properties({"title": f"Survey log {pos.position}", "author": "surveytools demo",
-                       "created": datetime(2026, 10, 28, 9, 0)})
-    dt_fmt = wb.add_format({"num_format": "yyyy-mm-dd hh:mm:ss"})
-    bold = wb.add_format({"bold": True})
+    wb, dt_fmt, bold = _new_workbook(path, pos)
 
     survey = wb.add_worksheet("Survey")
     rows = [("Position", pos.position), ("Site", SITE), ("Description", pos.description),
@@ -336,8 +341,6 @@ def _band_levels(pos: DemoPosition, hours: np.ndarray, rng: np.random.Generator,
 
 def _write_band_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> None:
     """Write a position whose meter also exports one-third-octave band levels (KL-4)."""
-    import xlsxwriter
-
     stamps = _wall_clock_series(pos)
     hours = _local_hours(stamps)
     owner = np.array([(t - timedelta(hours=7)).date() for t in stamps])
@@ -345,11 +348,7 @@ def _write_band_position(path: Path, pos: DemoPosition, rng: np.random.Generator
     pump_on = ((hours >= 23) | (hours < 5)) & np.array([d in pump_nights for d in owner])
     levels, broadband = _band_levels(pos, hours, rng, pump_on)
 
-    wb = xlsxwriter.Workbook(str(path), {"strings_to_formulas": False, "constant_memory": False})
-    wb.set_properties({"title": f"Survey log {pos.position}", "author": "surveytools demo",
-                       "created": datetime(2026, 10, 28, 9, 0)})
-    dt_fmt = wb.add_format({"num_format": "yyyy-mm-dd hh:mm:ss"})
-    bold = wb.add_format({"bold": True})
+    wb, dt_fmt, bold = _new_workbook(path, pos)
     survey = wb.add_worksheet("Survey")
     rows = [("Position", pos.position), ("Site", SITE), ("Description", pos.description),
             ("Time zone", TIME_ZONE), ("Clock", "local"), ("Meter class", 1),
