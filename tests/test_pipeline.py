@@ -324,22 +324,8 @@ def test_band_columns_offset_give_a_located_warning(tmp_path: Path) -> None:
     # Three band columns spelled three ways (README column table); the 1 kHz column is 3 dB
     # too high. Hand-evaluated with IEC 61672-1:2013 Table 3 weights (-0.8 / 0 / +0.6 dB):
     # band total 63 + 10 lg(1 + 10**-1.38 + 10**-1.24) = 63.41 dB against a logged 60.8 dB.
-    import openpyxl
-
     path = tmp_path / "bands.xlsx"
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    assert ws is not None
-    ws.title = "Survey"
-    for row in (["Field", "Value"], ["Position", "P1"], ["Time zone", "UTC"],
-                ["Calibration before (dB)", 94.0], ["Calibration after (dB)", 94.0]):
-        ws.append(row)
-    rd = wb.create_sheet("Readings")
-    rd.append(["Start", "Duration (s)", "LAeq (dB)", "LZeq 800 Hz", "1 kHz", "1250"])
-    for i in range(8):
-        rd.append([datetime(2026, 6, 1, 12, 0) + timedelta(minutes=15 * i), 900, 60.8,
-                   50.0, 63.0, 50.0])
-    wb.save(path)
+    _band_workbook(path, 8)
     doc, _ = build_document(path, Settings())
     assert validate_results(doc) == []
     assert doc["status"] == "warnings"
