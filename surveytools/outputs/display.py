@@ -203,6 +203,23 @@ def verdict_of(doc: Mapping[str, Any]) -> dict[str, Any]:
     return verdict_section(doc)
 
 
+def level_axis(values: Iterable[object], **options: Any) -> dict[str, Any]:
+    """Return a chart's level (y) axis options: titled in dB, fitted to ``values``.
+
+    Parameters
+    ----------
+    values : iterable
+        Levels and limits the chart shows. [dB]
+    **options
+        Further xlsxwriter axis options (gridlines ...).
+    """
+    axis: dict[str, Any] = {"name": "Level [dB]", "num_format": "0", **options}
+    rng = axis_range(values)
+    if rng is not None:
+        axis["min"], axis["max"] = rng
+    return axis
+
+
 def axis_range(values: Iterable[object], step: float = 5.0,
                margin: float = 2.0) -> tuple[float, float] | None:
     """Return a level axis (min, max) in ``step`` dB that holds every value with a margin.

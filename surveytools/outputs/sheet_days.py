@@ -164,14 +164,9 @@ def _chart(book: Book, sheet: str, header_row: int, last: int,
         chart.combine(line)
     values = [day.get(k) for day in days for k in CHART_INDICATORS]
     values += [lim for _, lim, _ in chart_limits]
-    y_axis: dict[str, Any] = {"name": "Level [dB]", "num_format": "0",
-                              "major_gridlines": {"visible": True,
-                                                  "line": {"color": "#D9D9D9"}}}
-    rng = d.axis_range(values)
-    if rng is not None:
-        y_axis["min"], y_axis["max"] = rng
     chart.set_title({"name": "Daily period levels (reported, dB)"})
-    chart.set_y_axis(y_axis)
+    chart.set_y_axis(d.level_axis(values, major_gridlines={"visible": True,
+                                                           "line": {"color": "#D9D9D9"}}))
     chart.set_x_axis({"name": "Assessment day", "num_format": "yyyy-mm-dd", "text_axis": True})
     chart.set_legend({"position": "bottom"})
     chart.show_hidden_data()

@@ -172,11 +172,7 @@ def add(book: Book) -> None:
         shown.append(lim)
     chart.set_title({"name": "Time history (reporting intervals, reported levels)"})
     chart.set_x_axis(time_axis(intervals[0].get("start"), intervals[-1].get("end")))
-    y_axis: dict[str, Any] = {"name": "Level [dB]", "num_format": "0"}
-    rng = d.axis_range(shown)
-    if rng is not None:
-        y_axis["min"], y_axis["max"] = rng
-    chart.set_y_axis(y_axis)
+    chart.set_y_axis(d.level_axis(shown))
     chart.set_legend({"position": "bottom"})
     chart.show_blanks_as("gap")
     chart.show_hidden_data()

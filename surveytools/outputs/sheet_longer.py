@@ -138,11 +138,7 @@ def _add_one(book: Book, interval_s: float, criteria: list[Mapping[str, Any]]) -
     names = ", ".join(f"{i},{label}" for i in indicators)
     chart.set_title({"name": f"{names} as judged by the criteria (reported, dB)"})
     chart.set_x_axis(time_axis(starts[0], starts[-1]))
-    y_axis: dict[str, Any] = {"name": "Level [dB]", "num_format": "0"}
-    rng = d.axis_range(shown)
-    if rng is not None:
-        y_axis["min"], y_axis["max"] = rng
-    chart.set_y_axis(y_axis)
+    chart.set_y_axis(d.level_axis(shown))
     chart.set_legend({"position": "bottom"})
     chart.show_blanks_as("gap")
     book.add_chart(chart, f"{label} figures from the {ws.name} sheet; dashed lines are the "
