@@ -30,7 +30,6 @@ import argparse
 import json
 import shutil
 import statistics
-import subprocess
 import sys
 import tempfile
 import time
@@ -38,26 +37,12 @@ from pathlib import Path
 
 import numpy as np
 
-MEASURE = (
-    "import resource, subprocess, sys, time, json; t = time.perf_counter(); "
-    "p = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE); "
-    "dt = time.perf_counter() - t; "
-    "print(json.dumps({'s': dt, 'rc': p.returncode, "
-    "'rss_mib': resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024, "
-    "'err': p.stderr.decode()[-400:]}))"
-)
+# the same fresh-process-tree measurement as the run benchmark (this folder is on sys.path
+# when the script runs)
+from run_benchmarks import measure
+
 BARE_READ = ("import sys, pyarrow.parquet as pq; t = pq.read_table(sys.argv[1]); "
              "print(t.num_rows)")
-
-
-def measure(cmd: list[str]) -> dict[str, float]:
-    """Run ``cmd`` in a fresh process tree; return wall seconds and the peak RSS [MiB]."""
-    out = subprocess.run([sys.executable, "-c", MEASURE, *cmd], capture_output=True,
-                         text=True, check=True)
-    res = json.loads(out.stdout)
-    if res["rc"] not in (0, 1):
-        raise SystemExit(f"command failed ({res['rc']}): {' '.join(cmd)}\n{res['err']}")
-    return res
 
 
 def surveytools(*args: str) -> list[str]:
