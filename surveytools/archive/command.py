@@ -113,10 +113,14 @@ def execute_add(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
 
 def execute_report(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """Run ``archive report``."""
-    from surveytools.archive.report import DEFAULT_WORKER_MEMORY, ReportOptions, build_report
+    from surveytools.archive.report import (
+        DEFAULT_WORKER_MEMORY,
+        LocalClusterStart,
+        ReportOptions,
+        build_report,
+    )
     from surveytools.archive.report import parse_date as report_date
     from surveytools.archive.window import DateWindow
-    from surveytools.settings import load_settings
 
     if args.workers < 1:
         err.write("surveytools: --workers must be at least 1\n")
@@ -126,12 +130,24 @@ def execute_report(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if window.first and window.last and window.first > window.last:
         err.write("surveytools: --from is after --to\n")
         return EXIT_USAGE
+    memory_limit = args.memory_limit or DEFAULT_WORKER_MEMORY
+    # the local cluster's workers start while the settings and the records are read
+    started = None if args.scheduler else LocalClusterStart(args.workers, memory_limit)
+    try:
+        from surveytools.settings import load_settings
+
+        settings = load_settings(args.settings)
+    except BaseException:
+        if started is not None:
+            started.close()
+        raise
     options = ReportOptions(
-        archive=str(args.archive), settings=load_settings(args.settings), window=window,
+        archive=str(args.archive), settings=settings, window=window,
         positions=tuple(args.position), workers=args.workers, scheduler=args.scheduler,
-        memory_limit=args.memory_limit or DEFAULT_WORKER_MEMORY)
+        memory_limit=memory_limit)
     bar = _bar(err, not args.quiet)
-    doc = build_report(options, progress=lambda done, total: bar(done, total, "partitions"))
+    doc = build_report(options, progress=lambda done, total: bar(done, total, "partitions"),
+                       started=started)
     paths = write_report(args.output, doc)
     for line in doc["problems"]:
         out.write(f"problem: {line}\n")

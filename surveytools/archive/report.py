@@ -1,10 +1,15 @@
 """``archive report``: long-term figures of every position, computed on Dask.
 
-Each position-month partition of the archive is one task: a worker reads its files,
+The position-month partitions of each position are grouped into tasks of about
+:data:`TASK_BYTES` of stored Parquet (a month at 1 s is a task of its own; the twelve small
+months of a 1-minute archive are one). A worker reads a task's partitions one by one,
 rebuilds the readings as a :class:`~surveytools.survey.Survey` with the exclusions stored
-at ingest, and computes its :class:`~surveytools.assessment.parts.PositionParts` with the
-assessment's own functions. The client merges the parts of each position as they arrive
-(``+``) and builds the figures (:mod:`surveytools.archive.figures`).
+at ingest, computes their :class:`~surveytools.assessment.parts.PositionParts` with the
+assessment's own functions and adds them up (``+``). Once every task of a position has
+finished, one more task on a worker adds that position's parts in a fixed order and builds
+its figures (:mod:`surveytools.archive.figures`); the client receives only those figures,
+so it stays idle while the workers compute and the result does not depend on which task
+finished first.
 
 By default the tasks run on an embedded local cluster (``workers`` worker processes on
 127.0.0.1, one thread each, a memory limit per worker, no dashboard); with ``scheduler``
@@ -16,16 +21,21 @@ filesystem's package is installed on the client and on every worker).
 from __future__ import annotations
 
 import logging
+import threading
+import time
+import warnings
 from collections.abc import Callable, Iterator
-from contextlib import contextmanager
+from contextlib import contextmanager, suppress
 from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from surveytools.archive.store import LAYOUT_VERSION, RECORDS_FILE, ArchiveError, IngestRecord
 from surveytools.archive.window import DateWindow
-from surveytools.assessment.parts import PositionParts
 from surveytools.settings import Settings
+
+if TYPE_CHECKING:
+    from surveytools.assessment.parts import PositionParts
 
 #: Schema version of ``archive-report.json``.
 REPORT_SCHEMA_VERSION = "1.0"
@@ -36,6 +46,11 @@ DEFAULT_WORKER_MEMORY = "2GiB"
 UNUSED_COLUMNS = ("exclusion", "row")
 #: Seconds to wait for a named scheduler to answer (own choice).
 SCHEDULER_TIMEOUT_S = 30
+#: Stored bytes a task reads at most, unless one partition alone is larger (own choice:
+#: a task costs some tens of milliseconds whatever its size — scheduling, one split of the
+#: readings at every boundary — so a 1-minute archive's months, about 0.4 MB each, are
+#: read twelve to a task; a month at 1 s, about 14 MB, is a task of its own) [bytes].
+TASK_BYTES = 8 << 20
 
 
 @dataclass(frozen=True)
@@ -47,6 +62,38 @@ class PartitionTask:
     files: tuple[str, ...]
     clock: str | None
     time_zone: str | None
+    size: int = 0
+
+
+@dataclass(frozen=True)
+class TaskGroup:
+    """Consecutive partitions of one position, read by one task."""
+
+    position: str
+    partitions: tuple[PartitionTask, ...]
+
+    @property
+    def months(self) -> str:
+        """The months read, for messages (``2026-01..2026-12``)."""
+        first, last = self.partitions[0].month, self.partitions[-1].month
+        return first if first == last else f"{first}..{last}"
+
+
+@dataclass(frozen=True)
+class GroupParts:
+    """What one task returns: the summed parts of its partitions and their problems."""
+
+    parts: PositionParts | None
+    problems: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class PositionResult:
+    """Figures of one position (its ``positions[]`` entry) and its partitions' problems."""
+
+    position: str
+    section: dict[str, Any] | None
+    problems: tuple[str, ...]
 
 
 @dataclass(frozen=True)
@@ -121,7 +168,7 @@ def _month_may_hold(month: str, window: DateWindow) -> bool:
 def partition_tasks(archive: str, records: list[IngestRecord], options: ReportOptions
                     ) -> tuple[list[PartitionTask], list[str]]:
     """Tasks of the partitions to read, and cautions about the positions' clocks."""
-    _, root = _filesystem(archive)
+    fs, root = _filesystem(archive)
     stored = [r for r in records if r.status == "stored" and r.position is not None]
     wanted = set(options.positions)
     files: dict[tuple[str, str], list[str]] = {}
@@ -134,7 +181,9 @@ def partition_tasks(archive: str, records: list[IngestRecord], options: ReportOp
         for rel in record.files:
             month = rel.split("/month=")[1].split("/")[0]
             if _month_may_hold(month, options.window):
-                files.setdefault((record.position, month), []).append(f"{root}/{rel}")
+                # with its protocol (s3://...), so a worker opens it on the same filesystem
+                files.setdefault((record.position, month), []).append(
+                    fs.unstrip_protocol(f"{root}/{rel}"))
     cautions = []
     for position, seen in sorted(clocks.items()):
         if len(set(seen)) > 1:
@@ -142,9 +191,40 @@ def partition_tasks(archive: str, records: list[IngestRecord], options: ReportOp
             cautions.append(
                 f"position {position}: its inputs name different clocks or time zones "
                 f"({', '.join(named)}); periods follow the last input added")
-    tasks = [PartitionTask(position, month, tuple(sorted(paths)), *clocks[position][-1])
+    tasks = [PartitionTask(position, month, tuple(sorted(paths)), *clocks[position][-1],
+                           size=_stored_bytes(fs, paths))
              for (position, month), paths in sorted(files.items())]
     return tasks, cautions
+
+
+def _stored_bytes(fs: Any, paths: list[str]) -> int:
+    """Bytes of the files (0 for one that cannot be asked: its task reports it)."""
+    total = 0
+    for path in paths:
+        with suppress(OSError, ValueError):
+            total += int(fs.size(path) or 0)
+    return total
+
+
+def group_tasks(tasks: list[PartitionTask], task_bytes: int = TASK_BYTES) -> list[TaskGroup]:
+    """Group consecutive partitions of each position into tasks of at most ``task_bytes``.
+
+    The grouping depends only on the archive (never on the number of workers), so the
+    figures are added up in the same order whatever runs them.
+    """
+    groups: list[TaskGroup] = []
+    current: list[PartitionTask] = []
+    size = 0
+    for task in tasks:  # sorted by position, then month
+        if current and (task.position != current[0].position
+                        or size + task.size > task_bytes):
+            groups.append(TaskGroup(current[0].position, tuple(current)))
+            current, size = [], 0
+        current.append(task)
+        size += task.size
+    if current:
+        groups.append(TaskGroup(current[0].position, tuple(current)))
+    return groups
 
 
 def _read_partition(task: PartitionTask) -> Any:
@@ -205,16 +285,76 @@ def partition_parts(task: PartitionTask, settings: Settings, window: DateWindow
     return position_parts(build_context(survey, settings))
 
 
+class LocalClusterStart:
+    """An embedded local Dask cluster, started in a background thread.
+
+    ``archive report`` starts it first, so that its worker processes come up while the
+    client loads the settings, reads the ingest records and plans the tasks.
+    """
+
+    def __init__(self, workers: int, memory_limit: str) -> None:
+        self._cluster: Any = None
+        self._error: BaseException | None = None
+        self._thread = threading.Thread(target=self._start, args=(workers, memory_limit),
+                                        name="dask-cluster-start", daemon=True)
+        self._thread.start()
+
+    def _start(self, workers: int, memory_limit: str) -> None:
+        # the scheduler's status page wants port 8787 and takes another one when that is
+        # busy (a second report, the user's own cluster), with a warning that is no news
+        # to our users: ignored, in this process only
+        warnings.filterwarnings("ignore", message=r"Port \d+ is already in use",
+                                category=UserWarning)
+        try:
+            from distributed import LocalCluster
+
+            self._cluster = LocalCluster(n_workers=workers, threads_per_worker=1,
+                                         processes=True, memory_limit=memory_limit,
+                                         host="127.0.0.1", dashboard_address=None,
+                                         silence_logs=logging.CRITICAL)
+        except BaseException as exc:  # handed to the thread that waits for the cluster
+            self._error = exc
+
+    def cluster(self) -> Any:
+        """Wait for the cluster and return it.
+
+        Raises
+        ------
+        ArchiveError
+            If it could not start.
+        """
+        self._thread.join()
+        error = self._error
+        if isinstance(error, RuntimeError | OSError | TimeoutError | ValueError):
+            raise ArchiveError(
+                f"the local Dask cluster could not start ({type(error).__name__}: "
+                f"{str(error)[:200]}); check --workers and --memory-limit, or name a "
+                "running cluster with --scheduler") from error
+        if error is not None:
+            raise error
+        return self._cluster
+
+    def close(self) -> None:
+        """Stop the cluster (waiting for it to finish starting first)."""
+        self._thread.join()
+        if self._cluster is not None:
+            self._cluster.close()
+            self._cluster = None
+
+
 @contextmanager
-def dask_client(options: ReportOptions) -> Iterator[Any]:
+def dask_client(options: ReportOptions, started: LocalClusterStart | None = None
+                ) -> Iterator[Any]:
     """Yield a Dask client: on the named scheduler, or on an embedded local cluster.
+
+    ``started`` is the embedded cluster when it was started earlier (it is closed here).
 
     Raises
     ------
     ArchiveError
-        If the named scheduler does not answer.
+        If the named scheduler does not answer or the local cluster cannot start.
     """
-    from distributed import Client, LocalCluster
+    from distributed import Client
 
     if options.scheduler:
         try:
@@ -229,24 +369,15 @@ def dask_client(options: ReportOptions) -> Iterator[Any]:
         finally:
             client.close()
         return
+    starting = started or LocalClusterStart(options.workers, options.memory_limit)
     try:
-        cluster = LocalCluster(n_workers=options.workers, threads_per_worker=1,
-                               processes=True, memory_limit=options.memory_limit,
-                               host="127.0.0.1", dashboard_address=None,
-                               silence_logs=logging.CRITICAL)
-    except (RuntimeError, OSError, TimeoutError, ValueError) as exc:
-        raise ArchiveError(
-            f"the local Dask cluster could not start ({type(exc).__name__}: "
-            f"{str(exc)[:200]}); check --workers and --memory-limit, or name a running "
-            "cluster with --scheduler") from exc
-    try:
-        client = Client(cluster)
+        client = Client(starting.cluster())
         try:
             yield client
         finally:
             client.close()
     finally:
-        cluster.close()
+        starting.close()
 
 
 def _peak_rss_mib() -> float:
@@ -258,48 +389,129 @@ def _peak_rss_mib() -> float:
     return peak / (1 << 20) if sys.platform == "darwin" else peak / 1024
 
 
-def compute_parts(tasks: list[PartitionTask], options: ReportOptions,
-                  progress: Callable[[int, int], None] | None = None,
-                  usage: dict[str, float] | None = None,
-                  ) -> tuple[dict[str, PositionParts], list[str]]:
-    """Run the partition tasks on Dask and merge the parts per position.
+def _problem(position: str, months: str, exc: BaseException) -> str:
+    """Return the problem line of partitions that could not be read."""
+    return (f"position {position}, month {months}: could not be read "
+            f"({type(exc).__name__}: {str(exc)[:200]})")
 
-    Returns the merged parts and one problem line per partition that failed; ``usage``
-    (when given) receives ``peak_worker_rss_mib``, the highest peak memory of a worker.
+
+def group_parts(group: TaskGroup, settings: Settings, window: DateWindow) -> GroupParts:
+    """Return the summed parts of a task's partitions (runs on a Dask worker).
+
+    A partition that cannot be read is a problem line; the others are still added.
+    """
+    total: PositionParts | None = None
+    problems: list[str] = []
+    for task in group.partitions:
+        try:
+            parts = partition_parts(task, settings, window)
+        except Exception as exc:  # a damaged partition is reported, the rest go on
+            problems.append(_problem(task.position, task.month, exc))
+            continue
+        if parts is not None:
+            total = parts if total is None else total + parts
+    return GroupParts(total, tuple(problems))
+
+
+def position_result(position: str, clock: str | None, time_zone: str | None,
+                    settings: Settings, window: DateWindow, *groups: GroupParts
+                    ) -> PositionResult:
+    """Add a position's task results in order and build its figures (runs on a worker)."""
+    from surveytools.archive.figures import position_section
+    from surveytools.assessment.timegrid import site_tz
+
+    parts: PositionParts | None = None
+    problems: list[str] = []
+    for group in groups:
+        problems.extend(group.problems)
+        if group.parts is not None:
+            parts = group.parts if parts is None else parts + group.parts
+    if parts is None:
+        return PositionResult(position, None, tuple(problems))
+    tz = site_tz(dict[str, object](clock=clock, time_zone=time_zone))
+    section = position_section(position, parts, settings, tz, window)
+    section["clock"] = clock
+    section["time_zone"] = time_zone
+    return PositionResult(position, section, tuple(problems))
+
+
+def compute_positions(tasks: list[PartitionTask], options: ReportOptions,
+                      progress: Callable[[int, int], None] | None = None,
+                      usage: dict[str, float] | None = None,
+                      started: LocalClusterStart | None = None,
+                      ) -> tuple[list[PositionResult], list[str]]:
+    """Run the report's tasks on Dask; return each position's figures and the problems.
+
+    Returns the results of the positions with readings (sorted by position) and one
+    problem line per partition, or task of partitions, that could not be read. ``usage``
+    (when given) receives ``tasks`` (reading tasks), ``compute_s`` (wall time from the
+    first task sent to the last position's figures) and ``peak_worker_rss_mib`` (the
+    highest peak memory of a worker).
     """
     from distributed import as_completed
 
-    merged: dict[str, PositionParts] = {}
     problems: list[str] = []
     if not tasks:
-        return merged, problems
-    with dask_client(options) as client:
-        futures = client.map(partition_parts, tasks, settings=options.settings,
+        if started is not None:
+            started.close()
+        return [], problems
+    groups = group_tasks(tasks)
+    if usage is not None:
+        usage["tasks"] = len(groups)
+    clocks = {t.position: (t.clock, t.time_zone) for t in tasks}
+    results: list[PositionResult] = []
+    with dask_client(options, started) as client:
+        began = time.perf_counter()
+        futures = client.map(group_parts, groups, settings=options.settings,
                              window=options.window, pure=False)
-        which = {future.key: task for future, task in zip(futures, tasks, strict=True)}
+        group_of = {future.key: group for future, group in zip(futures, groups, strict=True)}
+        waiting = {p: sum(1 for g in groups if g.position == p) for p in clocks}
+        finished: dict[str, list[tuple[int, Any]]] = {p: [] for p in clocks}
+        order = {future.key: k for k, future in enumerate(futures)}
+        position_futures: list[tuple[str, Any]] = []
         for done, future in enumerate(as_completed(futures), start=1):
-            task = which[future.key]
-            try:
-                parts = future.result()
-            except Exception as exc:  # a damaged partition is reported, the rest go on
-                problems.append(f"position {task.position}, month {task.month}: could not "
-                                f"be read ({type(exc).__name__}: {str(exc)[:200]})")
-                parts = None
-            future.release()
-            if parts is not None:
-                before = merged.get(task.position)
-                merged[task.position] = parts if before is None else before + parts
+            group = group_of[future.key]
+            if future.status == "error":  # the worker died or the task could not run
+                problems.extend(_problem(group.position, task.month, future.exception())
+                                for task in group.partitions)
+                future.release()
+            else:
+                finished[group.position].append((order[future.key], future))
+            waiting[group.position] -= 1
+            if waiting[group.position] == 0 and finished[group.position]:
+                position = group.position
+                ready = [f for _, f in sorted(finished[position], key=lambda kf: kf[0])]
+                position_futures.append((position, client.submit(
+                    position_result, position, *clocks[position], options.settings,
+                    options.window, *ready, pure=False)))
+                finished[position] = []
             if progress is not None:
-                progress(done, len(tasks))
+                progress(done, len(groups))
+        for position, future in position_futures:
+            try:
+                result: PositionResult = future.result()
+            except Exception as exc:  # the worker died while building the figures
+                problems.append(f"position {position}: figures could not be built "
+                                f"({type(exc).__name__}: {str(exc)[:200]})")
+                continue
+            problems.extend(result.problems)
+            if result.section is not None:
+                results.append(result)
         if usage is not None:
+            usage["compute_s"] = round(time.perf_counter() - began, 2)
             peaks = client.run(_peak_rss_mib)
             usage["peak_worker_rss_mib"] = round(max(peaks.values(), default=0.0), 1)
-    return merged, problems
+    results.sort(key=lambda r: r.position)
+    return results, problems
 
 
 def build_report(options: ReportOptions,
-                 progress: Callable[[int, int], None] | None = None) -> dict[str, Any]:
+                 progress: Callable[[int, int], None] | None = None,
+                 started: LocalClusterStart | None = None) -> dict[str, Any]:
     """Compute the archive report document (``archive-report.json``).
+
+    ``started`` is an embedded cluster started earlier (see :class:`LocalClusterStart`);
+    it is closed before this returns or raises.
 
     Raises
     ------
@@ -307,25 +519,19 @@ def build_report(options: ReportOptions,
         If the archive cannot be read or the scheduler does not answer.
     """
     from surveytools import __version__
-    from surveytools.archive.figures import position_section
-    from surveytools.assessment.timegrid import site_tz
     from surveytools.outputs.xlsx_style import cautions_lines
 
-    records = read_records(options.archive)
-    tasks, cautions = partition_tasks(options.archive, records, options)
+    try:
+        records = read_records(options.archive)
+        tasks, cautions = partition_tasks(options.archive, records, options)
+    except BaseException:
+        if started is not None:
+            started.close()
+        raise
     usage: dict[str, float] = {}
-    merged, problems = compute_parts(tasks, options, progress, usage)
-    clocks = {t.position: (t.clock, t.time_zone) for t in tasks}
-    positions = []
-    for position in sorted(merged):
-        clock, zone = clocks[position]
-        tz = site_tz(dict[str, object](clock=clock, time_zone=zone))
-        section = position_section(position, merged[position], options.settings, tz,
-                                   options.window)
-        section["clock"] = clock
-        section["time_zone"] = zone
-        positions.append(section)
-    missing = sorted(set(options.positions) - set(merged))
+    results, problems = compute_positions(tasks, options, progress, usage, started)
+    positions = [r.section for r in results if r.section is not None]
+    missing = sorted(set(options.positions) - {r.position for r in results})
     for position in missing:
         cautions.append(f"position {position}: no stored readings in the date range")
     stored = [r for r in records if r.status == "stored"]

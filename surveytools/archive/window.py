@@ -5,8 +5,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import date, timedelta, tzinfo
 
-from surveytools.assessment.timegrid import parse_hhmm, wall_to_utc_ms
-
 
 @dataclass(frozen=True)
 class DateWindow:
@@ -30,6 +28,9 @@ class DateWindow:
 
     def instants_ms(self, day_start: str, tz: tzinfo) -> tuple[int | None, int | None]:
         """UTC instants [ms] the window's assessment days run between (None: open)."""
+        # imported here: the report's client never needs the assessment (or pandas)
+        from surveytools.assessment.timegrid import parse_hhmm, wall_to_utc_ms
+
         hour, minute = parse_hhmm(day_start)
         low = None if self.first is None else wall_to_utc_ms(self.first, hour, minute, tz)
         high = None if self.last is None else wall_to_utc_ms(

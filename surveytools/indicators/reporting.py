@@ -8,6 +8,7 @@ uses :func:`reported_level`, so what a person reads is what was judged.
 
 from __future__ import annotations
 
+import math
 from decimal import ROUND_HALF_UP, Decimal
 
 import numpy as np
@@ -25,6 +26,22 @@ def _half_up(value: float, decimals: int) -> float:
     """Round the shortest decimal form of ``value`` half up (exact, one value)."""
     quantum = Decimal(1).scaleb(-decimals)
     return float(Decimal(repr(value)).quantize(quantum, rounding=ROUND_HALF_UP))
+
+
+def _reported_scalar(value: float, decimals: int, scale: float) -> float:
+    """:func:`reported_level` of one Python number: the same operations, without numpy.
+
+    Workbooks and terminal lines round one figure at a time; numpy's per-call overhead
+    would be most of the cost there. ``math.floor``/``math.copysign`` and the float
+    arithmetic are the IEEE operations the array path uses, so both paths agree exactly
+    (tested).
+    """
+    if not math.isfinite(value):
+        return value
+    scaled = abs(value) * scale
+    if abs(scaled - math.floor(scaled) - 0.5) < _TIE_WINDOW:
+        return _half_up(value, decimals)
+    return math.copysign(math.floor(scaled + 0.5) / scale, value)
 
 
 def reported_level(levels_db: ArrayLike, decimals: int = REPORTED_LEVEL_DECIMALS
@@ -59,8 +76,10 @@ def reported_level(levels_db: ArrayLike, decimals: int = REPORTED_LEVEL_DECIMALS
        judged on the reported figure; half up is the rounding rule of ISO 80000-1:2009
        Annex B (rule B, from memory).
     """
-    values = np.asarray(levels_db, dtype=np.float64)
     scale = 10.0**decimals
+    if isinstance(levels_db, float | int) and not isinstance(levels_db, bool):
+        return _reported_scalar(float(levels_db), decimals, scale)
+    values = np.asarray(levels_db, dtype=np.float64)
     scaled = np.abs(values) * scale
     out = np.copysign(np.floor(scaled + 0.5) / scale, values)
     fractional = scaled - np.floor(scaled)

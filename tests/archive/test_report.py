@@ -181,3 +181,46 @@ def test_an_fsspec_url_reads_the_same_archive(july_archive, tmp_path):
     by_url = _report(archive.as_uri(), tmp_path / "url", "--settings", str(settings))
     assert by_url["archive"]["location"].startswith("file:///")
     assert by_url["positions"] == by_path["positions"]
+
+
+def test_partitions_are_grouped_per_position_up_to_the_task_size():
+    # Pure grouping rule (own design, see TASK_BYTES): consecutive months of one position
+    # share a task until the next would pass the size; a larger month is a task alone;
+    # positions never share a task.
+    from surveytools.archive.report import PartitionTask, group_tasks
+
+    def part(position: str, month: str, size: int) -> PartitionTask:
+        return PartitionTask(position, month, (f"{position}-{month}",), None, None, size)
+
+    tasks = [part("A", "2026-01", 3), part("A", "2026-02", 3), part("A", "2026-03", 3),
+             part("A", "2026-04", 20), part("A", "2026-05", 1), part("B", "2026-01", 1)]
+    groups = group_tasks(tasks, task_bytes=8)
+    assert [(g.position, [t.month for t in g.partitions]) for g in groups] == [
+        ("A", ["2026-01", "2026-02"]), ("A", ["2026-03"]), ("A", ["2026-04"]),
+        ("A", ["2026-05"]), ("B", ["2026-01"])]
+    assert groups[0].months == "2026-01..2026-02" and groups[1].months == "2026-03"
+
+
+# distributed leaves the socket of its refused first try to the garbage collector
+@pytest.mark.filterwarnings("ignore::ResourceWarning")
+@pytest.mark.filterwarnings("ignore::pytest.PytestUnraisableExceptionWarning")
+def test_a_busy_status_port_is_not_a_warning(july_archive, tmp_path):
+    # The embedded scheduler's status page takes port 8787 when it is free; when another
+    # program holds it (here: this test), the report still runs and prints nothing about
+    # it (warnings are errors in this test session).
+    import socket
+
+    archive, settings = july_archive
+    holder = socket.socket(socket.AF_INET, socket.SOCK_STREAM)
+    try:
+        try:
+            holder.bind(("127.0.0.1", 8787))
+            holder.listen(1)
+        except OSError:
+            pass  # already busy: the same situation
+        code, out, err = cli("archive", "report", str(archive), "-o", str(tmp_path / "o"),
+                             "--settings", str(settings), "--workers", "1", "--quiet")
+    finally:
+        holder.close()
+    assert code == 0, (out, err)
+    assert "8787" not in out + err

@@ -44,3 +44,27 @@ def test_matches_decimal_reference(value: float) -> None:
     # Reference: Python's decimal module, ROUND_HALF_UP on the shortest decimal form.
     expected = float(Decimal(repr(value)).quantize(Decimal("0.1"), rounding=ROUND_HALF_UP))
     assert reported_level(value) == expected
+
+
+@given(st.lists(st.one_of(
+    st.floats(min_value=-50, max_value=200, allow_nan=False),
+    # values on and next to half steps, where the exact decimal rule decides
+    st.integers(min_value=-500, max_value=2000).map(lambda k: k / 10 + 0.05),
+    st.integers(min_value=-500, max_value=2000).map(lambda k: math.nextafter(k / 10 + 0.05, 0)),
+), min_size=1, max_size=20), st.sampled_from([0, 1, 2]))
+def test_one_number_and_arrays_round_alike(values: list[float], decimals: int) -> None:
+    # The scalar path (one Python float) must equal the array path element by element,
+    # and both the decimal reference (ROUND_HALF_UP on the shortest decimal form).
+    array = reported_level(np.array(values), decimals)
+    quantum = Decimal(1).scaleb(-decimals)
+    for k, value in enumerate(values):
+        one = reported_level(value, decimals)
+        assert isinstance(one, float)
+        assert one == array[k]
+        assert one == float(Decimal(repr(value)).quantize(quantum, rounding=ROUND_HALF_UP))
+
+
+def test_one_number_keeps_nan_and_infinity() -> None:
+    assert math.isnan(reported_level(float("nan")))
+    assert reported_level(float("inf")) == float("inf")
+    assert reported_level(-0.04) == -0.0 and math.copysign(1.0, reported_level(-0.04)) == -1.0
