@@ -54,6 +54,9 @@ CODES: dict[str, Code] = {
     "csv-unreadable": Code("error", "file", "a malformed CSV file"),
     "parquet-unreadable": Code("error", "file", "a Parquet file that cannot be read (damaged, "
                                "too large once read, a column of an unusable type)"),
+    "log-too-long-to-read-whole": Code("error", "file", "a CSV or Parquet log too long to "
+                                       "read at once that cannot be assessed in parts either "
+                                       "(rows far out of time order)"),
     "worker-timeout": Code("error", "file", "processing took longer than the time limit"),
     "worker-out-of-memory": Code("error", "file", "reading needed more memory than allowed"),
     "worker-killed": Code("error", "file", "processing was stopped by a CPU-time or kill "

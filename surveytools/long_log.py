@@ -65,8 +65,46 @@ CUT_LOOKBACK_MS = 3_600_000
 MAX_CARRIED_ROWS = 4 * BATCH_ROWS
 
 
+#: Longest Parquet log read whole when it cannot be assessed in parts (own choice: the
+#: whole-log path holds about 450 bytes per reading at its peak, so 4,000,000 readings
+#: stay near 1.7 GiB, inside a worker's default 4 GiB limit) [rows].
+WHOLE_READ_MAX_ROWS = 4_000_000
+#: The same limit for a CSV log, by size (about 40 bytes a line) [bytes].
+WHOLE_READ_MAX_CSV_BYTES = 160_000_000
+
+
 class NotStreamable(Exception):  # noqa: N818 (a condition, not a failure)
-    """The log cannot be assessed in parts exactly; read it whole instead."""
+    """The log cannot be assessed in parts exactly; read it whole instead.
+
+    ``refusal`` says why in our words, with the fix, where the reason lies in the data
+    (rows far out of time order): a log too long to read whole is then refused with it.
+    """
+
+    def __init__(self, reason: str, refusal: str | None = None) -> None:
+        super().__init__(reason)
+        self.refusal = refusal
+
+
+def fits_whole(path: Path) -> bool:
+    """Return True when a log is short enough to be read whole (see the limits above)."""
+    suffix = path.suffix.lower()
+    try:
+        if suffix in CSV_SUFFIXES:
+            return path.stat().st_size <= WHOLE_READ_MAX_CSV_BYTES
+        if suffix in PARQUET_SUFFIXES:
+            from surveytools.inputs.batches import count_hint
+
+            return count_hint(path) <= WHOLE_READ_MAX_ROWS
+    except OSError:
+        return True  # the whole read reports what is wrong with the file
+    return True
+
+
+def _order_refusal(row: int) -> str:
+    return (f"its rows are not in time order: the reading in row {row} starts more than "
+            f"{CUT_LOOKBACK_MS // 60_000} minutes before readings in earlier rows. A log "
+            "this long is assessed part by part, which needs its rows in time order; sort "
+            "the rows by their time stamps and run again")
 
 
 @dataclass(frozen=True)
@@ -312,7 +350,9 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
             end = start + readings["duration_ms"].to_numpy(dtype=np.int64)
             own = rows >= first_own_row
             if floor_ms is not None and own.any() and int(start[own].min()) < floor_ms:
-                raise NotStreamable("a reading starts before an earlier batch's cut")
+                early = own & (start < floor_ms)
+                raise NotStreamable("a reading starts before an earlier batch's cut",
+                                    _order_refusal(int(rows[early].min())))
             stop_row: int | None = None
             assessed = own
             if not last and own.any():
@@ -329,8 +369,11 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
                 else:
                     later = own & (start >= cut)
                     stop_row = int(rows[later].min()) if later.any() else None
-                    if stop_row is not None and np.any(own & (rows >= stop_row) & (start < cut)):
-                        raise NotStreamable("rows out of time order around a cut")
+                    if stop_row is not None:
+                        late = own & (rows >= stop_row) & (start < cut)
+                        if late.any():
+                            raise NotStreamable("rows out of time order around a cut",
+                                                _order_refusal(int(rows[late].min())))
                     if stop_row is not None:
                         floor_ms = cut
                 if stop_row is not None:
@@ -356,7 +399,13 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
             carried_first = context_first
             carried = combined.slice(context_first - first_pos)
             if carried.num_rows > MAX_CARRIED_ROWS:
-                raise NotStreamable("no reporting-interval boundary to cut at")
+                raise NotStreamable(
+                    "no reporting-interval boundary to cut at",
+                    f"over {MAX_CARRIED_ROWS:,} rows from row "
+                    f"{raw.first_data_row + carried_first - first_pos} on have no "
+                    "reporting-interval boundary that no reading overlaps (readings that "
+                    "long, or rows far out of time order); check the Start and Duration or "
+                    "End columns, sort the rows by time, and run again")
             table = following
         if pending is not None:
             pending.result()
@@ -604,5 +653,5 @@ def long_log_findings(log: LongLog, settings: Settings) -> tuple[list[Finding], 
     return _findings(stream_log(log, settings, assess=False))
 
 
-__all__ = ["LongLog", "NotStreamable", "date", "is_long_log", "long_log_findings",
-           "long_log_sections"]
+__all__ = ["LongLog", "NotStreamable", "date", "fits_whole", "is_long_log",
+           "long_log_findings", "long_log_sections"]

@@ -171,7 +171,13 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     if isinstance(raw, LongLog):
         try:
             sections, findings, counts = long_log_sections(raw, settings, weather)
-        except NotStreamable:  # out of order across batches: read whole, as before
+        except NotStreamable as exc:  # out of order across batches: read whole, as before
+            refused = _too_long_to_read_whole(path, source, exc)
+            if refused is not None:
+                doc = unreadable_document(source, [refused], settings)
+                doc["provenance"] = library_versions()
+                doc["verdict"] = verdict_section(doc)
+                return doc, None
             return build_document(path, settings, read=read_input(path, settings, source),
                                   weather=weather)
         except WorkbookError as exc:
@@ -206,6 +212,22 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
                       or len(survey.readings) * bands <= output.readings_band_cell_limit)
         annotations = reading_annotations(survey, with_levels=True, with_bands=with_bands)
     return doc, annotations
+
+
+def _too_long_to_read_whole(path: Path, source: SourceInfo, exc: Exception
+                            ) -> Finding | None:
+    """Return the refusal of a long log that can be neither cut into parts nor read whole.
+
+    None when the log may be read whole (short enough, or a reason the whole read
+    reports better itself, such as a damaged line).
+    """
+    from surveytools.long_log import NotStreamable, fits_whole
+
+    if not isinstance(exc, NotStreamable) or exc.refusal is None or fits_whole(path):
+        return None
+    return Finding("log-too-long-to-read-whole", Severity.ERROR,
+                   f"This log is too long to read at once, and {exc.refusal}.",
+                   Path(source.file).stem)
 
 
 def _grid_refusal(survey: Any, settings: Settings) -> Finding | None:
@@ -335,7 +357,13 @@ def check_file(path: Path, settings: Settings, read: ReadResult | None = None) -
     if isinstance(raw, LongLog):
         try:
             found, _ = long_log_findings(raw, settings)
-        except (NotStreamable, WorkbookError):  # read whole: as before, with its message
+        except (NotStreamable, WorkbookError) as exc:  # read whole, with its message
+            refused = _too_long_to_read_whole(path, source, exc)
+            if refused is not None:
+                findings = _findings_json([refused])
+                return FileOutcome(path=str(path), file=path.name, status="unreadable",
+                                   sha256=source.sha256, findings=findings,
+                                   finding_totals=_totals(findings))
             return check_file(path, settings, read=read_input(path, settings, source))
     else:
         found = build_survey(raw, settings).findings

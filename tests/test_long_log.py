@@ -230,3 +230,28 @@ def test_run_of_a_long_log_writes_a_valid_document_and_workbook(tmp_path, files,
     book = load_workbook(tmp_path / "mast_b.results.xlsx", read_only=True)
     assert {"Days", "Intervals", "Background", "Exclusions"} <= set(book.sheetnames)
     assert book["Intervals"].max_row > len(doc["intervals"])  # one row each, plus headers
+
+
+def test_a_log_too_long_to_read_whole_and_out_of_order_is_refused(tmp_path, files,
+                                                                  monkeypatch):
+    # The same far-out-of-order log as above, now above the whole-read limit: instead of
+    # reading it whole (unbounded memory), the input is refused, naming the late row
+    # (40,000 + 14,999 data rows come before it, the header is row 1: row 55,001) and
+    # the fix; run and check say the same.
+    settings = files[2]
+    frame = _log(3 * 86400)
+    frame = pd.concat([frame.iloc[:40_000], frame.iloc[40_001:55_000], frame.iloc[[40_000]],
+                       frame.iloc[55_000:]], ignore_index=True)
+    path = tmp_path / "mast_d.parquet"
+    frame.to_parquet(path, index=False)
+    monkeypatch.setattr(long_log, "BATCH_ROWS", 50_000)
+    monkeypatch.setattr(long_log, "STREAM_PARQUET_ROWS", 1000)
+    monkeypatch.setattr(long_log, "WHOLE_READ_MAX_ROWS", 100_000)
+    doc, _ = build_document(path, settings)
+    assert doc["status"] == "unreadable"
+    (finding,) = doc["findings"]
+    assert finding["code"] == "log-too-long-to-read-whole"
+    assert "row 55001 " in finding["message"] and "sort the rows" in finding["message"]
+    checked = check_file(path, settings, read=read_input(path, settings, long_logs=True))
+    assert checked.status == "unreadable"
+    assert [f["code"] for f in checked.findings] == ["log-too-long-to-read-whole"]
