@@ -164,3 +164,32 @@ def test_parts_add_energies_on_the_higher_reference_and_keep_intervals_in_order(
     assert merged.incomplete_readings == 2
     with pytest.raises(ValueError):
         later + later  # the same interval twice: not disjoint readings
+
+
+def test_run_of_a_long_log_with_band_levels_writes_a_valid_document_and_spectra_sheet(
+        case, tmp_path, monkeypatch):
+    from openpyxl import load_workbook
+
+    from surveytools.outputs.results_json import validate_results
+    from surveytools.pipeline import run_file
+
+    paths, settings = case
+    monkeypatch.setattr(long_log, "STREAM_PARQUET_ROWS", 1000)
+    monkeypatch.setattr(long_log, "BATCH_ROWS", 5_000)
+    done = []
+    sections = long_log.long_log_sections
+
+    def in_parts(*args):
+        result = sections(*args)
+        done.append(1)  # returned: not fallen back to a whole read
+        return result
+
+    monkeypatch.setattr(long_log, "long_log_sections", in_parts)
+    run_file(paths[3.0], tmp_path, "mast_s", settings)
+    assert done == [1]
+    doc = __import__("json").loads((tmp_path / "mast_s.results.json").read_text("utf-8"))
+    assert validate_results(doc) == []
+    assert doc["spectral"]["band_check"]["mismatch"] is True
+    assert "band-total-mismatch" in doc["finding_counts"]
+    book = load_workbook(tmp_path / "mast_s.results.xlsx", read_only=True)
+    assert "Spectra" in book.sheetnames
