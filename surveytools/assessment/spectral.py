@@ -16,6 +16,11 @@ period) cell; every spectrum below is a sum of those cells:
 - ``intervals``: per reporting interval the A-weighted band total, the difference and
   the tonal bands.
 
+The sums and the interval figures are the section's parts
+(:class:`~surveytools.assessment.spectral_parts.SpectralParts`, :func:`spectral_parts_of`);
+the section follows from them (:func:`spectral_from_parts`), so the parts of a long log's
+batches, added up, give the same section.
+
 Assessments use :func:`selection_spectrum` for the source-on and residual time and
 :func:`tonal_correction` for a derived tonal correction.
 """
