@@ -23,9 +23,12 @@ How a batch is cut so that the merged result is the whole-log result:
 
 The cut is also a boundary of the background reference grid, so the LA90 of every
 reference interval comes from one batch too. LN of the whole survey is taken from the
-time per 0.1 dB level step (:mod:`~surveytools.assessment.parts`). Source assessments
-(``[[assessments]]``), logged LN columns and band levels (the ``spectral`` section) need
-the whole log at once: with any of them, the log is read whole (:class:`NotStreamable`).
+time per 0.1 dB level step (:mod:`~surveytools.assessment.parts`), or from the count of
+each logged value where an LN column is logged
+(:mod:`~surveytools.assessment.logged_parts`; not for ``method = "mean"``); band levels
+(the ``spectral`` section) from band energy sums per period type and whole intervals
+(:mod:`~surveytools.assessment.spectral_parts`). Source assessments (``[[assessments]]``)
+need the whole log at once: with them, the log is read whole (:class:`NotStreamable`).
 """
 
 from __future__ import annotations
@@ -142,6 +145,10 @@ class _Merged:
     intervals: dict[int, dict[str, Any]] = field(default_factory=dict)
     reference: dict[int, tuple[int, int, float, float, bool]] = field(default_factory=dict)
     reference_basis: str | None = None
+    intervals_basis: dict[str, Any] | None = None
+    logged: Any = None  # assessment.logged_parts.LoggedParts
+    logging_s: set[float] = field(default_factory=set)  # of batches with logged LN values
+    spectral: Any = None  # assessment.spectral_parts.SpectralParts
     spans: list[dict[str, Any]] = field(default_factory=list)
     unplaced: list[Any] = field(default_factory=list)
     measured_ms: int = 0
@@ -232,38 +239,49 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
     """Add one batch's assessed readings to the merged parts and sections."""
     from surveytools.assessment.background import reference_bounds, reference_la90
     from surveytools.assessment.context import build_context
-    from surveytools.assessment.intervals import (
-        interval_bounds,
-        intervals_section,
-        logged_column,
+    from surveytools.assessment.intervals import interval_bounds, intervals_section
+    from surveytools.assessment.logged_parts import (
+        EXACT_METHODS,
+        MAX_DISTINCT_VALUES,
+        logged_parts_of,
     )
     from surveytools.assessment.parts import position_parts
     from surveytools.assessment.spans import exclusion_spans_section
-    from surveytools.inputs.columns import is_band_column
+    from surveytools.assessment.spectral import spectral_parts_of
 
     if merged.first_survey is None:
         merged.first_survey = survey
     ctx = build_context(survey, settings)
     if ctx.n == 0:
         return
-    if any(is_band_column(name) for name in survey.level_columns):
-        # the spectral section (issue 15) is not computed from parts yet
-        raise NotStreamable("band levels")
-    if any(ctx.logged(logged_column(p)) is not None for p in settings.percentiles):
-        # a logged LN column: the whole survey's LN combines every logged value
-        raise NotStreamable("logged LN columns")
+    logged = logged_parts_of(ctx)  # the whole survey's LN combines every logged value
+    if logged.columns and settings.background.method not in EXACT_METHODS:
+        raise NotStreamable("the mean of logged LN values")
+    if merged.logged is not None and merged.logged.columns != logged.columns:
+        raise NotStreamable("logged LN columns empty in some batches")
+    merged.logged = logged if merged.logged is None else merged.logged + logged
+    if merged.logged.largest > MAX_DISTINCT_VALUES:
+        raise NotStreamable("too many distinct logged LN values")
+    if logged.columns or ctx.logged("LAF90") is not None:
+        merged.logging_s.add(ctx.logging_interval_s)
     parts = position_parts(ctx)
     merged.parts = parts if merged.parts is None else merged.parts + parts
     bounds = interval_bounds(ctx)
     # one split of the readings for the interval and reference grids (as assess does)
     ctx = ctx.with_shared_split([bounds, reference_bounds(ctx)[0]])
     ref = reference_la90(ctx)
-    merged.reference_basis = ref.basis
+    rows, basis = intervals_section(ctx)
+    if ((merged.reference_basis or ref.basis) != ref.basis
+            or (merged.intervals_basis or basis) != basis):  # a batch without logged values
+        raise NotStreamable("logged LN columns empty in some batches")
+    merged.reference_basis, merged.intervals_basis = ref.basis, basis
+    spectral = spectral_parts_of(ctx)
+    if spectral is not None:
+        merged.spectral = spectral if merged.spectral is None else merged.spectral + spectral
     for j in range(max(ref.bounds_ms.size - 1, 0)):
         merged.reference[int(ref.bounds_ms[j])] = (
             int(ref.bounds_ms[j + 1]), int(ref.period_index[j]), float(ref.la90_db[j]),
             float(ref.valid_s[j]), bool(ref.sufficient[j]))
-    rows, _ = intervals_section(ctx)
     for j, row in enumerate(rows):
         merged.intervals[int(bounds[j])] = row
     reading_rows = survey.readings["row"].to_numpy(dtype=np.int64)
@@ -542,7 +560,7 @@ def _day_sections(merged: _Merged, settings: Settings, tz: Any
 def _overall(merged: _Merged, settings: Settings) -> dict[str, Any]:
     """Whole-survey LAeq (energy sums), LAFmax/LAFmin and LN (time per 0.1 dB step)."""
     from surveytools.assessment._common import db, seconds
-    from surveytools.assessment.intervals import ln_key
+    from surveytools.assessment.intervals import ln_key, logged_column
     from surveytools.assessment.parts import FIRST_LEVEL_STEP, LEVEL_STEPS_PER_DB
     from surveytools.indicators.levels import level_from_energy_sums
     from surveytools.indicators.percentiles import exceedance_levels_from_step_times
@@ -559,10 +577,15 @@ def _overall(merged: _Merged, settings: Settings) -> dict[str, Any]:
     out: dict[str, Any] = {"LAeq": db(laeq) if valid > 0 else None,
                            "LAFmax": db(merged.lafmax), "LAFmin": db(merged.lafmin)}
     basis: dict[str, Any] = {}
+    logged = merged.logged
     for j, p in enumerate(percents):
         out[ln_key(p)] = db(ln[j]) if valid > 0 else None
         basis[ln_key(p)] = "samples"
-    basis["method"] = None
+        if logged is not None and logged_column(p) in logged.columns:  # as overall_section
+            out[ln_key(p)] = db(logged.combined(logged_column(p), settings.background.method))
+            basis[ln_key(p)] = "logged"
+    logged_any = "logged" in basis.values()
+    basis["method"] = settings.background.method if logged_any else None
     out["basis"] = basis
     out["valid_s"] = seconds(merged.valid_ms / 1000.0)
     return out
@@ -618,13 +641,23 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
                          "exclusion_spans": [], "unplaced": unplaced_section(survey_rows),
                          "spectral": None})
         return sections, findings, counts
+    from surveytools.assessment.logged_parts import same_combining
+    from surveytools.assessment.spectral import spectral_from_parts
+
+    modal_s = max(merged.durations.items(), key=lambda kv: (kv[1], -kv[0]))[0] / 1000.0
+    if any(not same_combining(s, modal_s, settings) for s in merged.logging_s):
+        raise NotStreamable("a batch's logging interval combines logged values otherwise")
     tz = site_tz(survey.metadata)
+    spectral = None
+    if merged.spectral is not None:
+        spectral, spectral_findings = spectral_from_parts(merged.spectral, settings, tz,
+                                                          survey.readings_sheet)
+        for f in spectral_findings:  # as assess adds them
+            findings.append(f)
+            counts[f.code] = counts.get(f.code, 0) + 1
     intervals, interval_laeq = _interval_rows(merged, settings, tz)
     days, average = _day_sections(merged, settings, tz)
-    from surveytools.assessment.intervals import ln_key
-
-    basis: dict[str, Any] = {ln_key(p): "samples" for p in settings.percentiles}
-    basis["method"] = None
+    basis = merged.intervals_basis
     criteria = criteria_section(
         settings.criteria, survey.metadata.get("position"), days, intervals, [],
         settings.percentiles, settings.reporting_interval_s, settings.coverage_threshold,
@@ -643,7 +676,7 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
         "criteria": criteria,
         "exclusion_spans": merged.spans,
         "unplaced": unplaced_section(survey_rows),
-        "spectral": None,  # band levels are read whole (NotStreamable)
+        "spectral": spectral,
     })
     return sections, findings, counts
 

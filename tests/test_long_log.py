@@ -201,17 +201,6 @@ def test_findings_beyond_the_cap_are_counted_once_across_batches(tmp_path, files
     _close(parts["coverage"], whole["coverage"], 1e-9)
 
 
-def test_band_levels_are_read_whole(tmp_path, files, monkeypatch):
-    settings = files[2]
-    frame = _log(2 * 86400).assign(**{"LZeq_1000Hz": 50.0})
-    path = tmp_path / "mast_f.parquet"
-    frame.to_parquet(path, index=False)
-    monkeypatch.setattr(long_log, "BATCH_ROWS", 50_000)
-    read = read_input(path, settings)
-    with pytest.raises(long_log.NotStreamable):
-        long_log.long_log_sections(long_log.LongLog(path, read.source), settings)
-
-
 def test_run_of_a_long_log_writes_a_valid_document_and_workbook(tmp_path, files,
                                                                 monkeypatch):
     from openpyxl import load_workbook

@@ -16,6 +16,11 @@ period) cell; every spectrum below is a sum of those cells:
 - ``intervals``: per reporting interval the A-weighted band total, the difference and
   the tonal bands.
 
+The sums and the interval figures are the section's parts
+(:class:`~surveytools.assessment.spectral_parts.SpectralParts`, :func:`spectral_parts_of`);
+the section follows from them (:func:`spectral_from_parts`), so the parts of a long log's
+batches, added up, give the same section.
+
 Assessments use :func:`selection_spectrum` for the source-on and residual time and
 :func:`tonal_correction` for a derived tonal correction.
 """
@@ -24,6 +29,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from datetime import tzinfo
 from typing import Any
 
 import numpy as np
@@ -41,6 +47,7 @@ from surveytools.assessment._common import (
 from surveytools.assessment.context import Context
 from surveytools.assessment.daily import N_PERIODS, PERIOD_NAMES, scheme_times
 from surveytools.assessment.intervals import interval_bounds
+from surveytools.assessment.spectral_parts import SpectralParts
 from surveytools.assessment.timegrid import day_offset_boundaries, format_local
 from surveytools.indicators.levels import grouped_energy_sums, level_from_energy_sums
 from surveytools.indicators.reporting import reported_level
@@ -52,10 +59,16 @@ from surveytools.indicators.spectra import (
     tone_thresholds,
 )
 from surveytools.indicators.weighting import band_total
+from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
 
 #: Canonical band column names (``surveytools.inputs.columns.band_name``).
 _BAND_COLUMN = re.compile(r"^LZeq_(\d+(?:\.\d+)?)Hz$")
+
+#: Band columns summed per pass of the band energy sums (own choice: each pass holds some
+#: ten temporary arrays of readings x bands; 4 of 34 bands keep that near 1/8 and the sums
+#: per band are the same as in one pass).
+BANDS_PER_PASS = 4
 
 #: Method name of a derived tonal correction (the settings value).
 ONE_THIRD_OCTAVE = "one-third-octave"
@@ -125,8 +138,8 @@ def survey_bands(ctx: Context) -> Bands | None:
     return Bands(columns, np.array([hz for hz, _ in found]), complete)
 
 
-def _thresholds(ctx: Context, nominal_hz: FloatArray) -> FloatArray:
-    spectral = ctx.settings.spectral
+def _thresholds(settings: Settings, nominal_hz: FloatArray) -> FloatArray:
+    spectral = settings.spectral
     return tone_thresholds(nominal_hz, spectral.tone_low_db, spectral.tone_mid_db,
                            spectral.tone_high_db)
 
@@ -136,14 +149,14 @@ def _group_of(starts_ms: IntArray, bounds_ms: IntArray) -> IntArray:
                           max(bounds_ms.size - 1, 0))
 
 
-def _spectrum_summary(ctx: Context, bands: Bands, spectrum: FloatArray, valid_s: float
-                      ) -> dict[str, Any]:
+def _spectrum_summary(settings: Settings, nominal_hz: FloatArray, spectrum: FloatArray,
+                      valid_s: float) -> dict[str, Any]:
     """Average spectrum, its A / C totals, LC - LA, low-frequency flag and tonal bands."""
-    la = float(band_total(spectrum, bands.nominal_hz, "A"))
-    lc = float(band_total(spectrum, bands.nominal_hz, "C"))
-    difference, flagged = low_frequency_content(lc, la, ctx.settings.spectral.low_frequency_db)
-    tone_difference, tonal = screen_tones(spectrum, bands.nominal_hz,
-                                          _thresholds(ctx, bands.nominal_hz))
+    la = float(band_total(spectrum, nominal_hz, "A"))
+    lc = float(band_total(spectrum, nominal_hz, "C"))
+    difference, flagged = low_frequency_content(lc, la, settings.spectral.low_frequency_db)
+    tone_difference, tonal = screen_tones(spectrum, nominal_hz,
+                                          _thresholds(settings, nominal_hz))
     return {
         "valid_s": seconds(valid_s),
         "LZeq": db_list(spectrum),
@@ -151,20 +164,32 @@ def _spectrum_summary(ctx: Context, bands: Bands, spectrum: FloatArray, valid_s:
         "LCeq_from_bands": db(lc),
         "LC_minus_LA": db(difference),
         "low_frequency": bool(flagged),
-        "tonal_bands_hz": [float(f) for f in bands.nominal_hz[tonal]],
+        "tonal_bands_hz": [float(f) for f in nominal_hz[tonal]],
         "tone_difference_db": db_list(tone_difference),
     }
 
 
 def spectral_section(ctx: Context) -> tuple[dict[str, Any] | None, list[Finding]]:
     """Return the ``spectral`` section and its findings; (None, []) without band levels."""
+    parts = spectral_parts_of(ctx)
+    if parts is None:
+        return None, []
+    return spectral_from_parts(parts, ctx.settings, ctx.tz, ctx.survey.readings_sheet)
+
+
+def spectral_parts_of(ctx: Context) -> SpectralParts | None:
+    """Band energies per period type and the interval figures of a set of readings.
+
+    None without band columns or readings. Parts of disjoint readings cut at
+    reporting-interval boundaries add up with ``+`` (:mod:`~.spectral_parts`).
+    """
     bands = survey_bands(ctx)
     if bands is None:
-        return None, []
+        return None
     settings = ctx.settings
     nominal = bands.nominal_hz
     n_bands = nominal.size
-    thresholds = _thresholds(ctx, nominal)
+    thresholds = _thresholds(settings, nominal)
 
     intervals = interval_bounds(ctx)
     schemes = day_offset_boundaries(ctx.candidate_days, scheme_times(settings.periods.lden),
@@ -181,7 +206,12 @@ def spectral_section(ctx: Context) -> tuple[dict[str, Any] | None, list[Finding]
     n_cells = n_intervals * N_PERIODS
     band_levels = bands.levels(ctx, index)
     reference = float(band_levels.max()) if band_levels.size else 0.0
-    energy, time = grouped_band_energy_sums(band_levels, weights_ms, cell, n_cells, reference)
+    energy = np.empty((n_cells, n_bands))
+    time = np.empty((n_cells, n_bands))
+    for lo in range(0, n_bands, BANDS_PER_PASS):  # a few bands at a time: less working memory
+        at = slice(lo, lo + BANDS_PER_PASS)
+        energy[:, at], time[:, at] = grouped_band_energy_sums(band_levels[:, at], weights_ms,
+                                                              cell, n_cells, reference)
     laeq = ctx.level("LAeq")
     assert laeq is not None
     laeq_reference = float(laeq[index].max()) if index.size else 0.0
@@ -201,33 +231,64 @@ def spectral_section(ctx: Context) -> tuple[dict[str, Any] | None, list[Finding]
     difference = interval_la - interval_laeq
     tone_difference, tonal = screen_tones(interval_spectra, nominal, thresholds)
 
-    # per period type, over all days
-    period_ms = cell_ms.sum(axis=0)
-    period_spectra = level_from_energy_sums(cell_energy.sum(axis=0), period_ms[:, None],
-                                            reference)
+    # per period type: tonal time and the largest difference of the period's intervals
+    tonal_ms = cell_ms.T @ tonal.astype(np.float64)  # (periods, bands)
+    largest = np.full((N_PERIODS, n_bands), -np.inf)
+    for p in range(N_PERIODS):
+        in_period = cell_ms[:, p] > 0
+        differences = np.where(in_period[:, None] & np.isfinite(tone_difference),
+                               tone_difference, -np.inf)
+        largest[p] = differences.max(axis=0, initial=-np.inf)
+    has = interval_ms > 0
+    return SpectralParts(
+        nominal_hz=nominal,
+        reference_db=reference,
+        period_energy=cell_energy.sum(axis=0),
+        period_ms=cell_ms.sum(axis=0),
+        tonal_ms=tonal_ms,
+        largest_difference_db=largest,
+        interval_start_ms=intervals[:-1][has],
+        interval_end_ms=intervals[1:][has],
+        interval_ms=interval_ms[has],
+        interval_la_db=interval_la[has],
+        interval_difference_db=difference[has],
+        interval_tonal=tonal[has],
+        incomplete_readings=int(np.count_nonzero(ctx.valid & ~bands.complete)),
+    )
+
+
+def spectral_from_parts(parts: SpectralParts, settings: Settings, tz: tzinfo,
+                        readings_sheet: str) -> tuple[dict[str, Any], list[Finding]]:
+    """Return the ``spectral`` section and its findings from (merged) spectral parts."""
+    nominal = parts.nominal_hz
+    thresholds = _thresholds(settings, nominal)
+    period_ms = parts.period_ms
+    period_spectra = level_from_energy_sums(parts.period_energy, period_ms[:, None],
+                                            parts.reference_db)
     periods: dict[str, Any] = {}
     for p, name in enumerate(PERIOD_NAMES):
-        periods[name] = (_spectrum_summary(ctx, bands, period_spectra[p], period_ms[p] / 1000.0)
+        periods[name] = (_spectrum_summary(settings, nominal, period_spectra[p],
+                                           period_ms[p] / 1000.0)
                          if period_ms[p] > 0 else None)
     period_difference, period_tonal = screen_tones(period_spectra, nominal, thresholds)
 
-    tones = _tones(nominal, thresholds, cell_ms, tonal, tone_difference, period_ms,
-                   period_tonal, period_difference)
-    band_check, findings = _band_check(ctx, difference)
-    starts = format_local(intervals[:-1], ctx.tz)
-    ends = format_local(intervals[1:], ctx.tz)
-    la_list, difference_list = db_list(interval_la), db_list(difference)
-    valid_list = seconds_list(interval_ms / 1000.0)
+    tones = _tones(nominal, thresholds, parts, period_tonal, period_difference)
+    band_check, findings = _band_check(settings, readings_sheet, parts.interval_difference_db)
+    starts = format_local(parts.interval_start_ms, tz)
+    ends = format_local(parts.interval_end_ms, tz)
+    la_list = db_list(parts.interval_la_db)
+    difference_list = db_list(parts.interval_difference_db)
+    valid_list = seconds_list(parts.interval_ms / 1000.0)
     interval_rows = [
         {"start": starts[j], "end": ends[j], "valid_s": valid_list[j],
          "LAeq_from_bands": la_list[j], "difference_db": difference_list[j],
-         "tonal_bands_hz": [float(f) for f in nominal[tonal[j]]]}
-        for j in range(n_intervals) if interval_ms[j] > 0
+         "tonal_bands_hz": [float(f) for f in nominal[parts.interval_tonal[j]]]}
+        for j in range(parts.interval_start_ms.size)
     ]
     section = {
         "bands_hz": [float(f) for f in nominal],
-        "valid_s": seconds(float(cell_ms.sum()) / 1000.0),
-        "incomplete_readings": int(np.count_nonzero(ctx.valid & ~bands.complete)),
+        "valid_s": seconds(float(period_ms.sum()) / 1000.0),
+        "incomplete_readings": parts.incomplete_readings,
         "tone_thresholds_db": db_list(thresholds),
         "low_frequency_threshold_db": settings.spectral.low_frequency_db,
         "periods": periods,
@@ -238,19 +299,15 @@ def spectral_section(ctx: Context) -> tuple[dict[str, Any] | None, list[Finding]
     return section, findings
 
 
-def _tones(nominal: FloatArray, thresholds: FloatArray, cell_ms: FloatArray,
-           tonal: np.ndarray, tone_difference: FloatArray, period_ms: FloatArray,
+def _tones(nominal: FloatArray, thresholds: FloatArray, parts: SpectralParts,
            period_tonal: np.ndarray, period_difference: FloatArray) -> list[dict[str, Any]]:
     """Tonal bands per period: in the average spectrum or in any interval spectrum."""
-    tonal_ms = cell_ms.T @ tonal.astype(np.float64)  # (periods, bands)
+    period_ms, tonal_ms = parts.period_ms, parts.tonal_ms
     out: list[dict[str, Any]] = []
     for p, name in enumerate(PERIOD_NAMES):
         if not period_ms[p] > 0:
             continue
-        in_period = cell_ms[:, p] > 0
-        differences = np.where(in_period[:, None] & np.isfinite(tone_difference),
-                               tone_difference, -np.inf)
-        largest = np.maximum(differences.max(axis=0, initial=-np.inf),
+        largest = np.maximum(parts.largest_difference_db[p],
                              np.where(np.isfinite(period_difference[p]),
                                       period_difference[p], -np.inf))
         for k in np.flatnonzero((tonal_ms[p] > 0) | period_tonal[p]):  # tonal bands only
@@ -265,9 +322,10 @@ def _tones(nominal: FloatArray, thresholds: FloatArray, cell_ms: FloatArray,
     return out
 
 
-def _band_check(ctx: Context, difference: FloatArray) -> tuple[dict[str, Any], list[Finding]]:
+def _band_check(settings: Settings, readings_sheet: str, difference: FloatArray
+                ) -> tuple[dict[str, Any], list[Finding]]:
     """Median band-total difference over the intervals that have one, and its finding."""
-    tolerance = ctx.settings.spectral.band_total_tolerance_db
+    tolerance = settings.spectral.band_total_tolerance_db
     finite = difference[np.isfinite(difference)]
     median = float(np.median(finite)) if finite.size else float("nan")
     median_abs = float(np.median(np.abs(finite))) if finite.size else float("nan")
@@ -285,7 +343,7 @@ def _band_check(ctx: Context, difference: FloatArray) -> tuple[dict[str, Any], l
         findings.append(Finding(
             "band-total-mismatch", Severity.WARNING,
             BAND_MISMATCH_MESSAGE.format(median=median, count=finite.size, tolerance=tolerance),
-            ctx.survey.readings_sheet))
+            readings_sheet))
     return check, findings
 
 
@@ -317,7 +375,7 @@ def selection_spectrum(ctx: Context, bands: Bands, index: IntArray, durations_s:
                                             reference)
     spectrum = level_from_energy_sums(energy[0], time[0], reference)
     difference, tonal = screen_tones(spectrum, bands.nominal_hz,
-                                     _thresholds(ctx, bands.nominal_hz))
+                                     _thresholds(ctx.settings, bands.nominal_hz))
     return SelectionSpectrum(spectrum, float(time[0, 0]), tonal, difference)
 
 
@@ -326,7 +384,8 @@ def spectrum_json(ctx: Context, bands: Bands, selection: SelectionSpectrum | Non
     """JSON form of a selection's spectrum (None stays None)."""
     if selection is None:
         return None
-    return _spectrum_summary(ctx, bands, selection.spectrum, selection.valid_s)
+    return _spectrum_summary(ctx.settings, bands.nominal_hz, selection.spectrum,
+                             selection.valid_s)
 
 
 def tones_json(ctx: Context, bands: Bands, selection: SelectionSpectrum | None
@@ -334,7 +393,7 @@ def tones_json(ctx: Context, bands: Bands, selection: SelectionSpectrum | None
     """Tonal bands of a selection's spectrum with their level differences."""
     if selection is None:
         return []
-    thresholds = _thresholds(ctx, bands.nominal_hz)
+    thresholds = _thresholds(ctx.settings, bands.nominal_hz)
     return [{"band_hz": float(bands.nominal_hz[k]),
              "difference_db": db(selection.difference_db[k]),
              "threshold_db": db(thresholds[k])}
