@@ -23,9 +23,11 @@ How a batch is cut so that the merged result is the whole-log result:
 
 The cut is also a boundary of the background reference grid, so the LA90 of every
 reference interval comes from one batch too. LN of the whole survey is taken from the
-time per 0.1 dB level step (:mod:`~surveytools.assessment.parts`). Source assessments
-(``[[assessments]]``), logged LN columns and band levels (the ``spectral`` section) need
-the whole log at once: with any of them, the log is read whole (:class:`NotStreamable`).
+time per 0.1 dB level step (:mod:`~surveytools.assessment.parts`); source assessments
+(``[[assessments]]``) from their own parts (:mod:`~surveytools.assessment.source_parts`,
+which says what is read whole). Logged LN columns and band levels (the ``spectral``
+section) need the whole log at once: with either, the log is read whole
+(:class:`NotStreamable`).
 """
 
 from __future__ import annotations
@@ -97,6 +99,7 @@ class _Merged:
     """What the batches add up to."""
 
     parts: Any = None
+    sources: Any = None  # PositionSourceParts of the assessments
     first_survey: Any = None
     findings: list[Finding] = field(default_factory=list)
     counts: dict[str, int] = field(default_factory=dict)
@@ -200,6 +203,7 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
         logged_column,
     )
     from surveytools.assessment.parts import position_parts
+    from surveytools.assessment.source_parts import position_source_parts
     from surveytools.assessment.spans import exclusion_spans_section
     from surveytools.inputs.columns import is_band_column
 
@@ -221,6 +225,8 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
     ctx = ctx.with_shared_split([bounds, reference_bounds(ctx)[0]])
     ref = reference_la90(ctx)
     merged.reference_basis = ref.basis
+    sources = position_source_parts(ctx, ref)
+    merged.sources = sources if merged.sources is None else merged.sources + sources
     for j in range(max(ref.bounds_ms.size - 1, 0)):
         merged.reference[int(ref.bounds_ms[j])] = (
             int(ref.bounds_ms[j + 1]), int(ref.period_index[j]), float(ref.la90_db[j]),
@@ -270,9 +276,6 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
     from surveytools.inputs.raw import RawWorkbook
     from surveytools.validation import build_survey
 
-    if assess and settings.assessments:
-        # source assessments need the readings of their windows across the whole log
-        raise NotStreamable("source assessments")
     batches = open_log(log.path, settings)
     if batches is None:
         raise NotStreamable("no header")
@@ -537,6 +540,19 @@ def _coverage(merged: _Merged, tz: Any) -> dict[str, Any]:
     }
 
 
+def _assessments(merged: _Merged, settings: Settings, position: Any, tz: Any
+                 ) -> list[dict[str, Any]]:
+    """Return the ``assessments`` section from the merged source parts."""
+    from surveytools.assessment.source_parts import PartsNotMergeable
+    from surveytools.assessment.sources import assessments_from_parts
+
+    try:
+        return assessments_from_parts(merged.sources, settings, position, tz,
+                                      merged.parts.first_ms, merged.parts.last_ms)
+    except PartsNotMergeable as exc:
+        raise NotStreamable(str(exc)) from exc
+
+
 def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
                       ) -> tuple[dict[str, Any], list[Finding], dict[str, int]]:
     """Results sections of a long log assessed in parts, its findings and their counts.
@@ -576,8 +592,9 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
 
     basis: dict[str, Any] = {ln_key(p): "samples" for p in settings.percentiles}
     basis["method"] = None
+    assessments = _assessments(merged, settings, survey.metadata.get("position"), tz)
     criteria = criteria_section(
-        settings.criteria, survey.metadata.get("position"), days, intervals, [],
+        settings.criteria, survey.metadata.get("position"), days, intervals, assessments,
         settings.percentiles, settings.reporting_interval_s, settings.coverage_threshold,
         tz=tz, periods=settings.periods, holidays=parse_holidays(settings.calendar.holidays),
         interval_laeq=interval_laeq if any(c.interval_s is not None
@@ -590,7 +607,7 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
         "days": days,
         "survey_average": average,
         "background": _background(merged, settings, tz),
-        "assessments": [],
+        "assessments": assessments,
         "criteria": criteria,
         "exclusion_spans": merged.spans,
         "unplaced": unplaced_section(survey_rows),
