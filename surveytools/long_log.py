@@ -27,8 +27,9 @@ time per 0.1 dB level step (:mod:`~surveytools.assessment.parts`), or from the c
 each logged value where an LN column is logged
 (:mod:`~surveytools.assessment.logged_parts`; not for ``method = "mean"``); band levels
 (the ``spectral`` section) from band energy sums per period type and whole intervals
-(:mod:`~surveytools.assessment.spectral_parts`). Source assessments (``[[assessments]]``)
-need the whole log at once: with them, the log is read whole (:class:`NotStreamable`).
+(:mod:`~surveytools.assessment.spectral_parts`); source assessments (``[[assessments]]``)
+from their own parts (:mod:`~surveytools.assessment.source_parts`, which says what is
+read whole).
 """
 
 from __future__ import annotations
@@ -103,6 +104,13 @@ def fits_whole(path: Path) -> bool:
     return True
 
 
+#: Refusal of a long log whose logged LN values cannot be added up part by part (a
+#: sentence completed by the reason and its own fix).
+_SPLIT_OR = "%s, or split the log into shorter files (each read whole), and run again"
+_EMPTY_LOGGED = _SPLIT_OR % ("its logged LN columns are filled in some parts of the log and "
+                             "empty in others; fill them or leave them out throughout")
+
+
 def _order_refusal(row: int) -> str:
     return (f"its rows are not in time order: the reading in row {row} starts more than "
             f"{CUT_LOOKBACK_MS // 60_000} minutes before readings in earlier rows. A log "
@@ -138,6 +146,7 @@ class _Merged:
     """What the batches add up to."""
 
     parts: Any = None
+    sources: Any = None  # PositionSourceParts of the assessments
     first_survey: Any = None
     findings: list[Finding] = field(default_factory=list)
     counts: dict[str, int] = field(default_factory=dict)
@@ -246,6 +255,7 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
         logged_parts_of,
     )
     from surveytools.assessment.parts import position_parts
+    from surveytools.assessment.source_parts import position_source_parts
     from surveytools.assessment.spans import exclusion_spans_section
     from surveytools.assessment.spectral import spectral_parts_of
 
@@ -256,12 +266,17 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
         return
     logged = logged_parts_of(ctx)  # the whole survey's LN combines every logged value
     if logged.columns and settings.background.method not in EXACT_METHODS:
-        raise NotStreamable("the mean of logged LN values")
+        raise NotStreamable("the mean of logged LN values", _SPLIT_OR % (
+            "its logged LN values are combined by their mean ([background] method = "
+            '"mean"), which cannot be added up part by part; choose method "median" or '
+            '"mode"'))
     if merged.logged is not None and merged.logged.columns != logged.columns:
-        raise NotStreamable("logged LN columns empty in some batches")
+        raise NotStreamable("logged LN columns empty in some batches", _EMPTY_LOGGED)
     merged.logged = logged if merged.logged is None else merged.logged + logged
     if merged.logged.largest > MAX_DISTINCT_VALUES:
-        raise NotStreamable("too many distinct logged LN values")
+        raise NotStreamable("too many distinct logged LN values", _SPLIT_OR % (
+            f"its logged LN columns hold over {MAX_DISTINCT_VALUES:,} distinct values; "
+            "round them to 0.1 dB"))
     if logged.columns or ctx.logged("LAF90") is not None:
         merged.logging_s.add(ctx.logging_interval_s)
     parts = position_parts(ctx)
@@ -273,11 +288,13 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
     rows, basis = intervals_section(ctx)
     if ((merged.reference_basis or ref.basis) != ref.basis
             or (merged.intervals_basis or basis) != basis):  # a batch without logged values
-        raise NotStreamable("logged LN columns empty in some batches")
+        raise NotStreamable("logged LN columns empty in some batches", _EMPTY_LOGGED)
     merged.reference_basis, merged.intervals_basis = ref.basis, basis
     spectral = spectral_parts_of(ctx)
     if spectral is not None:
         merged.spectral = spectral if merged.spectral is None else merged.spectral + spectral
+    sources = position_source_parts(ctx, ref)
+    merged.sources = sources if merged.sources is None else merged.sources + sources
     for j in range(max(ref.bounds_ms.size - 1, 0)):
         merged.reference[int(ref.bounds_ms[j])] = (
             int(ref.bounds_ms[j + 1]), int(ref.period_index[j]), float(ref.la90_db[j]),
@@ -326,9 +343,6 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
     from surveytools.inputs.raw import RawWorkbook
     from surveytools.validation import build_survey
 
-    if assess and settings.assessments:
-        # source assessments need the readings of their windows across the whole log
-        raise NotStreamable("source assessments")
     batches = open_log(log.path, settings)
     if batches is None:
         raise NotStreamable("no header")
@@ -609,6 +623,22 @@ def _coverage(merged: _Merged, tz: Any) -> dict[str, Any]:
     }
 
 
+def _assessments(merged: _Merged, settings: Settings, position: Any, tz: Any
+                 ) -> list[dict[str, Any]]:
+    """Return the ``assessments`` section from the merged source parts."""
+    from surveytools.assessment.source_parts import PartsNotMergeable
+    from surveytools.assessment.sources import assessments_from_parts
+
+    try:
+        return assessments_from_parts(merged.sources, settings, position, tz,
+                                      merged.parts.first_ms, merged.parts.last_ms)
+    except PartsNotMergeable as exc:
+        raise NotStreamable(str(exc), _SPLIT_OR % (
+            "an assessment's residual-time LA90 is needed across parts of the log from "
+            "logged LAF90 values or from levels not on a 0.1 dB grid; round the levels to "
+            "0.1 dB")) from exc
+
+
 def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
                       ) -> tuple[dict[str, Any], list[Finding], dict[str, int]]:
     """Results sections of a long log assessed in parts, its findings and their counts.
@@ -646,7 +676,9 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
 
     modal_s = max(merged.durations.items(), key=lambda kv: (kv[1], -kv[0]))[0] / 1000.0
     if any(not same_combining(s, modal_s, settings) for s in merged.logging_s):
-        raise NotStreamable("a batch's logging interval combines logged values otherwise")
+        raise NotStreamable("a batch's logging interval combines logged values otherwise",
+                            _SPLIT_OR % ("its logging interval changes within the log, "
+                                         "which changes how its logged LN values combine"))
     tz = site_tz(survey.metadata)
     spectral = None
     if merged.spectral is not None:
@@ -658,8 +690,9 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
     intervals, interval_laeq = _interval_rows(merged, settings, tz)
     days, average = _day_sections(merged, settings, tz)
     basis = merged.intervals_basis
+    assessments = _assessments(merged, settings, survey.metadata.get("position"), tz)
     criteria = criteria_section(
-        settings.criteria, survey.metadata.get("position"), days, intervals, [],
+        settings.criteria, survey.metadata.get("position"), days, intervals, assessments,
         settings.percentiles, settings.reporting_interval_s, settings.coverage_threshold,
         tz=tz, periods=settings.periods, holidays=parse_holidays(settings.calendar.holidays),
         interval_laeq=interval_laeq if any(c.interval_s is not None
@@ -672,7 +705,7 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
         "days": days,
         "survey_average": average,
         "background": _background(merged, settings, tz),
-        "assessments": [],
+        "assessments": assessments,
         "criteria": criteria,
         "exclusion_spans": merged.spans,
         "unplaced": unplaced_section(survey_rows),

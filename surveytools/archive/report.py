@@ -23,7 +23,6 @@ from __future__ import annotations
 import logging
 import threading
 import time
-import warnings
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager, suppress
 from dataclasses import dataclass, field
@@ -300,17 +299,17 @@ class LocalClusterStart:
         self._thread.start()
 
     def _start(self, workers: int, memory_limit: str) -> None:
-        # the scheduler's status page wants port 8787 and takes another one when that is
-        # busy (a second report, the user's own cluster), with a warning that is no news
-        # to our users: ignored, in this process only
-        warnings.filterwarnings("ignore", message=r"Port \d+ is already in use",
-                                category=UserWarning)
         try:
             from distributed import LocalCluster
 
+            # no status page; the scheduler's small HTTP server (which it always starts)
+            # on a free port of 127.0.0.1, never the usual 8787 that another report or
+            # the user's own cluster may hold
             self._cluster = LocalCluster(n_workers=workers, threads_per_worker=1,
                                          processes=True, memory_limit=memory_limit,
                                          host="127.0.0.1", dashboard_address=None,
+                                         scheduler_kwargs={"dashboard": False,
+                                                           "dashboard_address": "127.0.0.1:0"},
                                          silence_logs=logging.CRITICAL)
         except BaseException as exc:  # handed to the thread that waits for the cluster
             self._error = exc

@@ -17,7 +17,7 @@ and night LA90 combine the LA90 of the *sufficient* reference intervals (valid f
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import tzinfo
+from datetime import date, tzinfo
 from typing import Any
 
 import numpy as np
@@ -40,6 +40,7 @@ from surveytools.indicators.percentiles import (
     grouped_exceedance_levels,
     whole_db_distribution,
 )
+from surveytools.settings import Background
 
 #: Background periods, in order within an assessment day.
 BACKGROUND_PERIODS = ("day", "night")
@@ -191,26 +192,31 @@ def background_from_reference(ref: ReferenceLA90, method: str, tz: tzinfo) -> di
     return out
 
 
-def background_periods_of(ctx: Context, instants_ms: np.ndarray) -> np.ndarray:
-    """Background period index per UTC instant (index into ``BACKGROUND_PERIODS``), vectorised."""
-    settings = ctx.settings.background
-    spans = day_offset_boundaries(ctx.candidate_days, [settings.day_start, settings.night_start],
-                                  ctx.tz)
+def background_periods_of(days: list[date], tz: tzinfo, settings: Background,
+                          instants_ms: np.ndarray) -> np.ndarray:
+    """Background period index per UTC instant (index into ``BACKGROUND_PERIODS``), vectorised.
+
+    ``days`` are the local dates the periods are laid out on (``Context.candidate_days``,
+    or those of a whole log assessed in parts).
+    """
+    spans = day_offset_boundaries(days, [settings.day_start, settings.night_start], tz)
     segment = np.searchsorted(spans, np.asarray(instants_ms, dtype=np.int64), side="right")
     return np.asarray((segment - 1) % len(BACKGROUND_PERIODS), dtype=np.int64)
 
 
-def majority_period(ctx: Context, spans_ms: np.ndarray) -> str | None:
+def majority_period(days: list[date], tz: tzinfo, settings: Background,
+                    spans_ms: np.ndarray) -> str | None:
     """Return the background period ("day"/"night") holding most of the time of ``spans_ms``.
 
     Each ``[from, to)`` span is weighed by its length and placed by its middle instant;
     spans are short against a period (windows of an assessment, runs of operating
-    readings), so the middle decides. None when there are no spans.
+    readings), so the middle decides. None when there are no spans. ``days`` as for
+    :func:`background_periods_of`.
     """
     if spans_ms.size == 0:
         return None
     middle = (spans_ms[:, 0] + spans_ms[:, 1]) // 2
     weights = (spans_ms[:, 1] - spans_ms[:, 0]).astype(float)
-    periods = background_periods_of(ctx, middle)
+    periods = background_periods_of(days, tz, settings, middle)
     totals = np.bincount(periods, weights=weights, minlength=len(BACKGROUND_PERIODS))
     return BACKGROUND_PERIODS[int(np.argmax(totals))]

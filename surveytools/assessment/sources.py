@@ -26,6 +26,7 @@ louder day would not be comparable with a night-time total.
 
 from __future__ import annotations
 
+from datetime import date, tzinfo
 from typing import Any
 
 import numpy as np
@@ -35,28 +36,36 @@ from surveytools.assessment._common import (
     IntArray,
     Pieces,
     db,
-    run_spans,
     seconds,
-    split,
 )
 from surveytools.assessment.background import (
     BACKGROUND_PERIODS,
     ReferenceLA90,
     majority_period,
-    reference_la90,
 )
 from surveytools.assessment.context import Context
-from surveytools.assessment.spectral import assessment_spectra
-from surveytools.assessment.timegrid import (
-    day_offset_boundaries,
-    format_local,
-    local_text_to_utc_ms,
+from surveytools.assessment.source_parts import (
+    ALL_PERIODS,
+    PositionSourceParts,
+    ResidualLA90,
+    SourceFreeBackground,
+    SourceParts,
+    operating_flags,
+    period_pieces,
+    position_assessments,
+    source_parts,
+    window_ms,
+    window_pieces,
 )
-from surveytools.constants import BACKGROUND_PERCENT
+from surveytools.assessment.spectral import (
+    AssessmentSpectra,
+    assessment_spectra,
+    spectra_without_bands,
+    survey_bands,
+)
+from surveytools.assessment.timegrid import calendar_days, format_local
 from surveytools.errors import SettingsError
-from surveytools.indicators.levels import energy_average
-from surveytools.indicators.percentiles import combine_logged_levels, exceedance_level
-from surveytools.settings import Assessment
+from surveytools.settings import Assessment, Settings
 
 #: How the background an assessment is compared with was found (results contract).
 BACKGROUND_BASES = ("source-free period", "residual time", "not available")
@@ -68,37 +77,6 @@ NOTE_UPPER_BOUND = (
     "the residual is within {limit:g} dB of the total: the specific level cannot be "
     "separated; the total is reported as an upper bound"
 )
-
-
-def window_ms(ctx: Context, windows: tuple[tuple[str, str], ...]) -> IntArray:
-    """Windows as an ``(n, 2)`` array of UTC instants [ms].
-
-    Raises
-    ------
-    SettingsError
-        If a window text is not a date-time or a window ends before it starts.
-    """
-    out = np.zeros((len(windows), 2), dtype=np.int64)
-    for k, (begin, end) in enumerate(windows):
-        out[k] = (local_text_to_utc_ms(begin, ctx.tz), local_text_to_utc_ms(end, ctx.tz))
-        if out[k, 1] <= out[k, 0]:
-            raise SettingsError(
-                f"assessment window {begin!r} to {end!r} ends before it starts; give "
-                "[from, to] with to after from"
-            )
-    return out
-
-
-def _window_pieces(ctx: Context, windows: IntArray) -> tuple[Pieces, np.ndarray]:
-    """Split the readings at the window edges; mark the pieces inside a window."""
-    edges = np.unique(windows.ravel())
-    pieces = split(ctx.start_ms, ctx.duration_ms, edges)
-    middle = pieces.start_ms + pieces.duration_ms / 2.0
-    inside = np.zeros(pieces.index.size, dtype=bool)
-    for begin, end in windows:  # a handful of windows
-        inside |= (middle >= begin) & (middle < end)
-    return pieces, inside & (pieces.duration_ms > 0)
-
 
 #: A selection of valid time: reading of each piece and its duration [s].
 Selection = tuple[IntArray, FloatArray]
@@ -112,98 +90,69 @@ def _piece_selection(ctx: Context, pieces: Pieces, chosen: np.ndarray) -> Select
     return pieces.index[chosen], pieces.duration_s[chosen]
 
 
-def _selection_level(ctx: Context, selection: Selection) -> tuple[float, float]:
-    """LAeq and valid time [s] of a selection."""
-    laeq = ctx.level("LAeq")
-    assert laeq is not None
-    index, durations = selection
-    return energy_average(laeq[index], durations), float(np.sum(durations))
+def _selections(ctx: Context, assessment: Assessment, parts: SourceParts
+                ) -> tuple[Selection, Selection]:
+    """Return the valid source-on and residual pieces the entry uses (for the spectra)."""
+    if assessment.use_operating_column:
+        on, off = operating_flags(ctx)
+        pieces, piece_period = period_pieces(ctx)
+        on_p, off_p = on[pieces.index], off[pieces.index]
+        period, alone = parts.operating_period()
+        if period is not None and alone:
+            same = piece_period == BACKGROUND_PERIODS.index(period)
+            on_p, off_p = on_p & same, off_p & same
+        return _piece_selection(ctx, pieces, on_p), _piece_selection(ctx, pieces, off_p)
+    out = []
+    for windows in (assessment.source_on, assessment.residual):
+        spans = window_ms(ctx.tz, windows)
+        out.append(_piece_selection(ctx, *window_pieces(ctx, spans))
+                   if spans.size and ctx.n else _NO_SELECTION)
+    return out[0], out[1]
 
 
-def _period_pieces(ctx: Context) -> tuple[Pieces, IntArray]:
-    """Split the readings at the background period bounds; give each piece its period.
-
-    A 15-min reading from 06:52 gives 8 min to the night and 7 to the day (design.md §5).
-    """
-    settings = ctx.settings.background
-    bounds = day_offset_boundaries(ctx.candidate_days, [settings.day_start,
-                                                        settings.night_start], ctx.tz)
-    pieces = split(ctx.start_ms, ctx.duration_ms, bounds)
-    return pieces, (pieces.segment - 1) % len(BACKGROUND_PERIODS)
-
-
-def _span_texts(ctx: Context, spans: IntArray) -> list[list[str]]:
-    starts = format_local(spans[:, 0], ctx.tz)
-    ends = format_local(spans[:, 1], ctx.tz)
+def _span_texts(tz: tzinfo, spans: IntArray) -> list[list[str]]:
+    starts = format_local(spans[:, 0], tz)
+    ends = format_local(spans[:, 1], tz)
     return [[a, b] for a, b in zip(starts, ends, strict=True)]
 
 
-def _piece_spans(pieces: Pieces, selected: np.ndarray) -> IntArray:
-    first, last = run_spans(selected)
-    if not first.size:
-        return np.zeros((0, 2), dtype=np.int64)
-    return np.stack([pieces.start_ms[first],
-                     pieces.start_ms[last] + pieces.duration_ms[last]], axis=1)
-
-
-def _overlapping(ctx: Context, spans: IntArray) -> np.ndarray:
-    """Mark the readings overlapping any ``[from, to)`` span (a handful of spans)."""
-    out = np.zeros(ctx.n, dtype=bool)
-    for begin, end in spans:
-        out |= (ctx.start_ms < end) & (ctx.end_ms > begin)
-    return out
-
-
-def _residual_la90(ctx: Context, pieces: Pieces, chosen: np.ndarray) -> float:
-    """LA90 of the residual time: the pieces ``chosen`` of readings valid for background.
-
-    From the logged LAF90 of those readings (combined with the background method) where
-    the log has it, else from their LAeq samples (ISO 1996-1 LN, durations as weights).
-    """
-    chosen = chosen & ctx.valid_background[pieces.index] & (pieces.duration_ms > 0)
-    logged = ctx.logged("LAF90")
-    if logged is not None:
-        readings = np.unique(pieces.index[chosen])
-        return combine_logged_levels(logged[readings], ctx.settings.background.method)
-    laeq = ctx.level("LAeq")
-    assert laeq is not None
-    return exceedance_level(laeq[pieces.index][chosen], BACKGROUND_PERCENT,
-                            pieces.weights_ms[chosen])
-
-
-def _source_free_background(
-    ctx: Context, period: str | None, source_readings: np.ndarray,
-    reference: ReferenceLA90 | None, residual: tuple[Pieces, np.ndarray] | None,
-) -> tuple[float, str, str | None]:
+def _background(period: str | None, readings: int, background: SourceFreeBackground,
+                residual: ResidualLA90, method: str) -> tuple[float, str, str | None]:
     """Return the unrounded background LA90 an assessment is compared with, basis, note.
 
-    ``source_readings`` are left out of the background (on top of the background
-    exclusions, ``Operating = yes`` among them); ``reference`` is the survey's own
-    reference-interval LA90 (used when there is nothing more to leave out). NaN when
-    there is no background. [dB]
+    The source-free reference intervals of the period first, else the LA90 of the
+    residual time. NaN when there is no background. [dB]
     """
-    if period is None or ctx.n == 0:
+    if period is None or readings == 0:
         return float("nan"), "not available", None
-    method = ctx.settings.background.method
-    if np.any(source_readings & ctx.valid_background) or reference is None:
-        reference = reference_la90(ctx, ctx.valid_background & ~source_readings)
-    value = reference.representative(period, method)
+    value = background.representative(period, method)
     if np.isfinite(value):
         return value, "source-free period", None
-    if residual is not None:
-        value = _residual_la90(ctx, *residual)
-        if np.isfinite(value):
-            return value, "residual time", (
-                f"no sufficient {period}-time background without the source: the LA90 of "
-                "the residual time is used")
+    value = residual.la90()
+    if np.isfinite(value):
+        return value, "residual time", (
+            f"no sufficient {period}-time background without the source: the LA90 of "
+            "the residual time is used")
     return float("nan"), "not available", (
         f"no representative {period} background LA90 without the source, and no valid "
         "residual time to take it from")
 
 
-def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | None
-               ) -> dict[str, Any]:
-    """One entry of the ``assessments`` section."""
+def assessment_entry(assessment: Assessment, parts: SourceParts, settings: Settings,
+                     tz: tzinfo, days: list[date], spectra: AssessmentSpectra
+                     ) -> dict[str, Any]:
+    """One entry of the ``assessments`` section from the parts of the survey's readings.
+
+    ``days`` are the local dates the background periods are laid out on (those of the
+    whole survey); ``spectra`` what the band levels add (:func:`assessment_spectra`).
+
+    Raises
+    ------
+    SettingsError
+        If the residual settings or a window cannot be applied.
+    PartsNotMergeable
+        If the residual-time LA90 is needed and cannot be had from merged parts.
+    """
     from surveytools.indicators.background import residual_correction
     from surveytools.indicators.rating import (
         excess_over_background,
@@ -211,54 +160,31 @@ def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | 
         rating_level,
     )
 
-    residual_settings = ctx.settings.residual
+    residual_settings = settings.residual
     period_note: str | None = None
-    residual_pieces: tuple[Pieces, np.ndarray] | None = None
     if assessment.use_operating_column:
         selection = "operating column"
-        operating = (
-            ctx.survey.readings["operating"] if "operating" in ctx.survey.readings.columns
-            else None
-        )
-        on = (operating == True).fillna(False).to_numpy(dtype=bool) if operating is not None \
-            else np.zeros(ctx.n, dtype=bool)  # noqa: E712 (nullable boolean comparison)
-        off = (operating == False).fillna(False).to_numpy(dtype=bool) if operating is not None \
-            else np.zeros(ctx.n, dtype=bool)  # noqa: E712
-        pieces, piece_period = _period_pieces(ctx)
-        on_p, off_p = on[pieces.index], off[pieces.index]
-        good = ctx.valid[pieces.index] & (pieces.duration_ms > 0)
-        on_time = np.bincount(piece_period[on_p & good], weights=pieces.duration_ms[on_p & good],
-                              minlength=len(BACKGROUND_PERIODS))
-        period = BACKGROUND_PERIODS[int(np.argmax(on_time))] if on_time.sum() > 0 else None
+        period, alone = parts.operating_period()
+        group = BACKGROUND_PERIODS.index(period) if period is not None and alone else None
         if period is not None:
-            same = piece_period == BACKGROUND_PERIODS.index(period)
-            if np.any(off_p & same & good):
-                on_p, off_p = on_p & same, off_p & same
-                period_note = (f"source-on and residual time taken from {period}-time "
-                               "only, the period holding most of the operating time")
-            else:
-                period_note = (f"no valid residual readings in the {period}-time, where most "
-                               "of the operating time lies: the residual comes from the other "
-                               "period and may not be comparable")
-        on_spans, off_spans = _piece_spans(pieces, on_p), _piece_spans(pieces, off_p)
-        on_selection = _piece_selection(ctx, pieces, on_p)
-        off_selection = _piece_selection(ctx, pieces, off_p)
-        source_readings = on  # already out of every background (Operating = yes)
-        residual_pieces = (pieces, off_p)
+            period_note = (
+                f"source-on and residual time taken from {period}-time only, the period "
+                "holding most of the operating time" if alone else
+                f"no valid residual readings in the {period}-time, where most of the "
+                "operating time lies: the residual comes from the other period and may not "
+                "be comparable")
+        runs = ALL_PERIODS if group is None else group
+        on_spans, off_spans = parts.on_runs[runs].spans_ms, parts.off_runs[runs].spans_ms
+        residual_part = parts.residual[runs]
     else:
         selection = "windows"
-        on_spans = window_ms(ctx, assessment.source_on)
-        off_spans = window_ms(ctx, assessment.residual)
-        on_selection = (_piece_selection(ctx, *_window_pieces(ctx, on_spans))
-                        if on_spans.size and ctx.n else _NO_SELECTION)
-        period = majority_period(ctx, on_spans)
-        source_readings = _overlapping(ctx, on_spans)
-        off_selection = _NO_SELECTION
-        if off_spans.size and ctx.n:
-            residual_pieces = _window_pieces(ctx, off_spans)
-            off_selection = _piece_selection(ctx, *residual_pieces)
-    total, valid_total = _selection_level(ctx, on_selection)
-    residual, valid_residual = _selection_level(ctx, off_selection)
+        group = None
+        on_spans = window_ms(tz, assessment.source_on)
+        off_spans = window_ms(tz, assessment.residual)
+        period = majority_period(days, tz, settings.background, on_spans)
+        residual_part = parts.residual[0]
+    total, valid_total = parts.on.level(group)
+    residual, valid_residual = parts.off.level(group)
 
     try:
         specific_arr, difference_arr, basis_arr = residual_correction(
@@ -270,12 +196,11 @@ def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | 
     specific, difference = float(specific_arr), float(difference_arr)
     basis = str(basis_arr.item())
     corrections = {name: assessment.given_correction_db(name) for name in CORRECTION_NAMES}
-    spectra = assessment_spectra(ctx, on_selection, off_selection, assessment.tonal_method)
     if spectra.tonal_correction_db is not None:
         corrections["tonal"] = spectra.tonal_correction_db
     rating = float(rating_level(specific, *(corrections[name] for name in CORRECTION_NAMES)))
-    bg, background_basis, background_note = _source_free_background(
-        ctx, period, source_readings, reference, residual_pieces)
+    bg, background_basis, background_note = _background(
+        period, parts.readings, parts.background, residual_part, settings.background.method)
     # from the unrounded background: every figure is rounded once (design.md §9)
     excess = float(excess_over_background(rating, bg))
     impact = impact_indication(excess)
@@ -295,8 +220,8 @@ def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | 
         "name": assessment.name,
         "position": assessment.position,
         "selection": selection,
-        "source_on": _span_texts(ctx, on_spans),
-        "residual": _span_texts(ctx, off_spans),
+        "source_on": _span_texts(tz, on_spans),
+        "residual": _span_texts(tz, off_spans),
         "valid_s_total": seconds(valid_total),
         "valid_s_residual": seconds(valid_residual),
         "LAeq_total": db(total),
@@ -317,6 +242,18 @@ def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | 
     }
 
 
+def assess_one(ctx: Context, assessment: Assessment, reference: ReferenceLA90 | None
+               ) -> dict[str, Any]:
+    """One entry of the ``assessments`` section: the survey as one part."""
+    parts = source_parts(ctx, assessment, reference)
+    spectra = (assessment_spectra(ctx, *_selections(ctx, assessment, parts),
+                                  assessment.tonal_method)
+               if survey_bands(ctx) is not None else
+               spectra_without_bands(assessment.tonal_method))
+    return assessment_entry(assessment, parts, ctx.settings, ctx.tz, ctx.candidate_days,
+                            spectra)
+
+
 def assessments_section(ctx: Context, reference: ReferenceLA90 | None = None
                         ) -> list[dict[str, Any]]:
     """Assessments of this survey's position, in settings order.
@@ -325,5 +262,22 @@ def assessments_section(ctx: Context, reference: ReferenceLA90 | None = None
     has it (it saves computing it again).
     """
     position = ctx.survey.metadata.get("position")
-    return [assess_one(ctx, a, reference) for a in ctx.settings.assessments
-            if a.position == position]
+    return [assess_one(ctx, a, reference)
+            for a in position_assessments(ctx.settings.assessments, position)]
+
+
+def assessments_from_parts(parts: PositionSourceParts, settings: Settings, position: object,
+                           tz: tzinfo, first_ms: int, last_ms: int) -> list[dict[str, Any]]:
+    """Return the ``assessments`` section of readings without band levels, from parts.
+
+    ``first_ms`` / ``last_ms`` are the earliest start and latest end of the readings.
+
+    Raises
+    ------
+    PartsNotMergeable
+        See :mod:`~surveytools.assessment.source_parts`.
+    """
+    days = calendar_days(first_ms, last_ms, tz)  # as build_context lays them out
+    chosen = position_assessments(settings.assessments, position)
+    return [assessment_entry(a, p, settings, tz, days, spectra_without_bands(a.tonal_method))
+            for a, p in zip(chosen, parts.items, strict=True)]

@@ -400,6 +400,14 @@ def tones_json(ctx: Context, bands: Bands, selection: SelectionSpectrum | None
             for k in np.flatnonzero(selection.tonal)]
 
 
+def _underived_basis() -> dict[str, Any]:
+    """Tonal basis when there is no source-on spectrum to derive the correction from."""
+    return {"source": "derived", "method": ONE_THIRD_OCTAVE, "bands_hz": [],
+            "reason": ("no complete one-third-octave spectrum in the source-on time: the "
+                       "tonal correction could not be derived and is 0 dB; give it by "
+                       "hand (corrections_db.tonal = a number) if the source is tonal")}
+
+
 def tonal_correction(ctx: Context, bands: Bands | None, source_on: SelectionSpectrum | None,
                      residual: SelectionSpectrum | None) -> tuple[float, dict[str, Any]]:
     """Derive the tonal correction and its basis (BS 4142 one-third-octave method).
@@ -413,12 +421,9 @@ def tonal_correction(ctx: Context, bands: Bands | None, source_on: SelectionSpec
         ``{"source": "derived", "method": "one-third-octave", "bands_hz": [...],
         "reason": text}``.
     """
-    basis: dict[str, Any] = {"source": "derived", "method": ONE_THIRD_OCTAVE, "bands_hz": []}
     if bands is None or source_on is None:
-        basis["reason"] = ("no complete one-third-octave spectrum in the source-on time: the "
-                           "tonal correction could not be derived and is 0 dB; give it by "
-                           "hand (corrections_db.tonal = a number) if the source is tonal")
-        return 0.0, basis
+        return 0.0, _underived_basis()
+    basis: dict[str, Any] = {"source": "derived", "method": ONE_THIRD_OCTAVE, "bands_hz": []}
     correction, counted = one_third_octave_tonal_correction(
         source_on.tonal, None if residual is None else residual.tonal,
         ctx.settings.spectral.tonal_correction_db)
@@ -475,17 +480,26 @@ def assessment_spectra(ctx: Context, source_on: tuple[IntArray, FloatArray],
         ``"one-third-octave"`` to derive the tonal correction; None when it is given.
     """
     bands = survey_bands(ctx)
-    on = off = None
-    fields: dict[str, Any] = {}
-    if bands is not None:
-        on = selection_spectrum(ctx, bands, *source_on)
-        off = selection_spectrum(ctx, bands, *residual)
-        fields = {"spectrum_source_on": spectrum_json(ctx, bands, on),
-                  "spectrum_residual": spectrum_json(ctx, bands, off),
-                  "tones_source_on": tones_json(ctx, bands, on)}
+    if bands is None:
+        return spectra_without_bands(tonal_method)
+    on = selection_spectrum(ctx, bands, *source_on)
+    off = selection_spectrum(ctx, bands, *residual)
+    fields = {"spectrum_source_on": spectrum_json(ctx, bands, on),
+              "spectrum_residual": spectrum_json(ctx, bands, off),
+              "tones_source_on": tones_json(ctx, bands, on)}
     if tonal_method != ONE_THIRD_OCTAVE:
-        return AssessmentSpectra(None, {"source": "given", "method": None, "bands_hz": [],
-                                        "reason": "given in the settings (corrections_db)"},
-                                 fields)
+        return AssessmentSpectra(None, _given_basis(), fields)
     correction, basis = tonal_correction(ctx, bands, on, off)
     return AssessmentSpectra(correction, basis, fields)
+
+
+def _given_basis() -> dict[str, Any]:
+    return {"source": "given", "method": None, "bands_hz": [],
+            "reason": "given in the settings (corrections_db)"}
+
+
+def spectra_without_bands(tonal_method: str | None) -> AssessmentSpectra:
+    """Return what :func:`assessment_spectra` gives for readings without band levels."""
+    if tonal_method != ONE_THIRD_OCTAVE:
+        return AssessmentSpectra(None, _given_basis(), {})
+    return AssessmentSpectra(0.0, _underived_basis(), {})

@@ -201,13 +201,10 @@ def test_partitions_are_grouped_per_position_up_to_the_task_size():
     assert groups[0].months == "2026-01..2026-02" and groups[1].months == "2026-03"
 
 
-# distributed leaves the socket of its refused first try to the garbage collector
-@pytest.mark.filterwarnings("ignore::ResourceWarning")
-@pytest.mark.filterwarnings("ignore::pytest.PytestUnraisableExceptionWarning")
 def test_a_busy_status_port_is_not_a_warning(july_archive, tmp_path):
-    # The embedded scheduler's status page takes port 8787 when it is free; when another
-    # program holds it (here: this test), the report still runs and prints nothing about
-    # it (warnings are errors in this test session).
+    # Dask's scheduler serves HTTP on port 8787 by default and, when another program holds
+    # it (here: this test), warns and leaks a socket; ours asks for a free port instead,
+    # so the report runs and says nothing about it (warnings are errors in this session).
     import socket
 
     archive, settings = july_archive

@@ -127,6 +127,22 @@ def test_the_mean_of_logged_values_is_read_whole(folder, monkeypatch):
         assert fallback[key] == whole[key], key
 
 
+def test_the_mean_of_a_log_too_long_to_read_whole_is_refused_with_the_fix(folder,
+                                                                          monkeypatch):
+    # Above the whole-read limit the fallback would hold the whole log: the input is
+    # refused instead, saying which setting prevents the parts and what to do.
+    path = folder / "mast_l.parquet"
+    settings = _settings(folder, "mean")
+    read = _in_parts(path, settings, monkeypatch, 3_000)
+    monkeypatch.setattr(long_log, "WHOLE_READ_MAX_ROWS", 10_000)
+    doc, _ = build_document(path, settings, read=read)
+    assert doc["status"] == "unreadable"
+    (finding,) = doc["findings"]
+    assert finding["code"] == "log-too-long-to-read-whole"
+    assert 'method = "mean"' in finding["message"]
+    assert 'choose method "median" or "mode"' in finding["message"]
+
+
 def test_a_batch_without_logged_values_is_read_whole(folder, monkeypatch):
     # a day without LAF90 values: its batches would give LN from the samples, the whole
     # log gives no LN there (its LAF90 column is logged); the log is read whole
