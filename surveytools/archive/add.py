@@ -3,7 +3,9 @@
 Each input goes through the pipeline's read phase (:func:`surveytools.pipeline.read_input`)
 and validation (:func:`surveytools.validation.build_survey`) with the given settings, so
 its exclusion reasons are exactly those ``run`` shows. Its readings are then written to
-the archive (:mod:`surveytools.archive.store`), one file per position and month.
+the archive (:mod:`surveytools.archive.store`), one file per position and month. A long
+CSV or Parquet log is validated and written batch by batch as ``run`` assesses it
+(:func:`surveytools.long_log.stream_log`), so it is never held whole in memory.
 
 Rules:
 
