@@ -209,3 +209,19 @@ def test_a_long_log_that_cannot_be_cut_is_stored_whole(logs, tmp_path, monkeypat
     for rel, table in whole["files"].items():
         assert parts["files"][rel].equals(table), rel
     assert whole["records"][0]["rows"] == 34_560 - 360 + 2
+
+
+def test_a_long_log_stored_in_batches_is_replaced_by_its_correction(logs, tmp_path,
+                                                                    monkeypatch):
+    # the Parquet log holds the CSV log's readings: added after it, it replaces every row
+    csv, parquet, settings = logs
+    seen = _streamed(monkeypatch)
+    archive = tmp_path / "archive"
+    assert _add(archive, settings, csv, parquet)[0] == 0
+    assert seen["streamed"] == 2
+    records = _stored(archive)["records"]
+    assert [(r["file"], r["status"], r["rows"], r["rows_replaced"]) for r in records] == [
+        ("mast_c.csv", "replaced", 0, 34_201), ("mast_c.parquet", "stored", 34_201, 0)]
+    files = _stored(archive)["files"]
+    assert sorted(files) == sorted(records[1]["files"])
+    assert sum(t.num_rows for t in files.values()) == 34_201  # never duplicated
