@@ -34,6 +34,7 @@ read whole).
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
 from datetime import date, timedelta
@@ -326,8 +327,14 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
 
 
 def stream_log(log: LongLog, settings: Settings, weather: Any = None,
-               assess: bool = True) -> _Merged:
+               assess: bool = True, on_batch: Callable[[Any], None] | None = None
+               ) -> _Merged:
     """Validate (and with ``assess``, assess) a long log batch by batch.
+
+    ``on_batch`` is called, in log order, with each batch's Survey restricted to the
+    readings it owns (those the batch assesses: no reading twice, none lost at a cut;
+    its findings are the whole batch's). A later batch may still raise
+    :class:`NotStreamable`, so what it is given is provisional until this returns.
 
     Raises
     ------
@@ -411,6 +418,8 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
                 if stop_row is not None:
                     assessed = own & (rows < stop_row)
             _add_findings(merged, survey, first_own_row, stop_row, survey.finding_counts)
+            if on_batch is not None:
+                on_batch(_own_survey(survey, assessed))
             unplaced = survey.unplaced
             u_rows = unplaced["row"].to_numpy(dtype=np.int64)
             u_keep = (u_rows >= first_own_row) & (u_rows < (stop_row or np.iinfo(np.int64).max))
@@ -714,9 +723,14 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
     return sections, findings, counts
 
 
-def long_log_findings(log: LongLog, settings: Settings) -> tuple[list[Finding], dict[str, int]]:
-    """Validate a long log batch by batch (``check``); its findings and counts."""
-    return _findings(stream_log(log, settings, assess=False))
+def long_log_findings(log: LongLog, settings: Settings,
+                      on_batch: Callable[[Any], None] | None = None
+                      ) -> tuple[list[Finding], dict[str, int]]:
+    """Validate a long log batch by batch (``check``, ``archive add``); findings, counts.
+
+    ``on_batch``: see :func:`stream_log`.
+    """
+    return _findings(stream_log(log, settings, assess=False, on_batch=on_batch))
 
 
 __all__ = ["LongLog", "NotStreamable", "date", "fits_whole", "is_long_log",

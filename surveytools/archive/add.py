@@ -3,7 +3,9 @@
 Each input goes through the pipeline's read phase (:func:`surveytools.pipeline.read_input`)
 and validation (:func:`surveytools.validation.build_survey`) with the given settings, so
 its exclusion reasons are exactly those ``run`` shows. Its readings are then written to
-the archive (:mod:`surveytools.archive.store`), one file per position and month.
+the archive (:mod:`surveytools.archive.store`), one file per position and month. A long
+CSV or Parquet log is validated and written batch by batch as ``run`` assesses it
+(:func:`surveytools.long_log.stream_log`), so it is never held whole in memory.
 
 Rules:
 
@@ -19,6 +21,7 @@ from __future__ import annotations
 import shutil
 from collections.abc import Callable, Iterator
 from concurrent.futures import ProcessPoolExecutor
+from contextlib import suppress
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -79,48 +82,88 @@ def _utc_text(ms: int) -> str:
 def prepare_input(path: Path, settings: Settings, staging: Path) -> Prepared:
     """Read and validate one input as ``run`` does and stage its readings files.
 
+    A long CSV or Parquet log (:func:`surveytools.long_log.is_long_log`) is read, validated
+    and staged batch by batch, within bounded memory; one that cannot be cut exactly
+    (:class:`~surveytools.long_log.NotStreamable`) is read whole, as ``run`` does.
     Never raises for a bad input. The files are written under ``staging`` (inside the
     archive folder, so that moving them into place is a rename); the caller moves them.
     """
-    import pyarrow as pa
-
+    from surveytools.long_log import LongLog, NotStreamable
     from surveytools.pipeline import read_input
     from surveytools.validation import build_survey
 
-    settings_hash = settings_sha256(settings)
-    read = read_input(path, settings)
+    read = read_input(path, settings, long_logs=True)
     record = IngestRecord(file=path.name, path=str(path), sha256=read.source.sha256,
-                          settings_sha256=settings_hash, status="unreadable",
+                          settings_sha256=settings_sha256(settings), status="unreadable",
                           ingested_at=_now())
+    if isinstance(read.raw, LongLog):
+        try:
+            return _prepare_streamed(read.raw, settings, staging, record)
+        except (NotStreamable, WorkbookError):
+            # not cut-able exactly, or refused before its data: the whole read says why
+            shutil.rmtree(_staging_folder(staging, record), ignore_errors=True)
+            read = read_input(path, settings, read.source)
     if read.error is not None:
         record.message = f"{read.error.message} [{read.error.code}]"
         return Prepared(record)
     survey = build_survey(read.raw, settings)
+    _describe(record, survey.findings, survey.finding_counts, survey.metadata)
+    if _refused(record, len(survey.readings)):
+        return Prepared(record)
+    table = _readings_table(survey)
+    start = table.column("start_ms").to_numpy()
+    end = start + table.column("duration_ms").to_numpy()
+    _stored(record, table.num_rows, int(start.min()), int(end.max()))
+    return Prepared(record, _stage_parts(staging, record, table))
+
+
+def _describe(record: IngestRecord, findings: list[Any], counts: dict[str, int],
+              metadata: dict[str, Any]) -> None:
+    """Fill in the record's finding totals and the input's position, zone and clock."""
     totals = {"error": 0, "warning": 0, "info": 0}
-    for finding in survey.findings:
+    for finding in findings:
         totals[str(finding.severity.value)] += 1
     record.findings = totals
-    record.finding_counts = dict(sorted(survey.finding_counts.items()))
-    position = survey.metadata.get("position")
+    record.finding_counts = dict(sorted(counts.items()))
+    position = metadata.get("position")
     record.position = str(position) if position not in (None, "") else None
-    record.time_zone = str(survey.metadata.get("time_zone") or "") or None
-    record.clock = str(survey.metadata.get("clock") or "") or None
-    readings = survey.readings
+    record.time_zone = str(metadata.get("time_zone") or "") or None
+    record.clock = str(metadata.get("clock") or "") or None
+
+
+def _refused(record: IngestRecord, rows: int) -> bool:
+    """Mark the record failed (and return True) when nothing of the input can be stored."""
     if record.position is None:
         record.status = "failed"
         record.message = ("the input names no monitoring position (Survey sheet 'Position', "
                           "or [survey] position in the settings for a CSV or Parquet log); "
                           "the archive files readings by position")
-        return Prepared(record)
-    if len(readings) == 0:
+        return True
+    if rows == 0:
         record.status = "failed"
         record.message = "the input holds no readings that could be placed in time"
-        return Prepared(record)
-    start = readings["start_ms"].to_numpy(dtype=np.int64)
-    duration = readings["duration_ms"].to_numpy(dtype=np.int64)
+        return True
+    return False
+
+
+def _stored(record: IngestRecord, rows: int, first_ms: int, last_ms: int) -> None:
+    """Mark the record stored with its rows and time span."""
+    record.status = "stored"
+    record.rows = rows
+    record.first_ms = first_ms
+    record.last_ms = last_ms
+    record.first = _utc_text(first_ms)
+    record.last = _utc_text(last_ms)
+
+
+def _readings_table(survey: Any) -> Any:
+    """Return the survey's readings as a readings-file table (see :mod:`.store`)."""
+    import pyarrow as pa
+
+    readings = survey.readings
     columns: dict[str, Any] = {
-        "start_ms": pa.array(start, pa.int64()),
-        "duration_ms": pa.array(duration, pa.int64()),
+        "start_ms": pa.array(readings["start_ms"].to_numpy(dtype=np.int64), pa.int64()),
+        "duration_ms": pa.array(readings["duration_ms"].to_numpy(dtype=np.int64), pa.int64()),
         "row": pa.array(readings["row"].to_numpy(dtype=np.int64), pa.int64()),
     }
     for name in survey.level_columns:
@@ -130,13 +173,114 @@ def prepare_input(path: Path, settings: Settings, staging: Path) -> Prepared:
     columns["exclusion"] = pa.array(survey.reasons_per_row().astype(str), pa.string())
     columns["valid"] = pa.array(survey.valid_mask("all"), pa.bool_())
     columns["valid_background"] = pa.array(survey.valid_mask("background"), pa.bool_())
-    record.status = "stored"
-    record.rows = int(start.size)
-    record.first_ms = int(start.min())
-    record.last_ms = int((start + duration).max())
-    record.first = _utc_text(record.first_ms)
-    record.last = _utc_text(record.last_ms)
-    return Prepared(record, _stage_parts(staging, record, pa.table(columns)))
+    return pa.table(columns)
+
+
+class _MonthWriters:
+    """Stage a long log's readings batch by batch: one Parquet file per UTC month.
+
+    A month's file stays open while later batches may still add to it; the batches come
+    in time order (:func:`~surveytools.long_log.stream_log` cuts them so that every
+    reading of a later batch starts after every reading of an earlier one), so the
+    months before a batch's latest are complete and are closed.
+    """
+
+    def __init__(self, folder: Path) -> None:
+        self.folder = folder
+        self.position: str | None = None
+        self.metadata: dict[str, Any] | None = None
+        self.schema: Any = None
+        self.open: dict[str, tuple[Any, Path]] = {}
+        self.done: dict[str, Path] = {}
+        self.rows = 0
+        self.first_ms: int | None = None
+        self.last_ms: int | None = None
+
+    def add(self, survey: Any) -> None:
+        """Append one batch's owned readings to their months' files."""
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+
+        from surveytools.long_log import NotStreamable
+
+        if self.metadata is None:
+            self.metadata = dict(survey.metadata)
+            position = survey.metadata.get("position")
+            self.position = str(position) if position not in (None, "") else None
+        if self.position is None or len(survey.readings) == 0:
+            return  # nothing to file (no position: refused once the findings are known)
+        table = _readings_table(survey)
+        if self.schema is None:
+            self.schema = table.schema
+        elif not table.schema.equals(self.schema):
+            raise NotStreamable("the batches' readings columns differ")
+        start = table.column("start_ms").to_numpy()
+        end = start + table.column("duration_ms").to_numpy()
+        self.rows += table.num_rows
+        low, high = int(start.min()), int(end.max())
+        self.first_ms = low if self.first_ms is None else min(self.first_ms, low)
+        self.last_ms = high if self.last_ms is None else max(self.last_ms, high)
+        months = _month_keys(start)
+        present = np.unique(months).tolist()  # sorted
+        for month in present:
+            if month in self.done:
+                raise NotStreamable("a batch's reading falls in a month already closed")
+            if month not in self.open:
+                target = self.folder / f"{len(self.open) + len(self.done):04d}.parquet"
+                self.folder.mkdir(parents=True, exist_ok=True)
+                self.open[month] = (pq.ParquetWriter(target, self.schema,
+                                                     compression=PARQUET_COMPRESSION), target)
+            self.open[month][0].write_table(table.filter(pa.array(months == month)))
+        for month in [m for m in self.open if m < present[-1]]:
+            self._close(month)
+
+    def _close(self, month: str) -> None:
+        writer, target = self.open.pop(month)
+        writer.close()
+        self.done[month] = target
+
+    def close(self) -> None:
+        """Close every open file (also after a failure, so that they can be removed)."""
+        for month in list(self.open):
+            self._close(month)
+
+    def staged(self, record: IngestRecord) -> dict[str, str]:
+        """Return final relative path -> staged file, per month."""
+        assert record.position is not None
+        return {part_path(record.position, month, record.sha256, record.settings_sha256):
+                str(target) for month, target in sorted(self.done.items())}
+
+
+def _prepare_streamed(log: Any, settings: Settings, staging: Path, record: IngestRecord
+                      ) -> Prepared:
+    """Validate and stage a long log batch by batch (never the whole log in memory).
+
+    Raises
+    ------
+    NotStreamable, WorkbookError
+        As :func:`~surveytools.long_log.stream_log`; the caller reads the log whole.
+    """
+    from surveytools.long_log import long_log_findings
+
+    folder = _staging_folder(staging, record)
+    shutil.rmtree(folder, ignore_errors=True)
+    writers = _MonthWriters(folder)
+    try:
+        findings, counts = long_log_findings(log, settings, on_batch=writers.add)
+    except BaseException:
+        # a failed input leaves no staged file behind (nothing of it is moved into place)
+        with suppress(Exception):
+            writers.close()
+        shutil.rmtree(folder, ignore_errors=True)
+        raise
+    writers.close()
+    _describe(record, findings, counts, writers.metadata or {})
+    if _refused(record, writers.rows):
+        shutil.rmtree(folder, ignore_errors=True)
+        return Prepared(record)
+    assert writers.first_ms is not None and writers.last_ms is not None
+    _stored(record, writers.rows, writers.first_ms, writers.last_ms)
+    return Prepared(record, writers.staged(record))
 
 
 def _prepared(paths: list[Path], settings: Settings, jobs: int, staging: Path
@@ -185,6 +329,11 @@ def _month_keys(start_ms: np.ndarray) -> np.ndarray:
     return start_ms.astype("datetime64[ms]").astype("datetime64[M]").astype(str)
 
 
+def _staging_folder(staging: Path, record: IngestRecord) -> Path:
+    """Where one input's readings files are staged."""
+    return staging / f"{record.sha256[:20]}-{record.settings_sha256[:8]}"
+
+
 def _stage_parts(staging: Path, record: IngestRecord, table: Any) -> dict[str, str]:
     """Write the input's readings, one file per position-month, under ``staging``.
 
@@ -195,7 +344,7 @@ def _stage_parts(staging: Path, record: IngestRecord, table: Any) -> dict[str, s
 
     assert record.position is not None
     months = _month_keys(table.column("start_ms").to_numpy())
-    folder = staging / f"{record.sha256[:20]}-{record.settings_sha256[:8]}"
+    folder = _staging_folder(staging, record)
     folder.mkdir(parents=True, exist_ok=True)
     staged = {}
     for k, month in enumerate(np.unique(months)):

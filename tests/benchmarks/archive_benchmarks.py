@@ -13,15 +13,19 @@ cycle), then measures, each command a fresh process tree:
   workers (report time, rows per second per worker, peak memory per worker as the report
   records it);
 - **archive at 1 s**: 1 position x 1 year at 1 s (31,536,000 rows) as 12 monthly files:
-  the same measurements.
+  the same measurements;
+- **long log into the archive** (``addyear``, ``addmonth``): ``archive add`` of one
+  Parquet file of a year (or a month) at 1 s, stored batch by batch: ingest time and the
+  peak resident memory of the whole process tree.
 
 Usage::
 
-    python tests/benchmarks/archive_benchmarks.py [--parts large,year,minute,second]
-        [--repeats 3] [--workdir DIR]
+    python tests/benchmarks/archive_benchmarks.py
+        [--parts large,year,minute,second,addyear,addmonth] [--repeats 3] [--workdir DIR]
 
 Targets (issue 17): month at 1 s ``run`` <= 2x the bare read, peak < 1.5 GiB; report with
-2 workers at least 1.7x faster than with 1; peak memory per worker < 1 GiB.
+2 workers at least 1.7x faster than with 1; peak memory per worker < 1 GiB; ``archive
+add`` of a year at 1 s in one file peaks under 2 GiB, of a month well under 1.5 GiB.
 """
 
 from __future__ import annotations
@@ -101,6 +105,25 @@ def large_log(work: Path, repeats: int, days: int = 31) -> dict[str, object]:
             "run_peak_mib": round(max(r["rss_mib"] for r in runs), 0)}
 
 
+def add_long_log(work: Path, days: int) -> dict[str, object]:
+    """``archive add`` of one Parquet log of ``days`` days at 1 s (one run: it is slow)."""
+    log = work / ("month_1s.parquet" if days == 31 else f"days{days}_1s.parquet")
+    first = "2026-07-01T00:00:00" if days == 31 else "2026-01-01T00:00:00"
+    write_log(log, first, days * 86_400, 1, seed=1)
+    settings = settings_file(work / "addlog.toml", "Long")
+    folder = work / f"archive_add_{days}d"
+    shutil.rmtree(folder, ignore_errors=True)
+    res = measure(surveytools("archive", "add", str(log), "--archive", str(folder),
+                              "--settings", str(settings), "--quiet", "--jobs", "1"))
+    doc = json.loads((folder / "ingest.json").read_text(encoding="utf-8"))
+    (record,) = doc["inputs"]
+    if record["status"] != "stored" or record["rows"] != days * 86_400:
+        raise SystemExit(f"archive add did not store the log: {record}")
+    return {"rows": days * 86_400, "ingest_s": round(res["s"], 1),
+            "ingest_rows_per_s": round(days * 86_400 / res["s"]),
+            "ingest_peak_mib": round(res["rss_mib"]), "files": len(record["files"])}
+
+
 def archive(work: Path, name: str, logs: list[tuple[Path, str]], rows: int
             ) -> dict[str, object]:
     folder = work / f"archive_{name}"
@@ -148,6 +171,10 @@ def main() -> int:
     if "year" in parts:  # one file of a year at 1 s through run (bounded memory)
         results["large_log_year_1s"] = large_log(work, 1, days=365)
         print(json.dumps(results["large_log_year_1s"]), flush=True)
+    for part, days in (("addmonth", 31), ("addyear", 365)):
+        if part in parts:  # one long Parquet log stored batch by batch (bounded memory)
+            results[f"archive_add_{part[3:]}_1s"] = add_long_log(work, days)
+            print(json.dumps(results[f"archive_add_{part[3:]}_1s"]), flush=True)
     if "minute" in parts:
         logs = []
         for k in range(10):
