@@ -177,9 +177,16 @@ def _own_survey(survey: Any, keep: np.ndarray) -> Any:
 
     from surveytools.survey import Exclusion
 
-    readings = survey.readings.loc[keep].reset_index(drop=True)
-    exclusions = [Exclusion(e.reason, e.label, e.scope, e.mask[keep])
-                  for e in survey.exclusions if e.mask[keep].any()]
+    kept = np.flatnonzero(keep)
+    if kept.size and kept[-1] - kept[0] + 1 == kept.size:
+        # one run of rows (the usual case: rows in time order): a slice, no gather
+        rows: slice | np.ndarray = slice(int(kept[0]), int(kept[-1]) + 1)
+        readings = survey.readings.iloc[rows].reset_index(drop=True)
+    else:
+        rows = keep
+        readings = survey.readings.loc[keep].reset_index(drop=True)
+    exclusions = [Exclusion(e.reason, e.label, e.scope, e.mask[rows])
+                  for e in survey.exclusions if e.mask[rows].any()]
     return replace(survey, readings=readings, exclusions=exclusions)
 
 

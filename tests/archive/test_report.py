@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 from pathlib import Path
 
 import numpy as np
@@ -221,3 +222,22 @@ def test_a_busy_status_port_is_not_a_warning(july_archive, tmp_path):
         holder.close()
     assert code == 0, (out, err)
     assert "8787" not in out + err
+
+
+def test_embedded_workers_start_with_our_memory_tuning():
+    # Dask's own default returns freed memory at once (MALLOC_TRIM_THRESHOLD_ 65536); the
+    # embedded workers take run's malloc tuning and pyarrow's allocations from the heap.
+    from distributed import Client
+
+    from surveytools.archive.report import LocalClusterStart
+    from surveytools.batch import WORKER_MALLOC_ENV
+
+    started = LocalClusterStart(1, "1GiB")
+    try:
+        with Client(started.cluster()) as client:
+            seen = client.run(lambda: {k: os.environ.get(k) for k in
+                                       (*WORKER_MALLOC_ENV, "ARROW_DEFAULT_MEMORY_POOL")})
+    finally:
+        started.close()
+    (environ,) = seen.values()
+    assert environ == {**WORKER_MALLOC_ENV, "ARROW_DEFAULT_MEMORY_POOL": "system"}
