@@ -731,13 +731,13 @@ def long_log_sections(log: LongLog, settings: Settings, weather: Any = None
 
 
 def long_log_findings(log: LongLog, settings: Settings,
-                      on_batch: Callable[[Any], None] | None = None
+                      on_batch: Callable[[Any], None] | None = None, weather: Any = None,
                       ) -> tuple[list[Finding], dict[str, int]]:
     """Validate a long log batch by batch (``check``, ``archive add``); findings, counts.
 
-    ``on_batch``: see :func:`stream_log`.
+    ``on_batch``, ``weather``: see :func:`stream_log`.
     """
-    return _findings(stream_log(log, settings, assess=False, on_batch=on_batch))
+    return _findings(stream_log(log, settings, weather, assess=False, on_batch=on_batch))
 
 
 __all__ = ["LongLog", "NotStreamable", "date", "fits_whole", "is_long_log",

@@ -79,7 +79,8 @@ def _utc_text(ms: int) -> str:
     return str(np.datetime64(int(ms), "ms")) + "Z"
 
 
-def prepare_input(path: Path, settings: Settings, staging: Path) -> Prepared:
+def prepare_input(path: Path, settings: Settings, staging: Path,
+                  weather: Path | None = None) -> Prepared:
     """Read and validate one input as ``run`` does and stage its readings files.
 
     A long CSV or Parquet log (:func:`surveytools.long_log.is_long_log`) is read, validated
@@ -87,18 +88,23 @@ def prepare_input(path: Path, settings: Settings, staging: Path) -> Prepared:
     (:class:`~surveytools.long_log.NotStreamable`) is read whole, as ``run`` does.
     Never raises for a bad input. The files are written under ``staging`` (inside the
     archive folder, so that moving them into place is a rename); the caller moves them.
+    ``weather`` is a shared weather file applied as ``run --weather`` applies it.
     """
     from surveytools.long_log import LongLog, NotStreamable
-    from surveytools.pipeline import read_input
+    from surveytools.pipeline import load_weather, read_input
     from surveytools.validation import build_survey
 
+    shared = load_weather(str(weather), settings) if weather is not None else None
     read = read_input(path, settings, long_logs=True)
     record = IngestRecord(file=path.name, path=str(path), sha256=read.source.sha256,
                           settings_sha256=settings_sha256(settings), status="unreadable",
                           ingested_at=_now())
+    if shared is not None and shared.source is not None:
+        record.weather_file = shared.name
+        record.weather_sha256 = shared.source.sha256 or None
     if isinstance(read.raw, LongLog):
         try:
-            return _prepare_streamed(read.raw, settings, staging, record)
+            return _prepare_streamed(read.raw, settings, staging, record, shared)
         except (NotStreamable, WorkbookError):
             # not cut-able exactly, or refused before its data: the whole read says why
             shutil.rmtree(_staging_folder(staging, record), ignore_errors=True)
@@ -106,7 +112,7 @@ def prepare_input(path: Path, settings: Settings, staging: Path) -> Prepared:
     if read.error is not None:
         record.message = f"{read.error.message} [{read.error.code}]"
         return Prepared(record)
-    survey = build_survey(read.raw, settings)
+    survey = build_survey(read.raw, settings, shared_weather=shared)
     _describe(record, survey.findings, survey.finding_counts, survey.metadata)
     if _refused(record, len(survey.readings)):
         return Prepared(record)
@@ -247,12 +253,12 @@ class _MonthWriters:
     def staged(self, record: IngestRecord) -> dict[str, str]:
         """Return final relative path -> staged file, per month."""
         assert record.position is not None
-        return {part_path(record.position, month, record.sha256, record.settings_sha256):
+        return {part_path(record.position, month, record):
                 str(target) for month, target in sorted(self.done.items())}
 
 
-def _prepare_streamed(log: Any, settings: Settings, staging: Path, record: IngestRecord
-                      ) -> Prepared:
+def _prepare_streamed(log: Any, settings: Settings, staging: Path, record: IngestRecord,
+                      weather: Any = None) -> Prepared:
     """Validate and stage a long log batch by batch (never the whole log in memory).
 
     Raises
@@ -266,7 +272,8 @@ def _prepare_streamed(log: Any, settings: Settings, staging: Path, record: Inges
     shutil.rmtree(folder, ignore_errors=True)
     writers = _MonthWriters(folder)
     try:
-        findings, counts = long_log_findings(log, settings, on_batch=writers.add)
+        findings, counts = long_log_findings(log, settings, on_batch=writers.add,
+                                             weather=weather)
     except BaseException:
         # a failed input leaves no staged file behind (nothing of it is moved into place)
         with suppress(Exception):
@@ -283,19 +290,20 @@ def _prepare_streamed(log: Any, settings: Settings, staging: Path, record: Inges
     return Prepared(record, writers.staged(record))
 
 
-def _prepared(paths: list[Path], settings: Settings, jobs: int, staging: Path
-              ) -> Iterator[Prepared]:
+def _prepared(paths: list[Path], settings: Settings, jobs: int, staging: Path,
+              weather: Path | None = None) -> Iterator[Prepared]:
     """Prepare inputs in order, ``jobs`` at a time in worker processes."""
     if jobs <= 1 or len(paths) <= 1:
         for path in paths:
-            yield _safe_prepare(path, settings, staging)
+            yield _safe_prepare(path, settings, staging, weather)
         return
     import multiprocessing
     from concurrent.futures.process import BrokenProcessPool
 
     context = multiprocessing.get_context("spawn")
     with ProcessPoolExecutor(max_workers=jobs, mp_context=context) as pool:
-        futures = [pool.submit(_safe_prepare, path, settings, staging) for path in paths]
+        futures = [pool.submit(_safe_prepare, path, settings, staging, weather)
+                   for path in paths]
         for path, future in zip(paths, futures, strict=True):
             try:
                 yield future.result()
@@ -306,14 +314,25 @@ def _prepared(paths: list[Path], settings: Settings, jobs: int, staging: Path
                                               "(out of memory?); add it again on its own")
 
 
-def _safe_prepare(path: Path, settings: Settings, staging: Path) -> Prepared:
+def _safe_prepare(path: Path, settings: Settings, staging: Path,
+                  weather: Path | None = None) -> Prepared:
     """:func:`prepare_input`, with an unexpected failure recorded instead of raised."""
     try:
-        return prepare_input(path, settings, staging)
+        return prepare_input(path, settings, staging, weather)
     except Exception as exc:  # one bad input never stops the others
         return _failed(path, settings, f"the input could not be processed "
                                        f"({type(exc).__name__}); run 'surveytools check' on "
                                        "it for details")
+
+
+def _weather_sha256(weather: Path | None) -> str | None:
+    """SHA-256 of the shared weather file as the inputs' records will name it."""
+    if weather is None:
+        return None
+    try:
+        return source_info(weather).sha256 or None
+    except WorkbookError:
+        return None  # unreadable: each input's record says so (weather-file-unreadable)
 
 
 def _failed(path: Path, settings: Settings, message: str) -> Prepared:
@@ -331,7 +350,7 @@ def _month_keys(start_ms: np.ndarray) -> np.ndarray:
 
 def _staging_folder(staging: Path, record: IngestRecord) -> Path:
     """Where one input's readings files are staged."""
-    return staging / f"{record.sha256[:20]}-{record.settings_sha256[:8]}"
+    return staging / record.file_stem
 
 
 def _stage_parts(staging: Path, record: IngestRecord, table: Any) -> dict[str, str]:
@@ -348,7 +367,7 @@ def _stage_parts(staging: Path, record: IngestRecord, table: Any) -> dict[str, s
     folder.mkdir(parents=True, exist_ok=True)
     staged = {}
     for k, month in enumerate(np.unique(months)):
-        rel = part_path(record.position, str(month), record.sha256, record.settings_sha256)
+        rel = part_path(record.position, str(month), record)
         target = folder / f"{k:04d}.parquet"
         pq.write_table(table.filter(pa.array(months == month)), target,
                        compression=PARQUET_COMPRESSION)
@@ -403,7 +422,8 @@ def _remove_span(root: Path, old: IngestRecord, first_ms: int, last_ms: int,
 
 
 def add_inputs(paths: list[Path], root: Path, settings: Settings, jobs: int = 1,
-               progress: Callable[[IngestRecord | str], None] | None = None) -> AddResult:
+               progress: Callable[[IngestRecord | str], None] | None = None,
+               weather: Path | None = None) -> AddResult:
     """Add inputs (files or folders) to the archive folder ``root``.
 
     Parameters
@@ -418,6 +438,9 @@ def add_inputs(paths: list[Path], root: Path, settings: Settings, jobs: int = 1,
         Inputs read in parallel.
     progress : callable, optional
         Called with each new record, or with the name of an unchanged input.
+    weather : Path, optional
+        A shared weather file applied to every input (``run --weather``); an input added
+        again with another weather file (or none) replaces what it stored before.
 
     Returns
     -------
@@ -434,17 +457,18 @@ def add_inputs(paths: list[Path], root: Path, settings: Settings, jobs: int = 1,
     candidates, skipped = discover(paths)
     result.skipped = [(s.path, s.reason) for s in skipped]
     settings_hash = settings_sha256(settings)
+    weather_hash = _weather_sha256(weather)
     with locked(root):
         records = load_records(root)
-        known = {(r.sha256, r.settings_sha256) for r in records if r.sha256}
+        known = {r.key for r in records if r.sha256}
         todo = []
         for candidate in candidates:
             try:
                 digest = source_info(candidate.path).sha256
             except WorkbookError:
                 digest = ""  # reading it records why
-            if (digest, settings_hash) in known:
-                # the same input with the same settings again: nothing changes
+            if (digest, settings_hash, weather_hash) in known:
+                # the same input with the same settings (and weather) again: no change
                 result.unchanged.append(candidate.path.name)
                 if progress is not None:
                     progress(candidate.path.name)
@@ -453,9 +477,9 @@ def add_inputs(paths: list[Path], root: Path, settings: Settings, jobs: int = 1,
         staging = root / STAGING_DIR
         shutil.rmtree(staging, ignore_errors=True)  # what a killed run left
         try:
-            for prepared in _prepared(todo, settings, jobs, staging):
+            for prepared in _prepared(todo, settings, jobs, staging, weather):
                 new = prepared.record
-                if new.sha256 and (new.sha256, settings_hash) in known:
+                if new.sha256 and new.key in known:
                     # the same content given twice in this run
                     result.unchanged.append(new.file)
                     if progress is not None:
@@ -471,7 +495,7 @@ def add_inputs(paths: list[Path], root: Path, settings: Settings, jobs: int = 1,
                                 and new.first_ms < old.last_ms):
                             _remove_span(root, old, new.first_ms, new.last_ms, new.sha256)
                 records.append(new)
-                known.add((new.sha256, settings_hash))
+                known.add(new.key)
                 save_records(root, records)
                 result.records.append(new)
                 if progress is not None:

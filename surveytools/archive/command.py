@@ -33,6 +33,9 @@ def add_parser(sub: Any) -> None:
     add.add_argument("--settings", type=Path, metavar="FILE", help="settings file (TOML)")
     add.add_argument("--jobs", type=int, default=1, metavar="N",
                      help="inputs read at once (default: 1)")
+    add.add_argument("--weather", type=Path, metavar="FILE",
+                     help="weather for every input, as for 'run --weather': a workbook with "
+                          "a Weather sheet or a CSV with the Weather columns")
     add.add_argument("--quiet", action="store_true", help="no progress display")
 
     report = verbs.add_parser("report", help="long-term figures of an archive: years, months, "
@@ -82,16 +85,22 @@ def execute_add(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """Run ``archive add``."""
     from surveytools.archive.add import add_inputs
     from surveytools.archive.store import IngestRecord
+    from surveytools.errors import SettingsError
     from surveytools.settings import load_settings
 
     if args.jobs < 1:
         err.write("surveytools: --jobs must be at least 1\n")
         return EXIT_USAGE
     settings = load_settings(args.settings)
+    weather = args.weather
+    if weather is not None and not weather.is_file():
+        raise SettingsError(f"--weather {weather}: no such file; give a workbook with a "
+                            "Weather sheet or a CSV with the Weather columns")
 
     def shown(item: IngestRecord | str) -> None:
         if isinstance(item, str):
-            out.write(f"{item}: already in the archive with these settings (unchanged)\n")
+            out.write(f"{item}: already in the archive with these settings"
+                      f"{' and this weather file' if weather else ''} (unchanged)\n")
         elif item.status == "stored":
             replaced = ""
             out.write(f"{item.file}: stored {item.rows} readings of position {item.position} "
@@ -100,7 +109,7 @@ def execute_add(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             out.write(f"{item.file}: not stored ({item.status}): {item.message}\n")
 
     result = add_inputs(list(args.paths), args.archive, settings, jobs=args.jobs,
-                        progress=shown)
+                        progress=shown, weather=weather)
     for path, reason in result.skipped:
         out.write(f"{path}: skipped: {reason}\n")
     replaced = [r for r in result.records if r.replaced_by]

@@ -81,6 +81,19 @@ class IngestRecord:
     files: list[str] = field(default_factory=list)
     rows_replaced: int = 0
     replaced_by: list[str] = field(default_factory=list)
+    weather_file: str | None = None
+    weather_sha256: str | None = None
+
+    @property
+    def key(self) -> tuple[str, str, str | None]:
+        """What makes two ingests the same: input, settings and shared weather file."""
+        return (self.sha256, self.settings_sha256, self.weather_sha256)
+
+    @property
+    def file_stem(self) -> str:
+        """Name of this ingest's readings files in each partition (without ``.parquet``)."""
+        stem = f"{self.sha256[:20]}-{self.settings_sha256[:8]}"
+        return f"{stem}-w{self.weather_sha256[:8]}" if self.weather_sha256 else stem
 
     def to_json(self) -> dict[str, Any]:
         """Return a JSON-ready dict."""
@@ -103,10 +116,9 @@ def position_of_folder(name: str) -> str:
     return unquote(name.partition("=")[2])
 
 
-def part_path(position: str, month: str, sha256: str, settings_sha256: str) -> str:
+def part_path(position: str, month: str, record: IngestRecord) -> str:
     """Relative path of one input's readings file in one position-month partition."""
-    return (f"{READINGS_DIR}/{position_folder(position)}/month={month}/"
-            f"{sha256[:20]}-{settings_sha256[:8]}.parquet")
+    return f"{READINGS_DIR}/{position_folder(position)}/month={month}/{record.file_stem}.parquet"
 
 
 def load_records(root: Path) -> list[IngestRecord]:

@@ -547,6 +547,10 @@ def _with_shared_weather(own: pd.DataFrame | None, own_table: RawTable | None,
         name = canonical_name(e.key, SURVEY_KEYS)
         if name in ("clock", "time_zone") and e.value is not None and str(e.value).strip():
             station[name] = str(e.value).strip()
+    if "time_zone" not in station and settings.survey.time_zone:
+        # a CSV (or a Survey sheet without it) keeps the settings' clock in the settings'
+        # time zone, as an input without one does: local station times are site times
+        station["time_zone"] = settings.survey.time_zone
     station_clock = _clock(station, settings, side)
     frame = _weather(shared.weather, settings, station_clock, side, s_sorted, e_sorted)
     for f in side.findings():

@@ -52,7 +52,8 @@ def cli(*args: str) -> tuple[int, str, str]:
     return code, out.getvalue(), err.getvalue()
 
 
-def dying_prepare(path: Path, settings: object, staging: Path) -> object:
+def dying_prepare(path: Path, settings: object, staging: Path,
+                  weather: Path | None = None) -> object:
     """Stand-in for the worker's prepare step: the process dies on ``die.csv``."""
     import os
 
@@ -60,4 +61,4 @@ def dying_prepare(path: Path, settings: object, staging: Path) -> object:
 
     if path.name == "die.csv":
         os._exit(3)
-    return add.prepare_input(path, settings, staging)  # type: ignore[arg-type]
+    return add.prepare_input(path, settings, staging, weather)  # type: ignore[arg-type]

@@ -176,3 +176,74 @@ def test_a_worker_that_dies_fails_its_input_and_the_run_goes_on(tmp_path, monkey
     later = write_csv_log(tmp_path / "later.csv", "2026-07-02 07:00:00", 1, 600, 50.0)
     assert cli("archive", "add", str(later), "--archive", str(archive), "--settings",
                str(settings))[0] == 0
+
+
+def _wind_station(path: Path) -> Path:
+    # Hourly station rows (the settings' clock, as any CSV) from 07:00 for a day; wind
+    # 8 m/s, above the default 5 m/s limit, in the rows of 10:00 and 11:00.
+    path.write_text("Start,Wind speed (m/s),Rain (mm)\n" + "".join(
+        f"2026-07-01 {h:02d}:00,{8.0 if h in (10, 11) else 2.0},0\n" for h in range(7, 24)
+    ) + "".join(f"2026-07-02 {h:02d}:00,2.0,0\n" for h in range(0, 8)), encoding="utf-8")
+    return path
+
+
+def _wind_rows(archive: Path) -> list[int]:
+    rows = []
+    for path in sorted((archive / "readings").rglob("*.parquet")):
+        table = pq.read_table(path).to_pydict()
+        rows += [row for row, why, valid in zip(table["row"], table["exclusion"],
+                                                 table["valid"], strict=True)
+                 if why and "wind" in why and not valid]
+    return sorted(rows)
+
+
+def test_a_shared_weather_file_cleans_the_stored_readings_as_run_does(tmp_path, monkeypatch):
+    import surveytools.long_log as long_log
+
+    settings = write_settings(tmp_path / "s.toml", "Gate")
+    log = write_csv_log(tmp_path / "gate.csv", "2026-07-01 07:00:00", 1, 60, 50.0)
+    station = _wind_station(tmp_path / "station.csv")
+    # hand count: one-minute readings from 07:00 in rows 2.. (row 1 is the header), so
+    # 10:00-11:59 are readings 180-299, rows 182-301: 120 readings excluded for wind
+    expected = list(range(182, 302))
+
+    archive = tmp_path / "archive"
+    args = ["archive", "add", str(log), "--archive", str(archive), "--settings", str(settings),
+            "--weather", str(station)]
+    assert cli(*args)[0] == 0
+    (record,) = _records(archive)
+    assert record["weather_file"] == "station.csv" and len(record["weather_sha256"]) == 64
+    assert _wind_rows(archive) == expected
+    # run --weather on the same input excludes the same rows
+    out = tmp_path / "out"
+    code, _, err = cli("run", str(log), "-o", str(out), "--settings", str(settings),
+                       "--weather", str(station), "--quiet")
+    assert code in (0, 1), err
+    doc = json.loads((out / "gate.results.json").read_text(encoding="utf-8"))
+    assert [(s["first_row"], s["last_row"]) for s in doc["exclusion_spans"]
+            if s["reason"] == "wind"] == [(182, 301)]
+
+    # the same input and weather again: unchanged; without the weather file: stored anew,
+    # replacing the rows cleaned with it
+    code, text, _ = cli(*args)
+    assert code == 0 and "and this weather file (unchanged)" in text
+    assert cli(*args[:-2])[0] == 0
+    assert [r["status"] for r in _records(archive)] == ["replaced", "stored"]
+    assert _wind_rows(archive) == [] and _stored_rows(archive) == 1440
+
+    # a long log stored batch by batch applies it too (batches forced small)
+    monkeypatch.setattr(long_log, "STREAM_CSV_BYTES", 1000)
+    monkeypatch.setattr(long_log, "BATCH_ROWS", 200)
+    streamed = tmp_path / "streamed"
+    assert cli("archive", "add", str(log), "--archive", str(streamed), "--settings",
+               str(settings), "--weather", str(station))[0] == 0
+    assert _wind_rows(streamed) == expected
+
+
+def test_a_missing_weather_file_is_refused_before_anything_is_stored(tmp_path):
+    settings = write_settings(tmp_path / "s.toml", "Gate")
+    log = write_csv_log(tmp_path / "gate.csv", "2026-07-01 07:00:00", 1, 60, 50.0)
+    code, _, err = cli("archive", "add", str(log), "--archive", str(tmp_path / "archive"),
+                       "--settings", str(settings), "--weather", str(tmp_path / "nope.csv"))
+    assert code == 2 and "--weather" in err and "no such file" in err
+    assert not (tmp_path / "archive" / "ingest.json").exists()

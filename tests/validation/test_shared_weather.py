@@ -149,3 +149,25 @@ def test_clip_and_gap_arithmetic() -> None:
     assert coverage_gaps(np.array([2, 6]), np.array([4, 8]), 0, 10) == [(0, 2), (4, 6),
                                                                          (8, 10)]
     assert coverage_gaps(np.array([0]), np.array([10]), 0, 10) == []
+
+
+def test_weather_csv_in_local_time_of_the_settings_time_zone(tmp_path: Path) -> None:
+    # Settings: site in Europe/Berlin, clock not given (local). A weather CSV has no
+    # Survey sheet, so its times are local Berlin time too (the same rule as a CSV log):
+    # wind 8 m/s in the 09:00 row excludes the reading that starts at 09:00 local. Berlin
+    # is UTC+02:00 on 1 June 2026 (summer time, from memory); reading the CSV as UTC
+    # would exclude the 11:00 local reading instead.
+    from dataclasses import replace
+
+    settings = Settings()
+    settings = replace(settings, survey=replace(settings.survey, time_zone="Europe/Berlin"))
+    csv = tmp_path / "station.csv"
+    csv.write_text("Start,Wind speed (m/s),Rain (mm)\n" + "".join(
+        f"2026-06-01 {h:02d}:00,{8.0 if h == 9 else 2.0},0\n" for h in range(3, 24)))
+    south = survey_workbook(tmp_path / "south.xlsx", position="South",
+                            time_zone="Europe/Berlin",
+                            start=datetime(2026, 6, 1, 3, 0), levels=[60.0] * 12)
+    doc, _ = build_document(south, settings, weather=read_weather_file(csv, settings))
+    assert wind_rows(doc) == [(8, 8)]  # 09:00 local = 03:00 + 6 h -> reading 7 -> row 8
+    (source,) = codes(doc, "weather-source")
+    assert "Europe/Berlin" in source
