@@ -121,9 +121,16 @@ def interval_rows(parts: PositionParts, settings: Settings, tz: tzinfo) -> list[
     starts = format_local(iv.start_ms, tz)
     ends = format_local(iv.end_ms, tz)
     periods = lden_period_names(parts.days.days, settings, tz, iv.start_ms)
-    return [{"start": starts[j], "end": ends[j], "LAeq": levels[j], "LAFmax": lafmax[j],
+    rows = [{"start": starts[j], "end": ends[j], "LAeq": levels[j], "LAFmax": lafmax[j],
              "valid_s": float(valid_s[j]), "sufficient": bool(sufficient[j]),
              "period": periods[j]} for j in range(iv.start_ms.size)]
+    if parts.interval_levels is not None:  # LN per interval from the merged level steps
+        percents = list(settings.percentiles)
+        ln = parts.interval_levels.levels_db(iv.start_ms, percents)
+        for k, p in enumerate(percents):
+            for row, value in zip(rows, db_list(ln[:, k]), strict=True):
+                row[ln_key(p)] = value
+    return rows
 
 
 def criteria_counts(parts: PositionParts, position: str, days: list[dict[str, Any]],
@@ -131,8 +138,10 @@ def criteria_counts(parts: PositionParts, position: str, days: list[dict[str, An
     """Per criterion of this position: how many days or intervals were above its limit.
 
     The judgement is ``run``'s (:func:`criteria_section`: the reported value, rounded half
-    up to 0.1 dB, above the limit). Interval criteria on LN (``LA90``) need every
-    reading and are not counted here (``checked`` is 0).
+    up to 0.1 dB, above the limit). Interval criteria on LN (``LA90``) take each
+    interval's LN from the time per 0.1 dB step of its valid readings (the samples, as
+    ``run`` takes it for levels on that grid); where the meter logged that LN itself
+    (``run`` then combines the logged values) they are not counted (``checked`` is 0).
     """
     wanted = tuple(c for c in settings.criteria if c.indicator not in
                    ("rating_level", "excess_over_background"))

@@ -258,12 +258,22 @@ def _read_partition(task: PartitionTask) -> Any:
     return frame
 
 
+def needs_interval_ln(settings: Settings) -> bool:
+    """Whether a criterion judges an LN (``LA90``...) of each reporting interval."""
+    from surveytools.assessment.intervals import ln_key
+
+    keys = {ln_key(p) for p in settings.percentiles}
+    return any(c.indicator in keys and c.interval_s in (None, settings.reporting_interval_s)
+               for c in settings.criteria)
+
+
 def partition_parts(task: PartitionTask, settings: Settings, window: DateWindow
                     ) -> PositionParts | None:
     """Parts of one partition (runs on a Dask worker)."""
     import numpy as np
 
     from surveytools.assessment.context import build_context
+    from surveytools.assessment.intervals import logged_column
     from surveytools.assessment.parts import position_parts
     from surveytools.assessment.timegrid import site_tz
     from surveytools.provenance import SourceInfo
@@ -297,7 +307,12 @@ def partition_parts(task: PartitionTask, settings: Settings, window: DateWindow
                                 "background", valid & ~background)]
         survey = Survey(SourceInfo(task.files[0], task.month, "", 0), metadata, piece,
                         dict.fromkeys(levels, ""), exclusions=exclusions)
-        parts = position_parts(build_context(survey, settings))
+        ctx = build_context(survey, settings)
+        # LN per interval for interval criteria on LN, from the samples as run takes it;
+        # where the meter logged that LN itself, run combines the logged values instead,
+        # which these parts cannot: then none (the criterion is not counted)
+        parts = position_parts(ctx, interval_levels=needs_interval_ln(settings) and not any(
+            ctx.logged(logged_column(p)) is not None for p in settings.percentiles))
         if parts is not None:
             total = parts if total is None else total + parts
     return total

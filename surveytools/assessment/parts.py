@@ -39,7 +39,11 @@ from surveytools.indicators.levels import (
     level_from_energy_sums,
     to_energy,
 )
-from surveytools.indicators.percentiles import level_step_times
+from surveytools.indicators.percentiles import (
+    exceedance_levels_from_sparse_step_times,
+    level_step_times,
+    sparse_level_step_times,
+)
 
 #: Schemes kept per day, in the order of :func:`~surveytools.assessment.daily.all_scheme_times`.
 SCHEMES = ("lden", "ldn", "cnel", "pair")
@@ -221,6 +225,51 @@ class LevelCounts:
         return LevelCounts(self.time_ms + other.time_ms)
 
 
+#: Bits a level step takes in the merge key of :class:`IntervalLevelTimes` (the table
+#: has N_LEVEL_STEPS < 2**11 steps; an interval start in ms fits in the other 52 bits).
+_STEP_BITS = 11
+
+
+@dataclass(frozen=True)
+class IntervalLevelTimes:
+    """Per reporting interval: valid time per 0.1 dB LAeq step, occupied cells only.
+
+    For LN per interval (interval criteria on LA90 and the like) over parts: the cells
+    of disjoint readings add up, and each interval's LN follows with
+    :func:`~surveytools.indicators.percentiles.exceedance_levels_from_sparse_step_times`.
+
+    Parameters
+    ----------
+    start_ms : numpy.ndarray of int64
+        Start of the interval of each cell. [ms]
+    step : numpy.ndarray of int64
+        Level step column (level ``(FIRST_LEVEL_STEP + step) / LEVEL_STEPS_PER_DB``).
+    time_ms : numpy.ndarray of int64
+        Valid time at that step in that interval. [ms]
+    """
+
+    start_ms: IntArray
+    step: IntArray
+    time_ms: IntArray
+
+    def __add__(self, other: IntervalLevelTimes) -> IntervalLevelTimes:
+        key = np.concatenate([(self.start_ms << _STEP_BITS) | self.step,
+                              (other.start_ms << _STEP_BITS) | other.step])
+        cells, inverse = np.unique(key, return_inverse=True)
+        times = np.bincount(inverse, weights=np.concatenate([self.time_ms, other.time_ms]),
+                            minlength=cells.size).astype(np.int64)
+        return IntervalLevelTimes(cells >> _STEP_BITS, cells & ((1 << _STEP_BITS) - 1), times)
+
+    def levels_db(self, starts_ms: IntArray, percents: list[float]) -> FloatArray:
+        """LN of the intervals starting at ``starts_ms``, ``(n, n_percents)`` [dB]."""
+        at = np.searchsorted(starts_ms, self.start_ms)
+        found = (at < starts_ms.size) & (starts_ms[np.minimum(at, starts_ms.size - 1)]
+                                         == self.start_ms)
+        return exceedance_levels_from_sparse_step_times(
+            at[found], self.step[found], self.time_ms[found], starts_ms.size,
+            FIRST_LEVEL_STEP, N_LEVEL_STEPS, LEVEL_STEPS_PER_DB, percents)
+
+
 @dataclass(frozen=True)
 class PositionParts:
     """Every partial result of a set of readings of one position.
@@ -235,6 +284,9 @@ class PositionParts:
         An LAFmax column with a value was present.
     days, intervals, levels : DayParts, IntervalParts, LevelCounts
         The parts.
+    interval_levels : IntervalLevelTimes or None
+        Time per level step per interval, when asked for (None otherwise, or when a part
+        did not have it: then the merged parts have none).
     """
 
     rows: int
@@ -244,6 +296,7 @@ class PositionParts:
     days: DayParts
     intervals: IntervalParts
     levels: LevelCounts
+    interval_levels: IntervalLevelTimes | None = None
 
     def __add__(self, other: PositionParts) -> PositionParts:
         return PositionParts(
@@ -254,11 +307,17 @@ class PositionParts:
             days=self.days + other.days,
             intervals=self.intervals + other.intervals,
             levels=self.levels + other.levels,
+            interval_levels=(self.interval_levels + other.interval_levels
+                             if self.interval_levels is not None
+                             and other.interval_levels is not None else None),
         )
 
 
-def position_parts(ctx: Context) -> PositionParts | None:
+def position_parts(ctx: Context, interval_levels: bool = False) -> PositionParts | None:
     """Compute the parts of one set of readings (None without readings).
+
+    With ``interval_levels``, also the time per level step of every reporting interval
+    (:class:`IntervalLevelTimes`).
 
     Splits the readings once at every grid the parts use (as :func:`assess` does) and
     sums each group from the split's segment sums (:meth:`Context.grouped_energy`, one
@@ -309,7 +368,14 @@ def position_parts(ctx: Context) -> PositionParts | None:
     period_type = np.where(lden_group >= 0, lden_group % N_PERIODS, -1)[chosen]
     table = level_step_times(levels, weights, period_type, N_PERIODS, FIRST_LEVEL_STEP,
                              N_LEVEL_STEPS, LEVEL_STEPS_PER_DB)
+    per_interval = None
+    if interval_levels:
+        group, step, time_ms = sparse_level_step_times(
+            levels, weights, interval_group[chosen], n_intervals, FIRST_LEVEL_STEP,
+            N_LEVEL_STEPS, LEVEL_STEPS_PER_DB)
+        per_interval = IntervalLevelTimes(grid[group].astype(np.int64), step, time_ms)
     return PositionParts(
+        interval_levels=per_interval,
         rows=ctx.n,
         first_ms=int(ctx.start_ms.min()),
         last_ms=int(ctx.end_ms.max()),

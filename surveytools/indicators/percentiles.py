@@ -48,11 +48,13 @@ __all__ = [
     "combine_logged_levels",
     "exceedance_level",
     "exceedance_levels",
+    "exceedance_levels_from_sparse_step_times",
     "exceedance_levels_from_step_times",
     "grouped_exceedance_levels",
     "integer_weights",
     "level_order",
     "level_step_times",
+    "sparse_level_step_times",
     "whole_db_distribution",
 ]
 
@@ -554,6 +556,16 @@ def level_step_times(
     ----------
     .. [1] ISO 1996-1:2016, N percent exceedance level (time above a level).
     """
+    cell, weights = _step_cells(levels_db, durations, groups, n_groups, first_step, n_steps,
+                                steps_per_db)
+    table = np.bincount(cell, weights=weights, minlength=n_groups * n_steps)
+    return table.astype(np.int64).reshape(n_groups, n_steps)
+
+
+def _step_cells(levels_db: ArrayLike, durations: ArrayLike, groups: ArrayLike, n_groups: int,
+                first_step: int, n_steps: int, steps_per_db: float
+                ) -> tuple[IntArray, IntArray]:
+    """Table cell ``group * n_steps + step`` and whole time of each sample kept."""
     levels = as_float_array(levels_db).ravel()
     weights = integer_weights(durations)
     group_index = np.asarray(groups, dtype=np.int64).ravel()
@@ -561,9 +573,80 @@ def level_step_times(
             & (group_index < n_groups))
     steps = np.clip(np.rint(levels[keep] * steps_per_db).astype(np.int64) - first_step,
                     0, n_steps - 1)
-    cell = group_index[keep] * n_steps + steps
-    table = np.bincount(cell, weights=weights[keep], minlength=n_groups * n_steps)
-    return table.astype(np.int64).reshape(n_groups, n_steps)
+    return group_index[keep] * n_steps + steps, weights[keep]
+
+
+def sparse_level_step_times(
+    levels_db: ArrayLike, durations: ArrayLike, groups: ArrayLike, n_groups: int,
+    first_step: int, n_steps: int, steps_per_db: float,
+) -> tuple[IntArray, IntArray, IntArray]:
+    """:func:`level_step_times` as its occupied cells only: (group, step column, time).
+
+    For many groups (every reporting interval of a year) whose samples occupy a few level
+    steps each; the same steps and whole times as the dense table, sorted by group, then
+    step. Cells of disjoint sets of samples add up (sum the times of equal cells).
+
+    Returns
+    -------
+    group, step, time : numpy.ndarray of int64
+        Occupied cells: group, step column (``0 .. n_steps-1``) and whole time.
+    """
+    cell, weights = _step_cells(levels_db, durations, groups, n_groups, first_step, n_steps,
+                                steps_per_db)
+    cells, inverse = np.unique(cell, return_inverse=True)
+    times = np.bincount(inverse, weights=weights, minlength=cells.size).astype(np.int64)
+    return cells // n_steps, cells % n_steps, times
+
+
+#: Cells of the dense table built at a time from sparse cells (own choice: about 32 MB of
+#: int64; a year of 15-minute intervals is read in some 20 blocks).
+SPARSE_BLOCK_CELLS = 4_000_000
+
+
+def exceedance_levels_from_sparse_step_times(
+    group: ArrayLike, step: ArrayLike, time: ArrayLike, n_groups: int, first_step: int,
+    n_steps: int, steps_per_db: float, percents: ArrayLike,
+) -> FloatArray:
+    """:func:`exceedance_levels_from_step_times` of a table given by its occupied cells.
+
+    The dense table is rebuilt a block of groups at a time (at most
+    :data:`SPARSE_BLOCK_CELLS` cells), so the same convention decides every group.
+
+    Parameters
+    ----------
+    group, step, time : array-like of int
+        Occupied cells (see :func:`sparse_level_step_times`); equal cells are added.
+    n_groups, first_step, n_steps : int
+        Shape and first step of the table.
+    steps_per_db : float
+        Steps per decibel. [1/dB]
+    percents : array-like
+        The N values. [%]
+
+    Returns
+    -------
+    numpy.ndarray
+        LN per group and percent, ``(n_groups, n_percents)``; NaN for a group without
+        time. [dB]
+    """
+    groups = np.asarray(group, dtype=np.int64).ravel()
+    steps = np.asarray(step, dtype=np.int64).ravel()
+    times = np.asarray(time, dtype=np.int64).ravel()
+    n_percents = np.atleast_1d(np.asarray(percents)).size
+    out = np.full((n_groups, n_percents), np.nan)
+    per_block = max(1, SPARSE_BLOCK_CELLS // max(n_steps, 1))
+    order = np.argsort(groups, kind="stable")
+    groups, steps, times = groups[order], steps[order], times[order]
+    for first in range(0, n_groups, per_block):
+        last = min(first + per_block, n_groups)
+        lo, hi = np.searchsorted(groups, [first, last])
+        if lo == hi:
+            continue
+        table = np.zeros((last - first) * n_steps, dtype=np.int64)
+        np.add.at(table, (groups[lo:hi] - first) * n_steps + steps[lo:hi], times[lo:hi])
+        out[first:last] = exceedance_levels_from_step_times(
+            table.reshape(last - first, n_steps), first_step, steps_per_db, percents)
+    return out
 
 
 def exceedance_levels_from_step_times(

@@ -241,3 +241,39 @@ def test_embedded_workers_start_with_our_memory_tuning():
         started.close()
     (environ,) = seen.values()
     assert environ == {**WORKER_MALLOC_ENV, "ARROW_DEFAULT_MEMORY_POOL": "system"}
+
+
+def test_interval_criteria_on_la90_count_what_run_judges(tmp_path):
+    # Ten days of 1-minute readings at random 0.1 dB levels with quieter nights: an LA90
+    # limit per 15-minute interval. Reference 1: run on the same log (the whole-log LN of
+    # every interval from its samples) — the archive counts the same intervals above it.
+    # Reference 2, hand-evaluated: an interval of 15 readings at 40.0 .. 41.4 dB in
+    # 0.1 dB steps (one minute each) has LA90 = 40.1 dB: the lowest level whose
+    # cumulative time from the bottom reaches 10 % (1.5 of 15 minutes) is the second one.
+    rng = np.random.default_rng(3)
+    n = 10 * 1440
+    minute = np.arange(n)
+    hour = (7 + minute // 60) % 24
+    levels = np.round(np.where((hour >= 7) & (hour < 22), 52.0, 44.0)
+                      + rng.normal(0, 3, n), 1)
+    levels[15 * 60 // 1: 15 * 60 // 1 + 15] = 40.0 + np.arange(15) / 10  # 22:00-22:14
+    log = write_csv_log(tmp_path / "yard.csv", "2026-07-01 07:00:00", 10, 60, levels)
+    criteria = ('[[criteria]]\nname = "Quiet floor"\nindicator = "LA90"\nlimit_db = 48.0\n'
+                '[[criteria]]\nname = "Night floor"\nindicator = "LA90"\nperiod = "night"\n'
+                'limit_db = 41.0\n')
+    settings = write_settings(tmp_path / "s.toml", "Yard", criteria)
+    code, _, err = cli("run", str(log), "-o", str(tmp_path / "run"), "--settings",
+                       str(settings), "--quiet")
+    assert code in (0, 1), err
+    run_doc = json.loads((tmp_path / "run" / "yard.results.json").read_text(encoding="utf-8"))
+    hand = next(i for i in run_doc["intervals"] if i["start"].startswith("2026-07-01T22:00"))
+    assert hand["LA90"] == pytest.approx(40.1, abs=1e-9)
+    archive = tmp_path / "archive"
+    assert cli("archive", "add", str(log), "--archive", str(archive), "--settings",
+               str(settings))[0] == 0
+    doc = _report(archive, tmp_path / "report", "--settings", str(settings))
+    counted = {c["name"]: c for c in doc["positions"][0]["criteria"]}
+    for judged in run_doc["criteria"]:
+        mine = counted[judged["name"]]
+        assert mine["checked"] == judged["checked"] > 0
+        assert mine["above"] == judged["failed"] > 0
