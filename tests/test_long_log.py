@@ -11,7 +11,6 @@ with a gap, level exclusions, a duplicate and an overlapping row near batch boun
 
 from __future__ import annotations
 
-import math
 from datetime import datetime, timedelta
 
 import numpy as np
@@ -21,6 +20,7 @@ import pytest
 import surveytools.long_log as long_log
 from surveytools.pipeline import build_document, check_file, read_input
 from surveytools.settings import load_settings
+from tests.closeness import assert_close
 
 START = datetime(2026, 10, 23, 21, 0, 0)  # UTC
 N = 4 * 86400 + 3600  # a little over four days of 1 s readings
@@ -81,21 +81,6 @@ def _both(path, settings, monkeypatch, batch_rows=50_000):
     return whole, parts
 
 
-def _close(a, b, tol=0.011):
-    if isinstance(a, dict):
-        assert a.keys() == b.keys()
-        for k in a:
-            _close(a[k], b[k], tol)
-    elif isinstance(a, list):
-        assert len(a) == len(b)
-        for x, y in zip(a, b, strict=True):
-            _close(x, y, tol)
-    elif isinstance(a, float) and isinstance(b, float):
-        assert math.isclose(a, b, abs_tol=tol), (a, b)
-    else:
-        assert a == b
-
-
 @pytest.mark.parametrize("which", [0, 1])
 def test_parts_give_the_whole_log_results(files, monkeypatch, which):
     path, settings = files[which], files[2]
@@ -105,8 +90,8 @@ def test_parts_give_the_whole_log_results(files, monkeypatch, which):
                 "unplaced", "criteria", "background", "assessments"):
         # unrounded levels differ only in the last bits (energy sums on another
         # reference level); every reported (rounded) value is the same
-        _close(parts[key], whole[key], 1e-9)
-    _close(parts["overall"], whole["overall"], 0.011)  # LN from 0.1 dB steps
+        assert_close(parts[key], whole[key], 1e-9)
+    assert_close(parts["overall"], whole["overall"], 0.011)  # LN from 0.1 dB steps
     assert parts["finding_counts"] == whole["finding_counts"]
     assert ([(f["code"], f["row"]) for f in parts["findings"]]
             == [(f["code"], f["row"]) for f in whole["findings"]])
@@ -177,8 +162,8 @@ def test_csv_blank_lines_and_a_semicolon_delimiter_as_the_whole_read(tmp_path, f
     assert "row-empty" in whole["finding_counts"]
     assert ([(f["code"], f["row"]) for f in parts["findings"]]
             == [(f["code"], f["row"]) for f in whole["findings"]])
-    _close(parts["days"], whole["days"], 1e-9)
-    _close(parts["intervals"], whole["intervals"], 1e-9)
+    assert_close(parts["days"], whole["days"], 1e-9)
+    assert_close(parts["intervals"], whole["intervals"], 1e-9)
 
 
 def test_findings_beyond_the_cap_are_counted_once_across_batches(tmp_path, files,
@@ -197,8 +182,8 @@ def test_findings_beyond_the_cap_are_counted_once_across_batches(tmp_path, files
     assert whole["finding_counts"]["level-out-of-range"] == bad.size + 3  # 3 in _log
     assert ([(f["code"], f["row"], f["message"]) for f in parts["findings"]]
             == [(f["code"], f["row"], f["message"]) for f in whole["findings"]])
-    _close(parts["exclusion_spans"], whole["exclusion_spans"], 1e-9)
-    _close(parts["coverage"], whole["coverage"], 1e-9)
+    assert_close(parts["exclusion_spans"], whole["exclusion_spans"], 1e-9)
+    assert_close(parts["coverage"], whole["coverage"], 1e-9)
 
 
 def test_run_of_a_long_log_writes_a_valid_document_and_workbook(tmp_path, files,

@@ -11,7 +11,6 @@ windows, residual windows and a run of ``Operating = yes`` readings span batch c
 
 from __future__ import annotations
 
-import math
 from datetime import UTC, datetime, timedelta
 
 import numpy as np
@@ -21,6 +20,7 @@ import pytest
 import surveytools.long_log as long_log
 from surveytools.pipeline import build_document, read_input
 from surveytools.settings import load_settings
+from tests.closeness import assert_close
 
 START = datetime(2026, 6, 1, 23, 0, 0, tzinfo=UTC)  # 00:00 BST on 2 June 2026
 N = 4 * 86400  # four days of 1 s readings, 2 June 00:00 to 6 June 00:00 local
@@ -104,20 +104,6 @@ def files(tmp_path_factory):
     return csv, parquet, load_settings(settings)
 
 
-def _close(a, b, tol):
-    if isinstance(a, dict):
-        assert a.keys() == b.keys()
-        for k in a:
-            _close(a[k], b[k], tol)
-    elif isinstance(a, list):
-        assert len(a) == len(b)
-        for x, y in zip(a, b, strict=True):
-            _close(x, y, tol)
-    elif isinstance(a, float) and isinstance(b, float):
-        assert math.isclose(a, b, abs_tol=tol), (a, b)
-    else:
-        assert a == b
-
 
 def _streamed(path, settings, monkeypatch):
     """Sections of the log assessed in batches, and the cuts between them [UTC ms]."""
@@ -159,8 +145,8 @@ def test_assessments_in_parts_give_the_whole_log_entries(files, monkeypatch, whi
         assert _spans_a_cut(span, cuts), span
     # unrounded levels differ only in the last bits (energy sums relative to another
     # level in each batch); every reported (rounded) figure and text is the same
-    _close(parts["assessments"], whole["assessments"], 1e-9)
-    _close(parts["criteria"], whole["criteria"], 1e-9)
+    assert_close(parts["assessments"], whole["assessments"], 1e-9)
+    assert_close(parts["criteria"], whole["criteria"], 1e-9)
     fan, night, pump = parts["assessments"]
 
     # Fan: source on 10:00-18:00 at 63.0 dB (3 readings at 150 dB excluded as

@@ -59,7 +59,7 @@ FIRST_LEVEL_STEP = LEVEL_TABLE_LOW_DB * LEVEL_STEPS_PER_DB
 N_LEVEL_STEPS = (LEVEL_TABLE_HIGH_DB - LEVEL_TABLE_LOW_DB) * LEVEL_STEPS_PER_DB + 1
 
 
-def _rescale(energy: FloatArray, from_db: float, to_db: float) -> FloatArray:
+def rescale_energy(energy: FloatArray, from_db: float, to_db: float) -> FloatArray:
     """Energy sums relative to ``from_db`` expressed relative to ``to_db``."""
     if from_db == to_db:
         return energy
@@ -67,7 +67,7 @@ def _rescale(energy: FloatArray, from_db: float, to_db: float) -> FloatArray:
     return energy * factor
 
 
-def _common_reference(a: float, b: float) -> float:
+def common_reference(a: float, b: float) -> float:
     """Return the reference two parts merge on: the higher one (keeps terms bounded)."""
     return max(a, b)
 
@@ -118,7 +118,7 @@ class DayParts:
         rows = slice(at, at + self.n_days)
         energy = np.zeros((N_SCHEMES, n_days, N_PERIODS))
         valid = np.zeros((N_SCHEMES, n_days, N_PERIODS))
-        energy[:, rows] = _rescale(self.energy, self.reference_db, reference_db)
+        energy[:, rows] = rescale_energy(self.energy, self.reference_db, reference_db)
         valid[:, rows] = self.valid_ms
         touched = np.zeros(n_days, dtype=bool)
         touched[rows] = self.touched
@@ -131,7 +131,7 @@ class DayParts:
     def __add__(self, other: DayParts) -> DayParts:
         first = min(self.first_day, other.first_day)
         last = max(self.first_day + self.n_days, other.first_day + other.n_days)
-        reference = _common_reference(self.reference_db, other.reference_db)
+        reference = common_reference(self.reference_db, other.reference_db)
         a = self._widened(first, last - first, reference)
         b = other._widened(first, last - first, reference)
         both = np.concatenate([a.night_highest, b.night_highest], axis=1)
@@ -185,12 +185,12 @@ class IntervalParts:
     reference_db: float
 
     def __add__(self, other: IntervalParts) -> IntervalParts:
-        reference = _common_reference(self.reference_db, other.reference_db)
+        reference = common_reference(self.reference_db, other.reference_db)
         starts = np.concatenate([self.start_ms, other.start_ms])
         unique, first, group = np.unique(starts, return_index=True, return_inverse=True)
         n = unique.size
-        energy = np.concatenate([_rescale(self.energy, self.reference_db, reference),
-                                 _rescale(other.energy, other.reference_db, reference)])
+        energy = np.concatenate([rescale_energy(self.energy, self.reference_db, reference),
+                                 rescale_energy(other.energy, other.reference_db, reference)])
         valid = np.concatenate([self.valid_ms, other.valid_ms])
         lafmax = np.concatenate([self.lafmax, other.lafmax])
         ends = np.concatenate([self.end_ms, other.end_ms])

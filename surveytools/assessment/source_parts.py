@@ -52,11 +52,13 @@ from surveytools.assessment.parts import (
     LEVEL_TABLE_HIGH_DB,
     LEVEL_TABLE_LOW_DB,
     N_LEVEL_STEPS,
+    common_reference,
+    rescale_energy,
 )
 from surveytools.assessment.timegrid import day_offset_boundaries, local_text_to_utc_ms
 from surveytools.constants import BACKGROUND_PERCENT
 from surveytools.errors import SettingsError
-from surveytools.indicators.levels import grouped_energy_sums, level_from_energy_sums, to_energy
+from surveytools.indicators.levels import grouped_energy_sums, level_from_energy_sums
 from surveytools.indicators.percentiles import (
     combine_logged_levels,
     exceedance_level,
@@ -153,11 +155,6 @@ def residual_la90(ctx: Context, pieces: Pieces, chosen: np.ndarray) -> float:
                             pieces.weights_ms[chosen])
 
 
-def _rescaled(energy: FloatArray, from_db: float, to_db: float) -> FloatArray:
-    """Energy sums relative to ``from_db`` expressed relative to ``to_db``."""
-    return energy if from_db == to_db else energy * float(to_energy(from_db - to_db))
-
-
 @dataclass(frozen=True)
 class EnergySums:
     """Valid time and energy of a selection of reading pieces, per group.
@@ -180,9 +177,9 @@ class EnergySums:
     reference_db: float
 
     def __add__(self, other: EnergySums) -> EnergySums:
-        reference = max(self.reference_db, other.reference_db)
-        return EnergySums(_rescaled(self.energy, self.reference_db, reference)
-                          + _rescaled(other.energy, other.reference_db, reference),
+        reference = common_reference(self.reference_db, other.reference_db)
+        return EnergySums(rescale_energy(self.energy, self.reference_db, reference)
+                          + rescale_energy(other.energy, other.reference_db, reference),
                           self.level_ms + other.level_ms, self.valid_ms + other.valid_ms,
                           reference)
 

@@ -29,7 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from surveytools.assessment._common import FloatArray, IntArray
-from surveytools.assessment.parts import _rescale
+from surveytools.assessment.parts import common_reference, rescale_energy
 
 
 @dataclass(frozen=True)
@@ -81,7 +81,7 @@ class SpectralParts:
     def __add__(self, other: SpectralParts) -> SpectralParts:
         if not np.array_equal(self.nominal_hz, other.nominal_hz):
             raise ValueError("spectral parts of different band columns cannot be added")
-        reference = max(self.reference_db, other.reference_db)
+        reference = common_reference(self.reference_db, other.reference_db)
         start = np.concatenate([self.interval_start_ms, other.interval_start_ms])
         order = np.argsort(start, kind="stable")
         if np.any(np.diff(start[order]) == 0):
@@ -93,8 +93,8 @@ class SpectralParts:
         return SpectralParts(
             nominal_hz=self.nominal_hz,
             reference_db=reference,
-            period_energy=(_rescale(self.period_energy, self.reference_db, reference)
-                           + _rescale(other.period_energy, other.reference_db, reference)),
+            period_energy=(rescale_energy(self.period_energy, self.reference_db, reference)
+                           + rescale_energy(other.period_energy, other.reference_db, reference)),
             period_ms=self.period_ms + other.period_ms,
             tonal_ms=self.tonal_ms + other.tonal_ms,
             largest_difference_db=np.maximum(self.largest_difference_db,

@@ -22,6 +22,7 @@ import surveytools.long_log as long_log
 from surveytools.assessment.logged_parts import LoggedValues
 from surveytools.pipeline import build_document, read_input
 from surveytools.settings import load_settings
+from tests.closeness import assert_close
 
 START = datetime(2026, 5, 4, 9, 0, 0)  # UTC
 STEP_S = 10
@@ -69,20 +70,6 @@ def _in_parts(path, settings, monkeypatch, batch_rows):
     return read
 
 
-def _close(a, b, tol):
-    if isinstance(a, dict):
-        assert a.keys() == b.keys()
-        for k in a:
-            _close(a[k], b[k], tol)
-    elif isinstance(a, list):
-        assert len(a) == len(b)
-        for x, y in zip(a, b, strict=True):
-            _close(x, y, tol)
-    elif isinstance(a, float) and isinstance(b, float):
-        assert math.isclose(a, b, abs_tol=tol), (a, b)
-    else:
-        assert a == b
-
 
 @pytest.mark.parametrize(("method", "batch_rows"), [("mode", 3_000), ("median", 8_000)])
 def test_logged_laf90_in_parts_gives_the_whole_logs_figures(folder, monkeypatch, method,
@@ -102,8 +89,8 @@ def test_logged_laf90_in_parts_gives_the_whole_logs_figures(folder, monkeypatch,
     assert parts["intervals_basis"] == whole["intervals_basis"]
     assert parts["overall"] == whole["overall"]
     assert parts["background"] == whole["background"]
-    _close(parts["intervals"], whole["intervals"], 1e-9)
-    _close(parts["days"], whole["days"], 1e-9)
+    assert_close(parts["intervals"], whole["intervals"], 1e-9)
+    assert_close(parts["days"], whole["days"], 1e-9)
 
     valid = np.setdiff1d(np.arange(N), EXCLUDED)
     laf90 = _frame()["LAF90"].to_numpy()[valid]

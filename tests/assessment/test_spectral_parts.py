@@ -23,6 +23,7 @@ from surveytools.assessment.spectral_parts import SpectralParts
 from surveytools.indicators.weighting import band_total
 from surveytools.pipeline import build_document, read_input
 from surveytools.settings import load_settings
+from tests.closeness import assert_close
 
 START = datetime(2026, 3, 9, 16, 0, 0)  # UTC, a Monday afternoon
 STEP_S = 10
@@ -85,20 +86,6 @@ def _both(path, settings, monkeypatch, batch_rows):
     return whole, parts
 
 
-def _close(a, b, tol):
-    if isinstance(a, dict):
-        assert a.keys() == b.keys()
-        for k in a:
-            _close(a[k], b[k], tol)
-    elif isinstance(a, list):
-        assert len(a) == len(b)
-        for x, y in zip(a, b, strict=True):
-            _close(x, y, tol)
-    elif isinstance(a, float) and isinstance(b, float):
-        assert math.isclose(a, b, abs_tol=tol), (a, b)
-    else:
-        assert a == b
-
 
 @pytest.mark.parametrize(("batch_rows", "offset"), [(2_500, 0.0), (7_000, 3.0)])
 def test_band_levels_in_parts_give_the_whole_logs_spectral_section(case, monkeypatch,
@@ -114,7 +101,7 @@ def test_band_levels_in_parts_give_the_whole_logs_spectral_section(case, monkeyp
     # the 0.05 dB a reported value could move by
     assert parts["spectral"] == spectral
     for key in ("intervals", "days", "overall", "background", "coverage"):
-        _close(parts[key], whole[key], 1e-9)
+        assert_close(parts[key], whole[key], 1e-9)
     assert parts["finding_counts"] == whole["finding_counts"]
     assert ([(f["code"], f["message"]) for f in parts["findings"]]
             == [(f["code"], f["message"]) for f in whole["findings"]])
