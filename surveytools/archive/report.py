@@ -50,6 +50,8 @@ SLICE_ROWS = 500_000
 #: own pool (measured on the project machine: the first month at 1 s a worker read took
 #: 1.1 s with pyarrow's pool and 0.6 s with this; later months about 0.45 s either way).
 DASK_WORKER_ENV = {"ARROW_DEFAULT_MEMORY_POOL": "system"}
+#: Module each embedded worker imports as it starts (Dask preload).
+WORKER_START_MODULE = "surveytools.archive.worker_start"
 #: Stored columns the figures do not need (not read by the report's tasks).
 UNUSED_COLUMNS = ("exclusion", "row")
 #: Seconds to wait for a named scheduler to answer (own choice).
@@ -370,6 +372,7 @@ class LocalClusterStart:
                                          host="127.0.0.1", dashboard_address=None,
                                          scheduler_kwargs={"dashboard": False,
                                                            "dashboard_address": "127.0.0.1:0"},
+                                         preload=[WORKER_START_MODULE],
                                          silence_logs=logging.CRITICAL)
         except BaseException as exc:  # handed to the thread that waits for the cluster
             self._error = exc
