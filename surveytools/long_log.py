@@ -262,7 +262,7 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
         MAX_DISTINCT_VALUES,
         logged_parts_of,
     )
-    from surveytools.assessment.parts import position_parts
+    from surveytools.assessment.parts import position_parts, scheme_grids
     from surveytools.assessment.source_parts import position_source_parts
     from surveytools.assessment.spans import exclusion_spans_section
     from surveytools.assessment.spectral import spectral_parts_of
@@ -287,11 +287,11 @@ def _assess_batch(merged: _Merged, survey: Any, settings: Settings) -> None:
             "round them to 0.1 dB"))
     if logged.columns or ctx.logged("LAF90") is not None:
         merged.logging_s.add(ctx.logging_interval_s)
+    # one split of the readings at every grid the parts and sections use (as assess does)
+    bounds = interval_bounds(ctx)
+    ctx = ctx.with_shared_split([bounds, reference_bounds(ctx)[0], *scheme_grids(ctx)])
     parts = position_parts(ctx)
     merged.parts = parts if merged.parts is None else merged.parts + parts
-    bounds = interval_bounds(ctx)
-    # one split of the readings for the interval and reference grids (as assess does)
-    ctx = ctx.with_shared_split([bounds, reference_bounds(ctx)[0]])
     ref = reference_la90(ctx)
     rows, basis = intervals_section(ctx)
     if ((merged.reference_basis or ref.basis) != ref.basis

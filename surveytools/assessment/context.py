@@ -187,6 +187,10 @@ class Context:
                              valid_background=self.valid_background)
         return replace(self, split=shared)
 
+    def split_holds(self, boundaries: list[IntArray]) -> bool:
+        """Whether the shared split's union holds every instant of ``boundaries``."""
+        return self.split is not None and all(self._in_union(b) for b in boundaries)
+
     def _shared(self, pieces: Pieces) -> SharedSplit | None:
         """Return the shared split if ``pieces`` are its pieces, else None."""
         return self.split if self.split is not None and pieces is self.split.pieces else None

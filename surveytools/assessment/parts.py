@@ -313,13 +313,20 @@ class PositionParts:
         )
 
 
+def scheme_grids(ctx: Context) -> list[IntArray]:
+    """Period boundaries of every scheme over the context's candidate days [ms]."""
+    return [day_offset_boundaries(ctx.candidate_days, times, ctx.tz)
+            for times in all_scheme_times(ctx)]
+
+
 def position_parts(ctx: Context, interval_levels: bool = False) -> PositionParts | None:
     """Compute the parts of one set of readings (None without readings).
 
     With ``interval_levels``, also the time per level step of every reporting interval
     (:class:`IntervalLevelTimes`).
 
-    Splits the readings once at every grid the parts use (as :func:`assess` does) and
+    Splits the readings once at every grid the parts use (as :func:`assess` does; a
+    context already split at a union holding them is used as it is) and
     sums each group from the split's segment sums (:meth:`Context.grouped_energy`, one
     :func:`~surveytools.indicators.levels.grouped_energy_sums` pass).
     """
@@ -327,9 +334,10 @@ def position_parts(ctx: Context, interval_levels: bool = False) -> PositionParts
         return None
     days = ctx.candidate_days
     n_days = len(days)
-    scheme_bounds = [day_offset_boundaries(days, times, ctx.tz) for times in all_scheme_times(ctx)]
+    scheme_bounds = scheme_grids(ctx)
     grid = interval_bounds(ctx)
-    ctx = ctx.with_shared_split([grid, *scheme_bounds])
+    if not ctx.split_holds([grid, *scheme_bounds]):  # else: the caller's split serves
+        ctx = ctx.with_shared_split([grid, *scheme_bounds])
     assert ctx.split is not None
     pieces = ctx.split.pieces
     kept = ctx.split.valid_all
