@@ -22,6 +22,9 @@ EXIT_DATA = 1
 EXIT_USAGE = 2
 
 DEFAULT_OUT = "surveytools_results"
+#: Help of ``--weather`` (run and check).
+WEATHER_HELP = ("weather for every input: a workbook with a Weather sheet or a CSV with the "
+                "Weather columns (an input's own Weather sheet wins for the time it covers)")
 
 
 class _Parser(argparse.ArgumentParser):
@@ -73,10 +76,7 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--interval", type=float, default=10.0, metavar="SECONDS",
                      help="polling interval for --watch (default: 10)")
     run.add_argument("--max-cycles", type=int, default=0, help=argparse.SUPPRESS)
-    run.add_argument("--weather", type=Path, metavar="FILE",
-                     help="weather for every input: a workbook with a Weather sheet or a CSV "
-                          "with the Weather columns (an input's own Weather sheet wins for "
-                          "the time it covers)")
+    run.add_argument("--weather", type=Path, metavar="FILE", help=WEATHER_HELP)
     run.add_argument("--on-alert", metavar="PROGRAM",
                      help="run PROGRAM (no shell) once per new alert, with the alert's JSON "
                           "line on standard input")
@@ -85,6 +85,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     check = sub.add_parser("check", help="validate survey workbooks without computing results")
     common(check)
+    check.add_argument("--weather", type=Path, metavar="FILE", help=WEATHER_HELP)
 
     verify = sub.add_parser(
         "verify", help="recompute a results file and report any difference",

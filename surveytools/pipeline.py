@@ -337,8 +337,13 @@ def load_weather(path: str | None, settings: Settings) -> Any:
 _WEATHER_CACHE: dict[Any, Any] = {}
 
 
-def check_file(path: Path, settings: Settings, read: ReadResult | None = None) -> FileOutcome:
-    """Validate one input without computing or writing anything."""
+def check_file(path: Path, settings: Settings, read: ReadResult | None = None,
+               weather: Any = None) -> FileOutcome:
+    """Validate one input without computing or writing anything.
+
+    ``weather`` is a shared :class:`~surveytools.inputs.shared_weather.WeatherFile`, as
+    for :func:`build_document`.
+    """
     from surveytools.outputs.results_json import status_from_findings
 
     if read is None:
@@ -356,7 +361,7 @@ def check_file(path: Path, settings: Settings, read: ReadResult | None = None) -
 
     if isinstance(raw, LongLog):
         try:
-            found, _ = long_log_findings(raw, settings)
+            found, _ = long_log_findings(raw, settings, weather=weather)
         except (NotStreamable, WorkbookError) as exc:  # read whole, with its message
             refused = _too_long_to_read_whole(path, source, exc)
             if refused is not None:
@@ -364,9 +369,10 @@ def check_file(path: Path, settings: Settings, read: ReadResult | None = None) -
                 return FileOutcome(path=str(path), file=path.name, status="unreadable",
                                    sha256=source.sha256, findings=findings,
                                    finding_totals=_totals(findings))
-            return check_file(path, settings, read=read_input(path, settings, source))
+            return check_file(path, settings, read=read_input(path, settings, source),
+                              weather=weather)
     else:
-        found = build_survey(raw, settings).findings
+        found = build_survey(raw, settings, shared_weather=weather).findings
     findings = _findings_json(found)
     return FileOutcome(path=str(path), file=path.name,
                        status=status_from_findings(found), sha256=source.sha256,

@@ -192,7 +192,8 @@ def execute_job(job: dict[str, Any], importer: _Importer | None = None) -> dict[
         importer.join()
     t_ready = time.perf_counter()
     if job["mode"] == "check":
-        outcome = check_file(path, settings, read=read).to_json()
+        outcome = check_file(path, settings, read=read,
+                             weather=load_weather(job.get("weather_path"), settings)).to_json()
     else:
         weather = load_weather(job.get("weather_path"), settings)
         try:

@@ -430,3 +430,31 @@ def test_closing_line_agrees_with_each_inputs_verdict() -> None:
     assert line == ("Processed 2 files: criteria not met at 1 of 2 inputs; data quality "
                     "1 ok, 1 with warnings, 0 with errors, 0 unreadable")
     assert counts["ok"] == 2  # the caller's counts (exit code) are not changed
+
+
+def test_check_with_a_shared_weather_file_reports_its_findings(tmp_path: Path) -> None:
+    from datetime import datetime
+
+    from tests.validation.test_shared_weather import station_workbook
+
+    # The station of test_run_with_a_shared_weather_file, with its 15:00Z row missing:
+    # check validates with it as run would, so the gap and the source are reported, and
+    # an unusable station file is an error on the input (exit 1), as in run.
+    wind = [2.0] * 24
+    station = station_workbook(tmp_path / "station.xlsx", datetime(2026, 6, 1, 6, 0), wind,
+                               skip=(10,))
+    north = survey_workbook(tmp_path / "north.xlsx", position="North",
+                            time_zone="Europe/Berlin")
+    js = run_cli("check", str(north), "--settle", "0", "--format", "json", "--weather",
+                 str(station), cwd=tmp_path)
+    codes = [f["code"] for f in json.loads(js.stdout)["inputs"][0]["findings"]]
+    assert "weather-source" in codes and "weather-gap" in codes
+    bad = tmp_path / "broken.xlsx"
+    bad.write_bytes(b"not a workbook")
+    refused = run_cli("check", str(north), "--settle", "0", "--weather", str(bad),
+                      cwd=tmp_path)
+    assert refused.returncode == 1
+    assert "[weather-file-unreadable]" in refused.stdout
+    missing = run_cli("check", str(north), "--weather", str(tmp_path / "nope.xlsx"),
+                      cwd=tmp_path)
+    assert missing.returncode == 2 and "--weather" in missing.stderr
