@@ -172,7 +172,7 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
         try:
             sections, findings, counts = long_log_sections(raw, settings, weather)
         except NotStreamable as exc:  # out of order across batches: read whole, as before
-            refused = _too_long_to_read_whole(path, source, exc)
+            refused = too_long_to_read_whole(path, source, exc)
             if refused is not None:
                 doc = unreadable_document(source, [refused], settings)
                 doc["provenance"] = library_versions()
@@ -214,7 +214,7 @@ def build_document(path: Path, settings: Settings, source: SourceInfo | None = N
     return doc, annotations
 
 
-def _too_long_to_read_whole(path: Path, source: SourceInfo, exc: Exception
+def too_long_to_read_whole(path: Path, source: SourceInfo, exc: Exception
                             ) -> Finding | None:
     """Return the refusal of a long log that can be neither cut into parts nor read whole.
 
@@ -363,7 +363,7 @@ def check_file(path: Path, settings: Settings, read: ReadResult | None = None,
         try:
             found, _ = long_log_findings(raw, settings, weather=weather)
         except (NotStreamable, WorkbookError) as exc:  # read whole, with its message
-            refused = _too_long_to_read_whole(path, source, exc)
+            refused = too_long_to_read_whole(path, source, exc)
             if refused is not None:
                 findings = _findings_json([refused])
                 return FileOutcome(path=str(path), file=path.name, status="unreadable",

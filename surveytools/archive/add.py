@@ -91,7 +91,7 @@ def prepare_input(path: Path, settings: Settings, staging: Path,
     ``weather`` is a shared weather file applied as ``run --weather`` applies it.
     """
     from surveytools.long_log import LongLog, NotStreamable
-    from surveytools.pipeline import load_weather, read_input
+    from surveytools.pipeline import load_weather, read_input, too_long_to_read_whole
     from surveytools.validation import build_survey
 
     shared = load_weather(str(weather), settings) if weather is not None else None
@@ -105,9 +105,14 @@ def prepare_input(path: Path, settings: Settings, staging: Path,
     if isinstance(read.raw, LongLog):
         try:
             return _prepare_streamed(read.raw, settings, staging, record, shared)
-        except (NotStreamable, WorkbookError):
-            # not cut-able exactly, or refused before its data: the whole read says why
+        except (NotStreamable, WorkbookError) as exc:
+            # not cut-able exactly, or refused before its data: the whole read says why,
+            # unless the log is too long to be read whole (run refuses it the same way)
             shutil.rmtree(_staging_folder(staging, record), ignore_errors=True)
+            refused = too_long_to_read_whole(path, read.source, exc)
+            if refused is not None:
+                record.message = f"{refused.message} [{refused.code}]"
+                return Prepared(record)
             read = read_input(path, settings, read.source)
     if read.error is not None:
         record.message = f"{read.error.message} [{read.error.code}]"

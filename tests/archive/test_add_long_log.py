@@ -225,3 +225,22 @@ def test_a_long_log_stored_in_batches_is_replaced_by_its_correction(logs, tmp_pa
     files = _stored(archive)["files"]
     assert sorted(files) == sorted(records[1]["files"])
     assert sum(t.num_rows for t in files.values()) == 34_201  # never duplicated
+
+
+def test_a_long_log_too_long_to_read_whole_is_recorded_with_the_fix(logs, tmp_path,
+                                                                      monkeypatch):
+    # The same late reading, with the whole-read limit below the log's length: the input
+    # is not stored (nothing held whole), its record says why and what to do, as run does.
+    frame = _frame()
+    frame = pd.concat([frame, frame.iloc[[10]]], ignore_index=True)
+    log = tmp_path / "late.parquet"
+    frame.to_parquet(log, index=False)
+    _streamed(monkeypatch)
+    monkeypatch.setattr(long_log, "WHOLE_READ_MAX_ROWS", 10_000)
+    code, _ = _add(tmp_path / "parts", logs[2], log)
+    assert code == 1
+    (record,) = json.loads((tmp_path / "parts" / "ingest.json").read_text(
+        encoding="utf-8"))["inputs"]
+    assert record["status"] == "unreadable" and record["files"] == []
+    assert "[log-too-long-to-read-whole]" in record["message"]
+    assert "sort the rows by their time stamps" in record["message"]
