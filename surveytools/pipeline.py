@@ -278,6 +278,7 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
         "verdict": verdict,
         "worst_excess_over_background": max(excesses) if excesses else None,
         "criteria_failed": sum(int(c.get("failed") or 0) for c in doc.get("criteria") or []),
+        "episodes": episode_counts(doc),
         "criteria_not_met": sum(1 for c in doc.get("criteria") or [] if c.get("passed") is False),
         "criteria_checked": sum(1 for c in doc.get("criteria") or []
                                 if c.get("passed") is not None),
@@ -285,6 +286,17 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
         "findings": _totals(doc.get("findings") or []),
         "reason": reason,
     }
+
+
+def episode_counts(doc: dict[str, Any]) -> dict[str, int]:
+    """Episodes of every criterion of a results document, by severity (limit, warning)."""
+    counts = {"limit": 0, "warning": 0}
+    for criterion in doc.get("criteria") or []:
+        for episode in criterion.get("episodes") or []:
+            severity = episode.get("severity")
+            if severity in counts:
+                counts[severity] += 1
+    return counts
 
 
 def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,

@@ -85,6 +85,7 @@ OVERVIEW_COLUMNS: tuple[tuple[str, float], ...] = (
     ("Lden [dB]", 6.5), ("Lday [dB]", 6.5), ("Levening [dB]", 8.0), ("Lnight [dB]", 6.5),
     ("Background LA90 day [dB]", 11.0), ("Background LA90 night [dB]", 11.0),
     ("Worst excess over background [dB]", 11.0), ("Figures above limits (count)", 8.0),
+    ("Episodes above limit / warning", 9.5),
     ("Errors", 6.5), ("Warnings", 8.0), ("Results workbook", 11.0),
 )
 
@@ -166,18 +167,23 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
         sw.number(r, 13, level(item.get("worst_excess_over_background")), "level")
         failed = item.get("criteria_failed")
         sw.number(r, 14, failed, "fail" if isinstance(failed, int) and failed else "int")
+        episodes = item.get("episodes")
+        if isinstance(episodes, Mapping):  # absent in an overview of an earlier version
+            above = int(episodes.get("limit") or 0)
+            sw.text(r, 15, f"{above} / {int(episodes.get('warning') or 0)}",
+                    "count_text_fail" if above else "count_text", measure=False)
         findings = item.get("findings") or {}
         for j, sev in enumerate(("error", "warning")):
             n = findings.get(sev)
-            sw.number(r, 15 + j, n, f"sev_{sev}" if isinstance(n, int) and n else "int")
+            sw.number(r, 16 + j, n, f"sev_{sev}" if isinstance(n, int) and n else "int")
         name = safe_link_name(item.get("results_xlsx"))
         if name is not None:
             # a short link text: a file name has no place to wrap and would run off the
             # printed page; the target (and overview.json) keep the full name
-            ws.write_url(r, 17, "external:" + name, link_fmt, string="open results",
+            ws.write_url(r, 18, "external:" + name, link_fmt, string="open results",
                          tip=name)
         elif item.get("results_xlsx"):
-            sw.text(r, 17, "(no link: unexpected output name)", "note")
+            sw.text(r, 18, "(no link: unexpected output name)", "note")
         lines = max(wrapped_lines(str(t or ""), OVERVIEW_COLUMNS[c][1])
                     for c, t in ((0, item.get("file")), (2, item.get("site")),
                                  (3, verdict.get("outcome_text")), (5, conditions)))

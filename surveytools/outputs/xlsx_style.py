@@ -166,6 +166,10 @@ _STYLE_PROPS: dict[str, dict[str, Any]] = {
     "wrap_fail": {"bg_color": COLOUR_FAIL_FILL, "font_color": COLOUR_FAIL_TEXT, "bold": True,
                   "text_wrap": True, "valign": "top"},
     "wrap_pass": {"bg_color": COLOUR_PASS_FILL, "text_wrap": True, "valign": "top"},
+    # a short count text ("2 / 1") centred, apart from the right-aligned numbers beside it
+    "count_text": {"align": "center", "valign": "top"},
+    "count_text_fail": {"bg_color": COLOUR_FAIL_FILL, "font_color": COLOUR_FAIL_TEXT,
+                        "bold": True, "align": "center", "valign": "top"},
     "wrap_ok": {"bg_color": COLOUR_PASS_FILL, "text_wrap": True, "valign": "top"},
     "wrap_warnings": {"bg_color": COLOUR_WARN_FILL, "text_wrap": True, "valign": "top"},
     "wrap_errors": {"bg_color": COLOUR_FAIL_FILL, "text_wrap": True, "valign": "top"},

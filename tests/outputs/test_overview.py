@@ -34,6 +34,7 @@ def entry(doc: dict[str, Any], results_xlsx: str) -> dict[str, Any]:
                                                "CNEL", "LAeq_16h", "LAeq_8h")},
         "background": {"day": 46.0, "night": 38.0},
         "worst_excess_over_background": 13.2, "criteria_failed": 2,
+        "episodes": {"limit": 2, "warning": 1},
         "findings": {"error": 3, "warning": 1, "info": 1}, "reason": None,
         "verdict": verdict_section(doc),
     }
@@ -94,6 +95,8 @@ def test_one_row_per_input_with_figures(tmp_path: Path) -> None:
         assert ws.cell(r, col["Figures above limits (count)"]).value == \
             item["criteria_failed"]
         assert ws.cell(r, col["Errors"]).value == item["findings"]["error"]
+        if "episodes" in item:  # limit / warning episodes, as the results list them
+            assert ws.cell(r, col["Episodes above limit / warning"]).value == "2 / 1"
     # hand-evaluated: 169200 / 172800 = 0.979166.. -> 97.9 % (half up at 0.1 %)
     assert ws.cell(hr + 1, col["Valid [%]"]).value == 97.9
     assert ws.cell(hr + 3, col["Conditions affecting the figures"]).value == (
@@ -176,3 +179,19 @@ def test_libreoffice_opens_overview(tmp_path: Path) -> None:
     text = (tmp_path / "overview.csv").read_text(encoding="utf-8")
     assert "north_fence.xlsx" in text and "broken.xlsx" in text
     assert "56.87" in text or "56.9" in text  # Lden of the first input (fixture: 56.87)
+
+
+def test_episode_counts_by_severity() -> None:
+    # Two criteria: one with a limit episode and a warning-only episode, one with a limit
+    # episode; an assessment criterion lists none. Counted by hand: 2 limit, 1 warning.
+    from surveytools.pipeline import episode_counts, overview_row
+
+    doc = build_results_doc()
+    doc["criteria"] = [
+        {"name": "Night", "episodes": [{"severity": "limit"}, {"severity": "warning"}]},
+        {"name": "Day", "episodes": [{"severity": "limit"}]},
+        {"name": "Rating", "episodes": []},
+    ]
+    assert episode_counts(doc) == {"limit": 2, "warning": 1}
+    assert overview_row(doc, "x.results.json", "x.results.xlsx")["episodes"] == {
+        "limit": 2, "warning": 1}
