@@ -155,7 +155,7 @@ def execute_report(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         positions=tuple(args.position), workers=args.workers, scheduler=args.scheduler,
         memory_limit=memory_limit)
     bar = _bar(err, not args.quiet)
-    doc = build_report(options, progress=lambda done, total: bar(done, total, "partitions"),
+    doc = build_report(options, progress=lambda done, total: bar(done, total, "reading tasks"),
                        started=started)
     paths = write_report(args.output, doc)
     for line in doc["problems"]:
