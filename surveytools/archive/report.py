@@ -25,7 +25,7 @@ import threading
 import time
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager, suppress
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from datetime import date, datetime, timedelta
 from typing import TYPE_CHECKING, Any
 
@@ -472,7 +472,29 @@ def group_parts(group: TaskGroup, settings: Settings, window: DateWindow) -> Gro
             continue
         if parts is not None:
             total = parts if total is None else total + parts
+    if total is not None and total.interval_levels is not None:
+        total = replace(total, interval_levels=total.interval_levels.finalised(
+            *_own_span_ms(group), int(settings.reporting_interval_s * 1000),
+            tuple(settings.percentiles)))
     return GroupParts(total, tuple(problems))
+
+
+def _own_span_ms(group: TaskGroup) -> tuple[int, int]:
+    """Return the span whose intervals only this task's readings reach [ms].
+
+    Readings are stored by the UTC month they start in, and a valid reading lasts at
+    most MAX_INTERVAL_DURATION_S: another task's readings can reach this task's months
+    only from before them, by less than that; after them, not at all.
+    """
+    import numpy as np
+
+    from surveytools.constants import MAX_INTERVAL_DURATION_S
+
+    first = np.datetime64(group.partitions[0].month, "M")
+    last = np.datetime64(group.partitions[-1].month, "M") + np.timedelta64(1, "M")
+    start_ms = int(first.astype("datetime64[ms]").astype(np.int64))
+    end_ms = int(last.astype("datetime64[ms]").astype(np.int64))
+    return start_ms + int(MAX_INTERVAL_DURATION_S * 1000), end_ms
 
 
 def position_result(position: str, clock: str | None, time_zone: str | None,

@@ -18,7 +18,7 @@ reading belongs to the part that holds it whole (parts are never cut inside a re
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import date, timedelta, tzinfo
 
 import numpy as np
@@ -232,11 +232,13 @@ _STEP_BITS = 11
 
 @dataclass(frozen=True)
 class IntervalLevelTimes:
-    """Per reporting interval: valid time per 0.1 dB LAeq step, occupied cells only.
+    """Per reporting interval: valid time per 0.1 dB LAeq step, or its LN once final.
 
     For LN per interval (interval criteria on LA90 and the like) over parts: the cells
     of disjoint readings add up, and each interval's LN follows with
     :func:`~surveytools.indicators.percentiles.exceedance_levels_from_sparse_step_times`.
+    An interval no other part can reach any more is turned into its LN
+    (:meth:`finalised`), so what a part holds stays small over years of readings.
 
     Parameters
     ----------
@@ -246,11 +248,20 @@ class IntervalLevelTimes:
         Level step column (level ``(FIRST_LEVEL_STEP + step) / LEVEL_STEPS_PER_DB``).
     time_ms : numpy.ndarray of int64
         Valid time at that step in that interval. [ms]
+    final_start_ms : numpy.ndarray of int64
+        Start of each interval whose LN is final (none of its cells above). [ms]
+    final_db : numpy.ndarray
+        ``(n_final, n_percents)`` LN of those intervals, for :attr:`percents`. [dB]
+    percents : tuple of float
+        The N of the final LN. [%]
     """
 
     start_ms: IntArray
     step: IntArray
     time_ms: IntArray
+    final_start_ms: IntArray = field(default_factory=lambda: np.zeros(0, np.int64))
+    final_db: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
+    percents: tuple[float, ...] = ()
 
     def __add__(self, other: IntervalLevelTimes) -> IntervalLevelTimes:
         key = np.concatenate([(self.start_ms << _STEP_BITS) | self.step,
@@ -258,16 +269,55 @@ class IntervalLevelTimes:
         cells, inverse = np.unique(key, return_inverse=True)
         times = np.bincount(inverse, weights=np.concatenate([self.time_ms, other.time_ms]),
                             minlength=cells.size).astype(np.int64)
-        return IntervalLevelTimes(cells >> _STEP_BITS, cells & ((1 << _STEP_BITS) - 1), times)
+        finals = [p for p in (self, other) if p.final_start_ms.size]
+        if len({p.percents for p in finals}) > 1:
+            raise ValueError("interval LN of different percentiles cannot be added")
+        final_start = np.concatenate([self.final_start_ms, other.final_start_ms])
+        order = np.argsort(final_start, kind="stable")
+        final_db = (np.concatenate([p.final_db for p in finals])[order] if finals
+                    else np.zeros((0, 0)))
+        return IntervalLevelTimes(cells >> _STEP_BITS, cells & ((1 << _STEP_BITS) - 1), times,
+                                  final_start[order], final_db,
+                                  finals[0].percents if finals else ())
+
+    def finalised(self, first_ms: int, last_ms: int, interval_ms: int,
+                  percents: tuple[float, ...]) -> IntervalLevelTimes:
+        """Return these parts with the LN of every interval inside ``[first_ms, last_ms)``.
+
+        The caller guarantees that no other part holds a reading piece in that span
+        (an interval starting at ``first_ms`` or later and ending, at most
+        ``interval_ms`` later, by ``last_ms``): those intervals are complete here.
+        """
+        inside = (self.start_ms >= first_ms) & (self.start_ms + interval_ms <= last_ms)
+        if not inside.any():
+            return self
+        starts, group = np.unique(self.start_ms[inside], return_inverse=True)
+        ln = exceedance_levels_from_sparse_step_times(
+            group, self.step[inside], self.time_ms[inside], starts.size, FIRST_LEVEL_STEP,
+            N_LEVEL_STEPS, LEVEL_STEPS_PER_DB, list(percents))
+        done = IntervalLevelTimes(self.start_ms[~inside], self.step[~inside],
+                                  self.time_ms[~inside], starts.astype(np.int64), ln, percents)
+        empty = IntervalLevelTimes(np.zeros(0, np.int64), np.zeros(0, np.int64),
+                                   np.zeros(0, np.int64), self.final_start_ms, self.final_db,
+                                   self.percents)
+        return done + empty if self.final_start_ms.size else done
 
     def levels_db(self, starts_ms: IntArray, percents: list[float]) -> FloatArray:
         """LN of the intervals starting at ``starts_ms``, ``(n, n_percents)`` [dB]."""
         at = np.searchsorted(starts_ms, self.start_ms)
         found = (at < starts_ms.size) & (starts_ms[np.minimum(at, starts_ms.size - 1)]
                                          == self.start_ms)
-        return exceedance_levels_from_sparse_step_times(
+        out = exceedance_levels_from_sparse_step_times(
             at[found], self.step[found], self.time_ms[found], starts_ms.size,
             FIRST_LEVEL_STEP, N_LEVEL_STEPS, LEVEL_STEPS_PER_DB, percents)
+        if self.final_start_ms.size:
+            if tuple(percents) != self.percents:
+                raise ValueError("final interval LN were taken for other percentiles")
+            at = np.searchsorted(starts_ms, self.final_start_ms)
+            hit = (at < starts_ms.size) & (starts_ms[np.minimum(at, starts_ms.size - 1)]
+                                           == self.final_start_ms)
+            out[at[hit]] = self.final_db[hit]
+        return out
 
 
 @dataclass(frozen=True)

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import functools
 import math
+from dataclasses import replace
 from datetime import date
 
 import numpy as np
@@ -127,3 +128,40 @@ def test_level_counts_give_the_exceedance_levels_of_the_samples():
     assert math.isnan(ln[1, 0]) and math.isnan(ln[2, 0])  # no evening, no night
     row = parts.days.days.index(date(2026, 7, 3))
     assert parts.days.levels_db(0)[row, 0] == pytest.approx(57.03, abs=0.005)
+
+
+@given(levels=st.lists(st.integers(300, 900), min_size=5, max_size=300),
+       cut=st.floats(0.05, 0.95), final_at=st.floats(0.0, 1.0))
+def test_interval_ln_from_cells_finalised_or_not_equals_the_whole(levels, cut, final_at):
+    # Two parts of 1-minute readings (cut anywhere, also inside a 15-minute interval);
+    # the first part's intervals from some point on are turned into their LN before the
+    # merge (as an archive task does for the intervals only it reaches). Reference:
+    # numpy's weighted inverted_cdf quantile of each interval's levels (design §5).
+    values = np.asarray(levels, dtype=float) / 10.0
+    survey = _constant_survey(values, 60)
+    settings = Settings()
+    split_at = max(1, int(cut * values.size))
+    pieces = np.split(np.arange(values.size), [split_at])
+    a, b = (position_parts(build_context(_piece(survey, p), settings), interval_levels=True)
+            for p in pieces)
+    assert a is not None and b is not None
+    assert a.interval_levels is not None and b.interval_levels is not None
+    start0 = int(survey.readings["start_ms"].iloc[0])
+    # intervals of part a starting at or after `first` and ending by the cut are complete
+    first = start0 + int(final_at * split_at) * 60_000
+    last = start0 + split_at * 60_000
+    percents = tuple(settings.percentiles)
+    a_final = a.interval_levels.finalised(first, last, 900_000, percents)
+    merged = replace(a, interval_levels=a_final) + b
+    assert merged.interval_levels is not None
+    starts = merged.intervals.start_ms
+    got = merged.interval_levels.levels_db(starts, list(percents))
+    stamps = survey.readings["start_ms"].to_numpy()
+    for k, start in enumerate(starts.tolist()):
+        inside = (stamps >= start) & (stamps < start + 900_000)
+        if not inside.any():
+            assert np.isnan(got[k]).all()
+            continue
+        expected = [np.quantile(values[inside], 1 - p / 100, method="inverted_cdf")
+                    for p in percents]
+        np.testing.assert_allclose(got[k], expected, atol=1e-9)
