@@ -109,15 +109,20 @@ def test_check_in_batches_gives_the_whole_logs_findings(files, monkeypatch):
     assert got.findings == whole.findings
 
 
-def test_rows_far_out_of_order_fall_back_to_the_whole_read(tmp_path, files, monkeypatch):
-    settings = files[2]
+def _late_row_log(path):
+    """Three days at 1 s with one row 15,000 s (over 4 h) late in the file: it lands in
+    the next batch of 50,000 rows, beyond CUT_LOOKBACK_MS before the first batch's last
+    reading."""
     frame = _log(3 * 86400)
-    # a row 15,000 s (over 4 h) late in the file, in the next batch of 50,000 rows:
-    # beyond CUT_LOOKBACK_MS before the first batch's last reading
     frame = pd.concat([frame.iloc[:40_000], frame.iloc[40_001:55_000], frame.iloc[[40_000]],
                        frame.iloc[55_000:]], ignore_index=True)
-    path = tmp_path / "mast_c.parquet"
     frame.to_parquet(path, index=False)
+    return path
+
+
+def test_rows_far_out_of_order_fall_back_to_the_whole_read(tmp_path, files, monkeypatch):
+    settings = files[2]
+    path = _late_row_log(tmp_path / "mast_c.parquet")
     monkeypatch.setattr(long_log, "BATCH_ROWS", 50_000)
     read = read_input(path, settings)
     with pytest.raises(long_log.NotStreamable):
@@ -213,11 +218,7 @@ def test_a_log_too_long_to_read_whole_and_out_of_order_is_refused(tmp_path, file
     # (40,000 + 14,999 data rows come before it, the header is row 1: row 55,001) and
     # the fix; run and check say the same.
     settings = files[2]
-    frame = _log(3 * 86400)
-    frame = pd.concat([frame.iloc[:40_000], frame.iloc[40_001:55_000], frame.iloc[[40_000]],
-                       frame.iloc[55_000:]], ignore_index=True)
-    path = tmp_path / "mast_d.parquet"
-    frame.to_parquet(path, index=False)
+    path = _late_row_log(tmp_path / "mast_d.parquet")
     monkeypatch.setattr(long_log, "BATCH_ROWS", 50_000)
     monkeypatch.setattr(long_log, "STREAM_PARQUET_ROWS", 1000)
     monkeypatch.setattr(long_log, "WHOLE_READ_MAX_ROWS", 100_000)

@@ -102,9 +102,8 @@ def test_logged_laf90_in_parts_gives_the_whole_logs_figures(folder, monkeypatch,
         assert parts["overall"]["LA90"] == float(np.median(laf90))  # numpy reference
 
 
-def test_the_mean_of_logged_values_is_read_whole(folder, monkeypatch):
-    path = folder / "mast_l.parquet"
-    settings = _settings(folder, "mean")
+def _assert_read_whole(path, settings, monkeypatch):
+    """The log cannot be cut into parts, and run's fallback gives the whole-log figures."""
     whole = _whole(path, settings)
     read = _in_parts(path, settings, monkeypatch, 3_000)
     with pytest.raises(long_log.NotStreamable):
@@ -112,6 +111,12 @@ def test_the_mean_of_logged_values_is_read_whole(folder, monkeypatch):
     fallback, _ = build_document(path, settings, read=read)
     for key in ("overall", "intervals", "background"):
         assert fallback[key] == whole[key], key
+
+
+def test_the_mean_of_logged_values_is_read_whole(folder, monkeypatch):
+    path = folder / "mast_l.parquet"
+    settings = _settings(folder, "mean")
+    _assert_read_whole(path, settings, monkeypatch)
 
 
 def test_the_mean_of_a_log_too_long_to_read_whole_is_refused_with_the_fix(folder,
@@ -138,13 +143,7 @@ def test_a_batch_without_logged_values_is_read_whole(folder, monkeypatch):
     path = folder / "mast_m.parquet"
     frame.to_parquet(path, index=False)
     settings = _settings(folder, "median")
-    whole = _whole(path, settings)
-    read = _in_parts(path, settings, monkeypatch, 3_000)
-    with pytest.raises(long_log.NotStreamable):
-        long_log.long_log_sections(read.raw, settings)
-    fallback, _ = build_document(path, settings, read=read)
-    for key in ("overall", "intervals", "background"):
-        assert fallback[key] == whole[key], key
+    _assert_read_whole(path, settings, monkeypatch)
 
 
 def test_counts_per_value_merge_and_combine_as_the_values_themselves():
