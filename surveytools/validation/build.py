@@ -376,7 +376,10 @@ def build_survey(raw: RawWorkbook, settings: Settings,
     # ---- sort and time checks ------------------------------------------------------------
     keep = np.flatnonzero(placed)
     ck.check_time_order(rows_all[keep], start_ms[keep], times.letter, cols.where, collector)
-    order = keep[np.argsort(start_ms[keep], kind="stable")]
+    kept_start = start_ms[keep]
+    # a log in time order (the usual case) needs no sort: its stable order is itself
+    in_order = kept_start.size < 2 or bool(np.all(kept_start[1:] >= kept_start[:-1]))
+    order = keep if in_order else keep[np.argsort(kept_start, kind="stable")]
     s_sorted = start_ms[order]
     d_sorted = dur_ms[order]
     # local times shown are the site's civil time (design.md §9), whatever the meter's clock
