@@ -18,6 +18,7 @@ from surveytools.inputs.source import source_info
 from surveytools.provenance import SourceInfo
 from surveytools.settings import Settings
 from surveytools.validation.findings import Finding, Severity
+from surveytools.verdict import episode_counts
 
 
 @dataclass
@@ -286,17 +287,6 @@ def overview_row(doc: dict[str, Any], results_json: str | None, results_xlsx: st
         "findings": _totals(doc.get("findings") or []),
         "reason": reason,
     }
-
-
-def episode_counts(doc: dict[str, Any]) -> dict[str, int]:
-    """Episodes of every criterion of a results document, by severity (limit, warning)."""
-    counts = {"limit": 0, "warning": 0}
-    for criterion in doc.get("criteria") or []:
-        for episode in criterion.get("episodes") or []:
-            severity = episode.get("severity")
-            if severity in counts:
-                counts[severity] += 1
-    return counts
 
 
 def run_file(path: Path, out_dir: Path, stem: str, settings: Settings,

@@ -19,8 +19,8 @@ from typing import Any
 
 from surveytools import constants
 
-__all__ = ["FIGURE_AFFECTING_CODES", "batch_tally", "data_quality_words", "outcome_words",
-           "verdict_section"]
+__all__ = ["FIGURE_AFFECTING_CODES", "batch_tally", "data_quality_words", "episode_counts",
+           "outcome_words", "verdict_section"]
 
 #: Finding codes whose presence makes the figures doubtful (listed on the Summary by message).
 #: A code starting with one of :data:`FIGURE_AFFECTING_PREFIXES` counts too.
@@ -39,6 +39,21 @@ FIGURE_AFFECTING_CODES: frozenset[str] = frozenset({
 FIGURE_AFFECTING_PREFIXES: tuple[str, ...] = ("survey-time-zone", "clock-")
 
 _RANK = {"ok": 0, "warnings": 1, "errors": 2, "unreadable": 3}
+
+
+def episode_counts(doc: Mapping[str, Any]) -> dict[str, int]:
+    """Count the episodes of every criterion of a results document by severity.
+
+    Returns ``{"limit": n, "warning": m}``: episodes with a figure above the limit, and
+    those above the warning level only (the overview and the Summary show these).
+    """
+    counts = {"limit": 0, "warning": 0}
+    for criterion in doc.get("criteria") or []:
+        for episode in criterion.get("episodes") or []:
+            severity = episode.get("severity")
+            if severity in counts:
+                counts[severity] += 1
+    return counts
 
 
 def data_quality_words(quality: str) -> str:

@@ -31,6 +31,7 @@ from surveytools.outputs.xlsx_style import (
     text_lines,
     wrapped_lines,
 )
+from surveytools.verdict import episode_counts
 
 SHEET_SUMMARY = "Summary"
 
@@ -262,12 +263,12 @@ def _episodes_line(sw: SheetWriter, doc: Mapping[str, Any], row: int) -> int:
     criteria = list(doc.get("criteria") or [])
     if not any(c.get("episodes") is not None for c in criteria):
         return row
-    episodes = [e for c in criteria for e in c.get("episodes") or []]
-    n_limit = sum(1 for e in episodes if e.get("severity") == "limit")
+    counts = episode_counts(doc)
+    n_limit, n_all = counts["limit"], counts["limit"] + counts["warning"]
     sw.text(row, 0, "Episodes (above a warning level or limit)", "subtitle", measure=False)
     row += 1
     sw.text(row, 0, "Episodes", "bold", measure=False)
-    text = f"{len(episodes)} episodes, {n_limit} above a limit" if episodes else "none"
+    text = f"{n_all} episodes, {n_limit} above a limit" if n_all else "none"
     _para(sw, row, text, "fail" if n_limit else "wrap", first=1, last=3)
     sw.text(row, 4, "each one on the Episodes sheet", "note", measure=False)
     return row + 1

@@ -184,7 +184,8 @@ def test_libreoffice_opens_overview(tmp_path: Path) -> None:
 def test_episode_counts_by_severity() -> None:
     # Two criteria: one with a limit episode and a warning-only episode, one with a limit
     # episode; an assessment criterion lists none. Counted by hand: 2 limit, 1 warning.
-    from surveytools.pipeline import episode_counts, overview_row
+    from surveytools.pipeline import overview_row
+    from surveytools.verdict import episode_counts
 
     doc = build_results_doc()
     doc["criteria"] = [
