@@ -505,6 +505,7 @@ def _interval_rows(merged: _Merged, settings: Settings, tz: Any
     """Every reporting interval: a batch's own row, or an empty row inside a gap."""
     from surveytools.assessment.daily import lden_period_names
     from surveytools.assessment.intervals import ln_key
+    from surveytools.assessment.parts import positions_in
     from surveytools.assessment.timegrid import format_local
 
     grid = _interval_grid(merged, settings, tz)
@@ -527,9 +528,7 @@ def _interval_rows(merged: _Merged, settings: Settings, tz: Any
     rows = [merged.intervals[s] for s in starts.tolist()]
     # unrounded LAeq per interval (criteria judge these once): the merged interval parts
     iv = merged.parts.intervals
-    at = np.searchsorted(iv.start_ms, starts)
-    found = (at < iv.start_ms.size) & (iv.start_ms[np.minimum(at, iv.start_ms.size - 1)]
-                                       == starts)
+    at, found = positions_in(iv.start_ms, starts)
     laeq = np.full(starts.size, np.nan)
     laeq[found] = iv.levels_db()[at[found]]
     return rows, laeq.tolist()

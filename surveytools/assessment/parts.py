@@ -225,6 +225,15 @@ class LevelCounts:
         return LevelCounts(self.time_ms + other.time_ms)
 
 
+def positions_in(sorted_ms: IntArray, values_ms: IntArray) -> tuple[IntArray, np.ndarray]:
+    """Return where each value stands in ``sorted_ms`` and whether it is there exactly."""
+    at = np.searchsorted(sorted_ms, values_ms)
+    if sorted_ms.size == 0:
+        return at, np.zeros(at.shape, dtype=bool)
+    found = (at < sorted_ms.size) & (sorted_ms[np.minimum(at, sorted_ms.size - 1)] == values_ms)
+    return at, found
+
+
 #: Bits a level step takes in the merge key of :class:`IntervalLevelTimes` (the table
 #: has N_LEVEL_STEPS < 2**11 steps; an interval start in ms fits in the other 52 bits).
 _STEP_BITS = 11
@@ -304,18 +313,14 @@ class IntervalLevelTimes:
 
     def levels_db(self, starts_ms: IntArray, percents: list[float]) -> FloatArray:
         """LN of the intervals starting at ``starts_ms``, ``(n, n_percents)`` [dB]."""
-        at = np.searchsorted(starts_ms, self.start_ms)
-        found = (at < starts_ms.size) & (starts_ms[np.minimum(at, starts_ms.size - 1)]
-                                         == self.start_ms)
+        at, found = positions_in(starts_ms, self.start_ms)
         out = exceedance_levels_from_sparse_step_times(
             at[found], self.step[found], self.time_ms[found], starts_ms.size,
             FIRST_LEVEL_STEP, N_LEVEL_STEPS, LEVEL_STEPS_PER_DB, percents)
         if self.final_start_ms.size:
             if tuple(percents) != self.percents:
                 raise ValueError("final interval LN were taken for other percentiles")
-            at = np.searchsorted(starts_ms, self.final_start_ms)
-            hit = (at < starts_ms.size) & (starts_ms[np.minimum(at, starts_ms.size - 1)]
-                                           == self.final_start_ms)
+            at, hit = positions_in(starts_ms, self.final_start_ms)
             out[at[hit]] = self.final_db[hit]
         return out
 

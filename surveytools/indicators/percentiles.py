@@ -642,10 +642,11 @@ def exceedance_levels_from_sparse_step_times(
         lo, hi = np.searchsorted(groups, [first, last])
         if lo == hi:
             continue
-        table = np.zeros((last - first) * n_steps, dtype=np.int64)
-        np.add.at(table, (groups[lo:hi] - first) * n_steps + steps[lo:hi], times[lo:hi])
+        cell = (groups[lo:hi] - first) * n_steps + steps[lo:hi]
+        table = np.bincount(cell, weights=times[lo:hi], minlength=(last - first) * n_steps)
         out[first:last] = exceedance_levels_from_step_times(
-            table.reshape(last - first, n_steps), first_step, steps_per_db, percents)
+            table.astype(np.int64).reshape(last - first, n_steps), first_step, steps_per_db,
+            percents)
     return out
 
 
