@@ -23,6 +23,7 @@ from __future__ import annotations
 import logging
 import threading
 import time
+from collections import Counter
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager, suppress
 from dataclasses import dataclass, field, replace
@@ -548,19 +549,19 @@ def compute_positions(tasks: list[PartitionTask], options: ReportOptions,
         began = time.perf_counter()
         futures = client.map(group_parts, groups, settings=options.settings,
                              window=options.window, pure=False)
-        group_of = {future.key: group for future, group in zip(futures, groups, strict=True)}
-        waiting = {p: sum(1 for g in groups if g.position == p) for p in clocks}
+        index = {future.key: k for k, future in enumerate(futures)}
+        waiting = Counter(g.position for g in groups)
         finished: dict[str, list[tuple[int, Any]]] = {p: [] for p in clocks}
-        order = {future.key: k for k, future in enumerate(futures)}
         position_futures: list[tuple[str, Any]] = []
         for done, future in enumerate(as_completed(futures), start=1):
-            group = group_of[future.key]
+            k = index[future.key]
+            group = groups[k]
             if future.status == "error":  # the worker died or the task could not run
                 problems.extend(_problem(group.position, task.month, future.exception())
                                 for task in group.partitions)
                 future.release()
             else:
-                finished[group.position].append((order[future.key], future))
+                finished[group.position].append((k, future))
             waiting[group.position] -= 1
             if waiting[group.position] == 0 and finished[group.position]:
                 position = group.position
