@@ -194,8 +194,15 @@ def _new_workbook(path: Path, pos: DemoPosition) -> tuple[Any, Any, Any]:
             wb.add_format({"bold": True}))
 
 
-def _write_survey_rows(survey: Any, rows: list[tuple[str, Any]], bold: Any) -> None:
-    """Write the Survey sheet's key / value pairs under a bold header row."""
+def _write_survey(wb: Any, pos: DemoPosition, bold: Any, height_m: float, notes: str) -> None:
+    """Write a position's Survey sheet: key / value pairs under a bold header row."""
+    survey = wb.add_worksheet("Survey")
+    rows = [("Position", pos.position), ("Site", SITE), ("Description", pos.description),
+            ("Time zone", TIME_ZONE), ("Clock", "local"), ("Meter class", 1),
+            ("Calibration before (dB)", pos.calibration_before_db),
+            ("Calibration after (dB)", pos.calibration_after_db),
+            ("Calibrator level (dB)", 94.0), ("Microphone", "free-field"),
+            ("Height (m)", height_m), ("Notes", notes)]
     survey.write_row(0, 0, ("Field", "Value"), bold)
     for i, (k, v) in enumerate(rows, start=1):
         survey.write_string(i, 0, k)
@@ -207,27 +214,25 @@ def _write_survey_rows(survey: Any, rows: list[tuple[str, Any]], bold: Any) -> N
     survey.set_column(1, 1, 52)
 
 
+def _assessment_days(stamps: list[datetime]) -> np.ndarray:
+    """Return the assessment day (from 07:00) each wall-clock stamp belongs to."""
+    return np.array([(t - timedelta(hours=7)).date() for t in stamps])
+
+
 def _write_position(path: Path, pos: DemoPosition, rng: np.random.Generator) -> None:
     stamps = _wall_clock_series(pos)
     hours = _local_hours(stamps)
     nights_off = {datetime(2026, 10, 24).date(), datetime(2026, 10, 26).date()}
     night = (hours >= 23) | (hours < 7)
-    owner = np.array([(t - timedelta(hours=7)).date() for t in stamps])
+    owner = _assessment_days(stamps)
     plant_on = night & np.array([d not in nights_off for d in owner]) if pos.position == "KL-2" \
         else np.zeros(len(stamps), dtype=bool)
     lv = _levels(pos, hours, rng, plant_on)
 
     wb, dt_fmt, bold = _new_workbook(path, pos)
 
-    survey = wb.add_worksheet("Survey")
-    rows = [("Position", pos.position), ("Site", SITE), ("Description", pos.description),
-            ("Time zone", TIME_ZONE), ("Clock", "local"), ("Meter class", 1),
-            ("Calibration before (dB)", pos.calibration_before_db),
-            ("Calibration after (dB)", pos.calibration_after_db),
-            ("Calibrator level (dB)", 94.0), ("Microphone", "free-field"),
-            ("Height (m)", 4.0 if pos.position == "KL-3" else 1.5),
-            ("Notes", "Invented data for the surveytools demo.")]
-    _write_survey_rows(survey, rows, bold)
+    _write_survey(wb, pos, bold, 4.0 if pos.position == "KL-3" else 1.5,
+                  "Invented data for the surveytools demo.")
 
     ws = wb.add_worksheet("Readings")
     ws.write_string(0, 0, f"Logged levels, position {pos.position} (demo export)")
@@ -343,21 +348,14 @@ def _write_band_position(path: Path, pos: DemoPosition, rng: np.random.Generator
     """Write a position whose meter also exports one-third-octave band levels (KL-4)."""
     stamps = _wall_clock_series(pos)
     hours = _local_hours(stamps)
-    owner = np.array([(t - timedelta(hours=7)).date() for t in stamps])
+    owner = _assessment_days(stamps)
     pump_nights = {datetime(2026, 10, 22).date(), datetime(2026, 10, 23).date()}
     pump_on = ((hours >= 23) | (hours < 5)) & np.array([d in pump_nights for d in owner])
     levels, broadband = _band_levels(pos, hours, rng, pump_on)
 
     wb, dt_fmt, bold = _new_workbook(path, pos)
-    survey = wb.add_worksheet("Survey")
-    rows = [("Position", pos.position), ("Site", SITE), ("Description", pos.description),
-            ("Time zone", TIME_ZONE), ("Clock", "local"), ("Meter class", 1),
-            ("Calibration before (dB)", pos.calibration_before_db),
-            ("Calibration after (dB)", pos.calibration_after_db),
-            ("Calibrator level (dB)", 94.0), ("Microphone", "free-field"), ("Height (m)", 1.5),
-            ("Notes", "Invented data for the surveytools demo: one-third-octave bands, "
-                      "Z-weighted.")]
-    _write_survey_rows(survey, rows, bold)
+    _write_survey(wb, pos, bold, 1.5,
+                  "Invented data for the surveytools demo: one-third-octave bands, Z-weighted.")
 
     ws = wb.add_worksheet("Readings")
     ws.write_string(0, 0, f"Logged levels, position {pos.position} (demo export)")
