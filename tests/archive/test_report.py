@@ -245,8 +245,9 @@ def test_embedded_workers_start_with_our_memory_tuning():
 
 def test_interval_criteria_on_la90_count_what_run_judges(tmp_path):
     # Ten days of 1-minute readings at random 0.1 dB levels with quieter nights: an LA90
-    # limit per 15-minute interval. Reference 1: run on the same log (the whole-log LN of
-    # every interval from its samples) — the archive counts the same intervals above it.
+    # limit per 15-minute interval. Reference 1 (the "same numbers as run"): run
+    # on the same log counts the same intervals above it; reference 3 below recounts them
+    # with numpy.
     # Reference 2, hand-evaluated: an interval of 15 readings at 40.0 .. 41.4 dB in
     # 0.1 dB steps (one minute each) has LA90 = 40.1 dB: the lowest level whose
     # cumulative time from the bottom reaches 10 % (1.5 of 15 minutes) is the second one.
@@ -277,3 +278,19 @@ def test_interval_criteria_on_la90_count_what_run_judges(tmp_path):
         mine = counted[judged["name"]]
         assert mine["checked"] == judged["checked"] > 0
         assert mine["above"] == judged["failed"] > 0
+    # Reference 3, outside the project: each 15-minute interval's LA90 as numpy's
+    # inverted_cdf quantile at 10 % (design §5), rounded half up to 0.1 dB with decimal
+    # (the reported value), night = an interval starting 23:00-06:59 local time (the
+    # log's clock; readings from 07:00, so interval k starts 7 h + 15k min after midnight).
+    from decimal import ROUND_HALF_UP, Decimal
+
+    la90 = [np.quantile(levels[15 * k: 15 * k + 15], 0.10, method="inverted_cdf")
+            for k in range(n // 15)]
+    shown = [float(Decimal(repr(float(v))).quantize(Decimal("0.1"), ROUND_HALF_UP))
+             for v in la90]
+    start_hour = [(7 + (15 * k) // 60) % 24 for k in range(n // 15)]
+    assert counted["Quiet floor"]["checked"] == n // 15
+    assert counted["Quiet floor"]["above"] == sum(v > 48.0 for v in shown)
+    night = [v for v, h in zip(shown, start_hour, strict=True) if h >= 23 or h < 7]
+    assert counted["Night floor"]["checked"] == len(night)
+    assert counted["Night floor"]["above"] == sum(v > 41.0 for v in night)
