@@ -148,7 +148,8 @@ class LogBatches:
                 raw_columns.append(_column(arr, header, letter, name or header,
                                            self.settings))
                 continue
-            col = _plain_numbers(arr, header, letter, name)
+            col = _plain_numbers(arr, header, letter, name) or _plain_times(
+                arr, header, letter, name)
             if col is None:  # text cells, blanks or dates: the whole-file reader's rules
                 values = pd.Series(arr.to_numpy(zero_copy_only=False), dtype=object)
                 col = convert_text_column(values, header, letter, name)
@@ -187,6 +188,37 @@ def _plain_numbers(arr: Any, header: str, letter: str, name: str | None) -> RawC
     if not np.isfinite(numbers).all():
         return None
     return RawColumn(header, letter, "number", pd.Series(numbers, dtype="float64"))
+
+
+#: The one spelling of a time stamp the fast path converts: ISO 8601 date and time with a
+#: ``T`` or a space, seconds optional, at most three decimals (what loggers write; own
+#: choice). Every other spelling goes through the whole-file reader's rules.
+_PLAIN_TIME = r"^[0-9]{4}-[0-9]{2}-[0-9]{2}[T ][0-9]{2}:[0-9]{2}(:[0-9]{2}(\.[0-9]{1,3})?)?$"
+
+
+def _plain_times(arr: Any, header: str, letter: str, name: str | None) -> RawColumn | None:
+    """Convert a CSV time-stamp column of plain ISO 8601 text with pyarrow; else None.
+
+    The same column the whole-file reader makes of it (kind ``datetime`` in milliseconds,
+    no text cells) when every cell is a valid date and time spelt as :data:`_PLAIN_TIME`
+    (pyarrow's ISO 8601 cast refuses 24:00, a 60th second and 30 February as pandas
+    does); any other column returns None and is converted by
+    :func:`~surveytools.inputs.csv_input.convert_text_column`.
+    """
+    import pandas as pd
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if cols.EXPECTED_KIND.get(name or "") != "datetime" or name == "Time" or len(arr) == 0:
+        return None
+    if arr.null_count or not pc.all(pc.match_substring_regex(arr, _PLAIN_TIME)).as_py():
+        return None
+    try:
+        stamps = pc.cast(arr, pa.timestamp("ms"))
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        return None
+    values = stamps.to_numpy(zero_copy_only=False).astype("datetime64[ms]")
+    return RawColumn(header, letter, "datetime", pd.Series(values))
 
 
 def open_log(path: Path, settings: Settings) -> LogBatches | None:
