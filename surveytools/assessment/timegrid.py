@@ -17,11 +17,11 @@ from collections.abc import Iterable, Sequence
 from datetime import date, datetime, timedelta, tzinfo
 
 import numpy as np
-import pandas as pd
 from numpy.typing import ArrayLike, NDArray
 
 from surveytools.constants import HOURS_PER_DAY, SECONDS_PER_HOUR
 from surveytools.errors import SettingsError
+from surveytools.zone_offsets import utc_offsets_ms
 
 IntArray = NDArray[np.int64]
 
@@ -183,16 +183,6 @@ def stepped_grid(
     grid = starts[span] + k * steps[span]
     bounds = np.concatenate([grid, ends[-1:]]) if ends.size else grid
     return bounds, span
-
-
-def utc_offsets_ms(ms: ArrayLike, tz: tzinfo) -> IntArray:
-    """UTC offset [ms] of the site's civil time at each instant (vectorised with pandas)."""
-    values = np.asarray(ms, dtype=np.int64)
-    if values.size == 0:
-        return values.copy()
-    utc = pd.DatetimeIndex(values.astype("datetime64[ms]")).tz_localize("UTC")
-    local = utc.tz_convert(tz).tz_localize(None).as_unit("ms")
-    return local.asi8 - values
 
 
 def format_local(ms: ArrayLike, tz: tzinfo) -> list[str]:

@@ -42,6 +42,7 @@ from surveytools.constants import (
 )
 from surveytools.inputs.raw import RawColumn
 from surveytools.validation.findings import Finding, FindingCollector, Severity
+from surveytools.zone_offsets import utc_offsets_ms
 
 MS_PER_S = 1000
 MS_PER_DAY = 86_400_000
@@ -200,12 +201,8 @@ def site_offsets_s(utc_ms: np.ndarray, zone: tzinfo) -> np.ndarray:
     -------
     numpy.ndarray of int32
     """
-    values = np.asarray(utc_ms, dtype=np.int64)
-    if values.size == 0:
-        return np.zeros(0, np.int32)
-    utc = pd.DatetimeIndex(values.astype("datetime64[ms]")).tz_localize("UTC")
-    local = utc.tz_convert(zone).tz_localize(None).as_unit("ms").asi8
-    return ((local - values) // MS_PER_S).astype(np.int32)
+    offsets_ms = utc_offsets_ms(utc_ms, zone)
+    return (offsets_ms // MS_PER_S).astype(np.int32)
 
 
 def assumed_site_zone(clock: str) -> str:
