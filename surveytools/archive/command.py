@@ -155,9 +155,14 @@ def execute_report(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         positions=tuple(args.position), workers=args.workers, scheduler=args.scheduler,
         memory_limit=memory_limit)
     bar = _bar(err, not args.quiet)
-    doc = build_report(options, progress=lambda done, total: bar(done, total, "reading tasks"),
-                       started=started)
-    paths = write_report(args.output, doc)
+    try:
+        doc = build_report(options, progress=lambda done, total: bar(done, total,
+                                                                      "reading tasks"),
+                           started=started)
+        paths = write_report(args.output, doc)  # while the local cluster stops
+    finally:
+        if started is not None:
+            started.close()
     for line in doc["problems"]:
         out.write(f"problem: {line}\n")
     out.write(f"Archive report of {len(doc['positions'])} positions "

@@ -32,6 +32,7 @@ from typing import TYPE_CHECKING, Any
 
 from surveytools.archive.store import LAYOUT_VERSION, RECORDS_FILE, ArchiveError, IngestRecord
 from surveytools.archive.window import DateWindow
+from surveytools.debuglog import log_raw
 from surveytools.settings import Settings
 
 if TYPE_CHECKING:
@@ -353,6 +354,7 @@ class LocalClusterStart:
 
     def __init__(self, workers: int, memory_limit: str) -> None:
         self._cluster: Any = None
+        self._closing: threading.Thread | None = None
         self._error: BaseException | None = None
         self._thread = threading.Thread(target=self._start, args=(workers, memory_limit),
                                         name="dask-cluster-start", daemon=True)
@@ -397,12 +399,32 @@ class LocalClusterStart:
             raise error
         return self._cluster
 
-    def close(self) -> None:
-        """Stop the cluster (waiting for it to finish starting first)."""
+    def begin_close(self) -> None:
+        """Start stopping the cluster in a background thread; :meth:`close` waits for it.
+
+        The report's outputs are written meanwhile.
+        """
         self._thread.join()
-        if self._cluster is not None:
-            self._cluster.close()
-            self._cluster = None
+        cluster, self._cluster = self._cluster, None
+        if cluster is not None:
+            self._closing = threading.Thread(target=_close_quietly, args=(cluster,),
+                                             name="dask-cluster-close")
+            self._closing.start()
+
+    def close(self) -> None:
+        """Stop the cluster and wait until it has stopped (after :meth:`begin_close` too)."""
+        self.begin_close()
+        if self._closing is not None:
+            self._closing.join()
+            self._closing = None
+
+
+def _close_quietly(cluster: Any) -> None:
+    """Stop a local cluster; a failure to stop is logged, not raised (its work is done)."""
+    try:
+        cluster.close()
+    except Exception as exc:  # the library's own words: debug log only
+        log_raw("stopping the local Dask cluster", exc)
 
 
 @contextmanager
@@ -410,7 +432,9 @@ def dask_client(options: ReportOptions, started: LocalClusterStart | None = None
                 ) -> Iterator[Any]:
     """Yield a Dask client: on the named scheduler, or on an embedded local cluster.
 
-    ``started`` is the embedded cluster when it was started earlier (it is closed here).
+    ``started`` is the embedded cluster when it was started earlier: its stopping begins
+    here, and its owner waits for it with :meth:`LocalClusterStart.close` (a cluster
+    started here is stopped here).
 
     Raises
     ------
@@ -440,7 +464,10 @@ def dask_client(options: ReportOptions, started: LocalClusterStart | None = None
         finally:
             client.close()
     finally:
-        starting.close()
+        if started is None:
+            starting.close()
+        else:
+            starting.begin_close()
 
 
 def _peak_rss_mib() -> float:
@@ -596,7 +623,8 @@ def build_report(options: ReportOptions,
     """Compute the archive report document (``archive-report.json``).
 
     ``started`` is an embedded cluster started earlier (see :class:`LocalClusterStart`);
-    it is closed before this returns or raises.
+    its stopping has begun when this returns or raises (the caller writes the outputs
+    meanwhile and waits for it with ``started.close()``).
 
     Raises
     ------

@@ -243,6 +243,23 @@ def test_embedded_workers_start_with_our_memory_tuning():
     assert environ == {**WORKER_MALLOC_ENV, "ARROW_DEFAULT_MEMORY_POOL": "system"}
 
 
+def test_local_cluster_stops_in_the_background_and_close_waits_for_it():
+    # the report writes its outputs while the embedded cluster stops; close() then waits
+    import threading
+
+    from distributed.core import Status
+
+    from surveytools.archive.report import LocalClusterStart
+
+    started = LocalClusterStart(1, "1GiB")
+    cluster = started.cluster()
+    started.begin_close()
+    started.close()
+    assert cluster.status == Status.closed
+    assert not [t for t in threading.enumerate() if t.name == "dask-cluster-close"]
+    started.close()  # a second close is harmless
+
+
 def test_interval_criteria_on_la90_count_what_run_judges(tmp_path):
     # Ten days of 1-minute readings at random 0.1 dB levels with quieter nights: an LA90
     # limit per 15-minute interval. Reference 1 (the "same numbers as run"): run
