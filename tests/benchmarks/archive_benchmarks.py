@@ -7,7 +7,10 @@ cycle), then measures, each command a fresh process tree:
 - **large log**: a month at 1 s (2,678,400 rows) in one Parquet file — the bare read of
   the file by pyarrow (whole process: the yardstick) against ``surveytools run`` on the
   same file (whole process, both outputs), alternating, ``--repeats`` times; the peak
-  resident memory of the largest process;
+  resident memory of the largest process; and ``run`` on the log's first hour (3,600
+  rows): what a run costs whatever the log's length;
+- **the same month as CSV** (``largecsv``): ISO 8601 text time stamps; the bare read is
+  pyarrow's CSV reader (whole process), against ``surveytools run`` on the CSV;
 - **archive at 1 min**: 10 positions x 1 year at 1 min (5,256,000 rows), one Parquet file
   per position: ``archive add`` (ingest time), then ``archive report`` with 1 and with 2
   workers (report time of the whole process and of its compute phase — the time from the
@@ -24,7 +27,8 @@ cycle), then measures, each command a fresh process tree:
 Usage::
 
     python tests/benchmarks/archive_benchmarks.py
-        [--parts large,year,minute,second,second3,addyear,addmonth] [--repeats 3]
+        [--parts large,largecsv,year,minute,second,second3,addyear,addmonth]
+        [--repeats 3]
         [--workdir DIR]
 
 Targets (issue 17): month at 1 s ``run`` <= 2x the bare read, peak < 1.5 GiB; report with
@@ -51,6 +55,8 @@ from run_benchmarks import measure
 
 BARE_READ = ("import sys, pyarrow.parquet as pq; t = pq.read_table(sys.argv[1]); "
              "print(t.num_rows)")
+BARE_CSV_READ = ("import sys, pyarrow.csv as pc; t = pc.read_csv(sys.argv[1]); "
+                 "print(t.num_rows)")
 
 
 def surveytools(*args: str) -> list[str]:
@@ -88,25 +94,68 @@ def settings_file(path: Path, position: str) -> Path:
     return path
 
 
-def large_log(work: Path, repeats: int, days: int = 31) -> dict[str, object]:
-    """``run`` on one log of ``days`` days at 1 s against the bare read of the same file."""
+def write_csv_copy(parquet: Path, csv: Path) -> None:
+    """The same log as a CSV export: ISO 8601 text time stamps, numbers as written."""
+    import pyarrow.compute as pc
+    import pyarrow.csv as pcsv
+    import pyarrow.parquet as pq
+
+    if csv.exists():
+        return
+    table = pq.read_table(parquet)
+    table = table.set_column(0, "Start", pc.strftime(table["Start"], format="%Y-%m-%dT%H:%M:%S"))
+    tmp = csv.with_suffix(".tmp")
+    pcsv.write_csv(table, tmp)
+    tmp.rename(csv)
+
+
+def large_log(work: Path, repeats: int, days: int = 31, csv: bool = False
+              ) -> dict[str, object]:
+    """``run`` on one log of ``days`` days at 1 s against the bare read of the same file.
+
+    With ``csv``, the file is the same log exported as CSV, and the bare read is
+    pyarrow's CSV reader.
+    """
     log = work / ("month_1s.parquet" if days == 31 else f"days{days}_1s.parquet")
     first = "2026-07-01T00:00:00" if days == 31 else "2026-01-01T00:00:00"
     write_log(log, first, days * 86_400, 1, seed=1)
+    if csv:
+        write_csv_copy(log, log.with_suffix(".csv"))
+        log = log.with_suffix(".csv")
     settings = settings_file(work / "large.toml", "Month")
-    reads, runs = [], []
+    # the fixed cost of a run: the first hour of the same log (3,600 rows), whole process
+    hour = work / ("hour_1s" + log.suffix)
+    if not hour.exists():
+        write_hour(log, hour)
+    reads, runs, hours = [], [], []
     for _ in range(repeats):
-        reads.append(measure([sys.executable, "-c", BARE_READ, str(log)]))
+        reads.append(measure([sys.executable, "-c", BARE_CSV_READ if csv else BARE_READ,
+                              str(log)]))
         out = work / "large_out"
-        shutil.rmtree(out, ignore_errors=True)
-        runs.append(measure(surveytools("run", str(log), "-o", str(out), "--settings",
-                                        str(settings), "--quiet", "--jobs", "1")))
+        for target, results in ((log, runs), (hour, hours)):
+            shutil.rmtree(out, ignore_errors=True)
+            results.append(measure(surveytools("run", str(target), "-o", str(out),
+                                               "--settings", str(settings), "--quiet",
+                                               "--jobs", "1")))
     read_s = statistics.median(r["s"] for r in reads)
     run_s = statistics.median(r["s"] for r in runs)
     ratios = statistics.median(b["s"] / a["s"] for a, b in zip(reads, runs, strict=True))
     return {"rows": days * 86_400, "bare_read_s": round(read_s, 2), "run_s": round(run_s, 2),
             "ratio": round(ratios, 2),
-            "run_peak_mib": round(max(r["rss_mib"] for r in runs), 0)}
+            "run_peak_mib": round(max(r["rss_mib"] for r in runs), 0),
+            "run_first_hour_s": round(statistics.median(r["s"] for r in hours), 2)}
+
+
+def write_hour(log: Path, hour: Path) -> None:
+    """The first hour (3,600 rows) of a log at 1 s, in the same format."""
+    import pyarrow.csv as pcsv
+    import pyarrow.parquet as pq
+
+    if log.suffix == ".csv":
+        table = pcsv.read_csv(log).slice(0, 3_600)
+        pcsv.write_csv(table, hour)
+    else:
+        pq.write_table(pq.read_table(log).slice(0, 3_600), hour, compression="zstd")
 
 
 def add_long_log(work: Path, days: int) -> dict[str, object]:
@@ -189,6 +238,9 @@ def main() -> int:
     if "large" in parts:
         results["large_log_month_1s"] = large_log(work, args.repeats)
         print(json.dumps(results["large_log_month_1s"]), flush=True)
+    if "largecsv" in parts:  # the same month exported as CSV (ISO 8601 text time stamps)
+        results["large_log_month_1s_csv"] = large_log(work, args.repeats, csv=True)
+        print(json.dumps(results["large_log_month_1s_csv"]), flush=True)
     if "year" in parts:  # one file of a year at 1 s through run (bounded memory)
         results["large_log_year_1s"] = large_log(work, 1, days=365)
         print(json.dumps(results["large_log_year_1s"]), flush=True)
