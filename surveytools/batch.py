@@ -25,6 +25,7 @@ from typing import Any
 
 from surveytools import __version__
 from surveytools.inputs.kinds import CSV_SUFFIXES, PARQUET_SUFFIXES, WORKBOOK_SUFFIXES
+from surveytools.verdict import UNWRITTEN
 
 #: Name prefixes of lock / temporary / metadata files left by spreadsheet programs and
 #: file systems (Office owner files, LibreOffice locks, macOS AppleDouble files).
@@ -105,8 +106,8 @@ class BatchResult:
 
     def counts(self) -> dict[str, int]:
         """Return the number of inputs per final status."""
-        out = {"ok": 0, "warnings": 0, "errors": 0, "unreadable": 0, "skipped": 0,
-               "deferred": 0}
+        out = {"ok": 0, "warnings": 0, "errors": 0, "unreadable": 0, UNWRITTEN: 0,
+               "skipped": 0, "deferred": 0}
         for o in self.outcomes:
             out[o["status"]] = out.get(o["status"], 0) + 1
         for s in self.skipped:
@@ -119,7 +120,8 @@ class BatchResult:
             return 2
         c = self.counts()
         missing = any(s.code == "path-missing" for s in self.skipped)
-        return 1 if (c["errors"] or c["unreadable"] or c["deferred"] or missing) else 0
+        return 1 if (c["errors"] or c["unreadable"] or c[UNWRITTEN] or c["deferred"]
+                     or missing) else 0
 
 
 def _skip_reason(name: str) -> str | None:
@@ -282,12 +284,15 @@ def describe_write_fault(exc: OSError) -> tuple[str, str]:
 
 
 def write_failure(path: Path, out_dir: Path, exc: OSError) -> dict[str, Any]:
-    """Return the failure of an input whose results could not be written (a full disk)."""
+    """Return the failure of an input whose results could not be written (a full disk).
+
+    Its status is ``unwritten``: the input was read (as far as it was) and is not to blame.
+    """
     code, reason = describe_write_fault(exc)
     return _worker_failure(
         path, code, f"the results could not be written to {out_dir}: {reason}. Your input "
         "is fine as far as it was read; free some space (or choose another folder with -o) "
-        "and run again - this file will be processed again")
+        "and run again - this file will be processed again", status=UNWRITTEN)
 
 
 def check_output_folder(out_dir: Path) -> None:
@@ -320,10 +325,11 @@ def check_output_folder(out_dir: Path) -> None:
         ) from None
 
 
-def _worker_failure(path: Path, code: str, message: str) -> dict[str, Any]:
+def _worker_failure(path: Path, code: str, message: str, status: str = "unreadable"
+                    ) -> dict[str, Any]:
     finding = {"severity": "error", "code": code, "message": message,
                "sheet": None, "row": None, "column": None}
-    return {"path": str(path), "file": path.name, "status": "unreadable", "results_json": None,
+    return {"path": str(path), "file": path.name, "status": status, "results_json": None,
             "results_xlsx": None, "sha256": None, "findings": [finding],
             "finding_totals": {"error": 1, "warning": 0, "info": 0}, "overview": {}}
 
@@ -731,7 +737,8 @@ def _run_batch(options: BatchOptions, settings_key: str,
                     slot.close()
 
     for job, outcome in zip(jobs, outcomes, strict=True):
-        if options.mode == "run" and outcome.get("results_json") is None:
+        if (options.mode == "run" and outcome.get("results_json") is None
+                and outcome["status"] != UNWRITTEN):  # no results document says "unreadable"
             outcome = _record_unreadable(options, job, outcome)
         result.outcomes.append(outcome)
         # Only complete results are remembered: an input whose worker failed (a fault of

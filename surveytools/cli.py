@@ -1,8 +1,8 @@
 """Command line: parse arguments into options, execute, return an exit code.
 
 Exit codes (contract): 0 every input processed without error findings; 1 some inputs had
-errors, were unreadable or were deferred (the rest were still processed); 2 the command
-itself could not run (bad arguments or settings).
+errors, were unreadable, had results that could not be written or were deferred (the rest
+were still processed); 2 the command itself could not run (bad arguments or settings).
 """
 
 from __future__ import annotations
@@ -161,7 +161,9 @@ def _load_settings(path: Path | None) -> tuple[Any, str]:
 
 
 STATUS_WORDS = {"ok": "ok", "warnings": "ok with warnings", "errors": "has errors",
-                "unreadable": "could not be read", "skipped": "skipped", "deferred": "deferred"}
+                "unreadable": "could not be read",
+                "unwritten": "read, but its results could not be written",
+                "skipped": "skipped", "deferred": "deferred"}
 
 
 def _headline(outcome: dict[str, Any]) -> str:
@@ -237,6 +239,8 @@ def _summary_line(counts: dict[str, int], verb: str,
     total = sum(counts.values()) - counts.get("skipped", 0)
     parts = [f"{counts.get('ok', 0)} ok", f"{counts.get('warnings', 0)} with warnings",
              f"{counts.get('errors', 0)} with errors", f"{counts.get('unreadable', 0)} unreadable"]
+    if counts.get("unwritten"):
+        parts.append(f"{counts['unwritten']} with results not written")
     if counts.get("deferred"):
         parts.append(f"{counts['deferred']} deferred")
     if counts.get("skipped"):
@@ -349,10 +353,7 @@ def _report_cycle(out: TextIO, result: Any, later_poll: bool,
         reused = " (unchanged since the last run; results kept)" if o.get("reused") else ""
         headline = _headline(o)
         words = STATUS_WORDS.get(o["status"], o["status"])
-        not_written = any(f["code"].startswith("output-") for f in o.get("findings") or [])
-        if not_written:
-            words = "read, but its results could not be written"
-        if (o.get("overview") or {}).get("verdict") and not not_written:
+        if (o.get("overview") or {}).get("verdict"):
             out.write(f"{o['file']}{reused}: {headline}\n")  # verdict first
         else:
             out.write(f"{o['file']}: {words}{reused}"

@@ -40,6 +40,10 @@ FIGURE_AFFECTING_PREFIXES: tuple[str, ...] = ("survey-time-zone", "clock-")
 
 _RANK = {"ok": 0, "warnings": 1, "errors": 2, "unreadable": 3}
 
+#: The batch status of an input whose results could not be written (a full disk): it has
+#: no results document and no verdict; the input itself is not to blame.
+UNWRITTEN = "unwritten"
+
 
 def episode_counts(doc: Mapping[str, Any]) -> dict[str, int]:
     """Count the episodes of every criterion of a results document by severity.
@@ -59,7 +63,8 @@ def episode_counts(doc: Mapping[str, Any]) -> dict[str, int]:
 def data_quality_words(quality: str) -> str:
     """Return the data quality as words: ``ok``, ``with warnings``, ``with errors`` ..."""
     return {"ok": "ok", "warnings": "with warnings", "errors": "with errors",
-            "unreadable": "file could not be read"}.get(quality, quality)
+            "unreadable": "file could not be read",
+            UNWRITTEN: "read, but results not written"}.get(quality, quality)
 
 
 def batch_tally(inputs: Sequence[tuple[str, Mapping[str, Any] | None]]
@@ -75,7 +80,8 @@ def batch_tally(inputs: Sequence[tuple[str, Mapping[str, Any] | None]]
     Returns
     -------
     counts : dict
-        Inputs per data quality: ``ok``, ``warnings``, ``errors``, ``unreadable``.
+        Inputs per data quality: ``ok``, ``warnings``, ``errors``, ``unreadable``, and
+        ``unwritten`` when some input's results could not be written.
     not_met : int
         Inputs with at least one criterion not met.
     """

@@ -376,6 +376,47 @@ def test_output_cut_short_by_the_reader_is_not_an_internal_error(tmp_path: Path)
     assert b"internal error" not in err and b"Traceback" not in err
 
 
+def test_a_full_disk_gives_status_unwritten_not_unreadable(tmp_path: Path,
+                                                           monkeypatch: pytest.MonkeyPatch
+                                                           ) -> None:
+    # The worker read the input, but the disk filled while its results were written: the
+    # overview says so (status "unwritten", its own count), no results document claims the
+    # file was unreadable, the exit code is 1, and the next run processes the input again.
+    from jsonschema import Draft202012Validator
+
+    import surveytools.batch as batch
+    from surveytools.schema_files import schema_path
+
+    inputs = tmp_path / "in"
+    inputs.mkdir()
+    survey_workbook(inputs / "a.xlsx")
+    real_run = batch.WorkerSlot.run
+
+    def full_disk(self: object, job: dict[str, object], *_a: object, **_k: object) -> dict:
+        return batch.write_failure(Path(str(job["path"])), Path(str(job["out_dir"])),
+                                   OSError(errno.ENOSPC, "No space left on device"))
+
+    monkeypatch.setattr(batch.WorkerSlot, "run", full_disk)
+    key = "0" * 64  # a settings hash
+    result = run_batch(_options(tmp_path, inputs, None), key)
+    (outcome,) = result.outcomes
+    assert outcome["status"] == "unwritten" and outcome["results_json"] is None
+    assert result.counts()["unwritten"] == 1 and result.counts()["unreadable"] == 0
+    assert result.exit_code() == 1
+    out = tmp_path / "out"
+    assert not list(out.glob("*.results.json"))
+    overview = json.loads((out / "overview.json").read_text(encoding="utf-8"))
+    schema = json.loads(schema_path("overview.schema.json").read_text(encoding="utf-8"))
+    Draft202012Validator(schema).validate(overview)
+    (item,) = overview["inputs"]
+    assert item["status"] == "unwritten" and "disk is full" in item["reason"]
+    assert overview["counts"]["unwritten"] == 1
+    monkeypatch.setattr(batch.WorkerSlot, "run", real_run)
+    again = run_batch(_options(tmp_path, inputs, None), key)
+    assert [o["status"] for o in again.outcomes] == ["ok"]
+    assert again.counts()["unwritten"] == 0
+
+
 def test_an_input_whose_results_could_not_be_written_is_not_called_unreadable() -> None:
     import io
 
@@ -389,3 +430,4 @@ def test_an_input_whose_results_could_not_be_written_is_not_called_unreadable() 
     text = out.getvalue()
     assert text.startswith("a.xlsx: read, but its results could not be written")
     assert "could not be read" not in text and "[output-disk-full]" in text
+    assert outcome["status"] == "unwritten"

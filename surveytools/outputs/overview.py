@@ -23,7 +23,7 @@ from surveytools.outputs.xlsx_style import (
     print_setup,
     wrapped_lines,
 )
-from surveytools.verdict import batch_tally, data_quality_words
+from surveytools.verdict import UNWRITTEN, batch_tally, data_quality_words
 
 SHEET_OVERVIEW = "Overview"
 SHEET_SKIPPED = "Skipped"
@@ -93,6 +93,8 @@ OVERVIEW_COLUMNS: tuple[tuple[str, float], ...] = (
 def _conditions_text(item: Mapping[str, Any]) -> str:
     if item.get("status") == "unreadable":
         return f"could not be read: {item.get('reason') or 'see the results JSON'}"
+    if item.get("status") == UNWRITTEN:
+        return f"results not written: {item.get('reason') or 'see overview.json'}"
     verdict = item.get("verdict") or {}
     warnings = list(verdict.get("warnings_affecting_figures") or [])
     return "; ".join(str(w.get("message") or w.get("code")) for w in warnings) or "none found"
@@ -128,6 +130,8 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
     counts.update(tally)
     words = {"ok": "data ok", "warnings": "data with warnings", "errors": "data with errors",
              "unreadable": "could not be read", "skipped": "skipped"}
+    if counts.get(UNWRITTEN):
+        words[UNWRITTEN] = "with results not written"
     sw.text(row, 0, f"Inputs: criteria not met at {not_met} of {len(inputs)}; "
             + ", ".join(f"{int(counts.get(k) or 0)} {w}" for k, w in words.items()),
             "bold", measure=False)
@@ -147,13 +151,14 @@ def _write_overview(sw: SheetWriter, overview: Mapping[str, Any]) -> None:
         sw.text(r, 1, item.get("position"), "wrap", measure=False)
         sw.text(r, 2, item.get("site"), "wrap", measure=False)
         outcome = verdict.get("outcome")
-        sw.text(r, 3, verdict.get("outcome_text") or ("" if status != "unreadable" else "n/a"),
+        sw.text(r, 3, verdict.get("outcome_text")
+                or ("n/a" if status in ("unreadable", UNWRITTEN) else ""),
                 {"not met": "wrap_fail", "met": "wrap_pass"}.get(str(outcome), "wrap"),
                 measure=False)
         quality = str(verdict.get("data_quality") or status)
         sw.text(r, 4, data_quality_words(quality),
                 f"wrap_{quality}" if quality in ("ok", "warnings", "errors", "unreadable")
-                else "wrap", measure=False)
+                else "wrap_unreadable" if quality == UNWRITTEN else "wrap", measure=False)
         conditions = _conditions_text(item)
         sw.text(r, 5, conditions, "wrap", measure=False)
         sw.number(r, 6, share(get(item, "coverage", "valid_fraction")), "percent1")
