@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import Any, TextIO
 
 from surveytools import __version__
+from surveytools.verdict import UNWRITTEN
 
 EXIT_OK = 0
 EXIT_DATA = 1
@@ -162,7 +163,7 @@ def _load_settings(path: Path | None) -> tuple[Any, str]:
 
 STATUS_WORDS = {"ok": "ok", "warnings": "ok with warnings", "errors": "has errors",
                 "unreadable": "could not be read",
-                "unwritten": "read, but its results could not be written",
+                UNWRITTEN: "read, but its results could not be written",
                 "skipped": "skipped", "deferred": "deferred"}
 
 
@@ -239,8 +240,8 @@ def _summary_line(counts: dict[str, int], verb: str,
     total = sum(counts.values()) - counts.get("skipped", 0)
     parts = [f"{counts.get('ok', 0)} ok", f"{counts.get('warnings', 0)} with warnings",
              f"{counts.get('errors', 0)} with errors", f"{counts.get('unreadable', 0)} unreadable"]
-    if counts.get("unwritten"):
-        parts.append(f"{counts['unwritten']} with results not written")
+    if counts.get(UNWRITTEN):
+        parts.append(f"{counts[UNWRITTEN]} with results not written")
     if counts.get("deferred"):
         parts.append(f"{counts['deferred']} deferred")
     if counts.get("skipped"):

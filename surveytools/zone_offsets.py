@@ -49,6 +49,8 @@ def utc_offsets_ms(ms: ArrayLike, tz: tzinfo) -> NDArray[np.int64]:
         return values.copy()
     block = values // BLOCK_MS
     starts = np.flatnonzero(np.r_[True, block[1:] != block[:-1]])  # runs of one hour
+    if 2 * starts.size >= values.size:  # few readings per run (unsorted, sparse): directly
+        return _looked_up(values, tz)
     first = block[starts] * BLOCK_MS
     at_start = _looked_up(first, tz)
     at_end = _looked_up(first + (BLOCK_MS - 1), tz)
