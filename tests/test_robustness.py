@@ -313,6 +313,7 @@ def test_a_column_of_day_first_timestamps_is_reported_once(tmp_path: Path) -> No
     (column,) = [f for f in outcome["findings"] if f["code"] == "timestamp-column-unreadable"]
     assert (column["row"], column["column"]) == (1, "A")
     message = column["message"]
+    assert message.startswith("column A ('Start'): ")
     assert "250 of 251 timestamps" in message and "'01/06/2026 07:00' in row 2" in message
     assert "day/month/year" in message and "ISO 8601" in message
 

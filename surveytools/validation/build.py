@@ -159,18 +159,19 @@ def _table_times(cols: _Columns, n: int, clock: tb.Clock, end_mode: bool,
             by["End"].letter))
     if key in by:
         naive = tb.column_datetimes(by[key], n)
-        letter: str | None = by[key].letter
+        column = by[key]
     elif "Date" in by and "Time" in by:
         naive = tb.combine_date_time(tb.column_dates(by["Date"], n), tb.column_times(by["Time"], n))
-        letter = by["Time"].letter
+        column = by["Time"]
     elif "Date" in by:
         naive = tb.column_datetimes(by["Date"], n)
-        letter = by["Date"].letter
+        column = by["Date"]
     else:
         return None
+    letter: str | None = column.letter
     loc = tb.localise(naive, clock)
     tb.report_time_problems(collector, cols.table.sheet, cols.table.first_data_row, letter,
-                           naive, loc, clock)
+                           naive, loc, clock, header=column.header)
     return _Times(naive, loc, letter, is_end)
 
 

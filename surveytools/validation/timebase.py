@@ -684,16 +684,17 @@ def report_time_problems(
     naive: NaiveTimes,
     loc: Localised,
     clock: Clock,
+    header: str | None = None,
 ) -> None:
     """Add ``timestamp-invalid``, ``timestamp-nonexistent`` and ``timestamp-ambiguous``.
 
     A problem shared by most of the column (every timestamp written day/month/year) is
-    reported once, as ``timestamp-column-unreadable``; per-cell findings stay for the
-    scattered rest.
+    reported once, as ``timestamp-column-unreadable``, naming the column by its letter
+    and ``header`` text; per-cell findings stay for the scattered rest.
     """
     bad = np.flatnonzero(naive.flagged)
     if bad.size:
-        bad = _report_column_wide(collector, sheet, first_row, letter, naive, bad)
+        bad = _report_column_wide(collector, sheet, first_row, letter, naive, bad, header)
     if bad.size:
         msgs = [f"{_quote(naive.raw[i])}{naive.problem[i]}" for i in bad[:collector.max_per_code]]
         collector.add_rows("timestamp-invalid", Severity.ERROR, sheet, bad + first_row,
@@ -730,7 +731,8 @@ _DAY_FIRST = re.compile(r"^\s*\d{1,2}[./-]\d{1,2}[./-]\d{2,4}\b")
 
 
 def _report_column_wide(collector: FindingCollector, sheet: str, first_row: int,
-                        letter: str | None, naive: NaiveTimes, bad: np.ndarray) -> np.ndarray:
+                        letter: str | None, naive: NaiveTimes, bad: np.ndarray,
+                        header: str | None = None) -> np.ndarray:
     """Report the column's dominant timestamp problem once; return the positions left over.
 
     The rows stay unplaced (left out) all the same; only the reporting is folded into one
@@ -749,6 +751,8 @@ def _report_column_wide(collector: FindingCollector, sheet: str, first_row: int,
     day_first = raw.str.match(_DAY_FIRST).to_numpy()
     example = f"'{str(naive.raw[same[0]])[:_MAX_QUOTE]}' in row {same[0] + first_row}"
     where = f"column {letter}" if letter else "the time column"
+    if header:
+        where += f" ('{header[:_MAX_QUOTE]}')"
     if day_first.mean() >= COLUMN_WIDE_MIN_FRACTION:
         why = ("they are written day/month/year (or month/day/year), an order that cannot be "
                "told apart for days 1-12 and is never guessed — format the column as date-time "
