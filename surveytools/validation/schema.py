@@ -104,15 +104,19 @@ def _kebab(keyword: str) -> str:
     return re.sub(r"(?<!^)(?=[A-Z])", "-", keyword).lower()
 
 
-def _message(err: ValidationError, label: str, schema: Mapping[str, Any]) -> str:
+def _message(err: ValidationError, label: str, schema: Mapping[str, Any],
+             has_sheet: bool = True) -> str:
     kw = str(err.validator)
     found = _describe(err.instance)
     if kw == "required":
         missing = re.findall(r"'([^']+)' is a required property", err.message)
         prop = missing[0] if missing else "?"
         title = schema.get("properties", {}).get(prop, {}).get("title", prop)
+        if not has_sheet:  # a CSV or Parquet log (or a workbook without a Survey sheet)
+            return (f"'{title}' is required but missing — this input has no Survey sheet, "
+                    f"so set {prop} in the [survey] table of the settings file (--settings)")
         return (f"'{title}' is required but missing — add a '{title}' row to the Survey sheet "
-                f"(or set survey.{prop} in the settings)")
+                f"(or set {prop} in the [survey] table of the settings file)")
     if kw == "type":
         return (f"{label}: expected {_expected_type(err.validator_value)}, found {found} — "
                 "enter the value in that form")
@@ -187,7 +191,9 @@ def validate_survey(
             instance[key] = _normalise(key, value)
             origin[key] = _Origin(entry, sheet_name)
 
-    def fill_default(key: str, why: str = "not given on the Survey sheet") -> None:
+    def fill_default(key: str, why: str = ("not given on the Survey sheet" if sheet is not None
+                                           else "not given: this input has no Survey sheet")
+                     ) -> None:
         default = getattr(defaults, key, None)
         if default is None:
             return
@@ -216,7 +222,7 @@ def validate_survey(
             label = f"{label} (settings value)"
         collector.add(Finding(
             f"survey-{_kebab(str(err.validator))}", Severity.ERROR,
-            _message(err, label, schema),
+            _message(err, label, schema, has_sheet=sheet is not None),
             sheet_name if (src is not None or key is None) else None,
             src.row if src is not None else None,
             src.value_column if src is not None else None))

@@ -106,3 +106,18 @@ def test_case_tolerant_enumerations():
     assert s.findings == []
     assert (s.metadata["clock"], s.metadata["time_zone"], s.metadata["microphone"]) == (
         "local", "UTC+01:00", "facade")
+
+
+def test_a_log_without_survey_sheet_is_told_to_use_the_settings():
+    # a CSV or Parquet log has no Survey sheet: the fix named is the settings' [survey]
+    # table, never a row of a sheet the input does not have
+    from validation_builders import SOURCE
+
+    from surveytools.inputs.raw import RawWorkbook
+    from surveytools.validation import build_survey
+
+    wb = RawWorkbook(SOURCE, readings(STARTS, [50.0, 51.0]), None)
+    s = build_survey(wb, Settings())
+    (message,) = [f.message for f in s.findings if f.code == "survey-required"]
+    assert "no Survey sheet" in message and "[survey] table of the settings file" in message
+    assert "row to the Survey sheet" not in message
