@@ -16,7 +16,8 @@ mid-write) is ignored on reading and the next append starts on a fresh line.
 once per new alert line with that line on standard input, with a time limit; a program
 that fails, is missing or overruns is reported and never stops the batch or the watch.
 
-Standard library only: this runs in the batch's parent process.
+Standard library only (and the small surveytools.errors): this runs in the batch's parent
+process.
 """
 
 from __future__ import annotations
@@ -30,6 +31,8 @@ from contextlib import contextmanager
 from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
+
+from surveytools.errors import os_reason
 
 #: Name of the ledger in the output folder.
 ALERTS_NAME = "alerts.jsonl"
@@ -226,7 +229,7 @@ def run_on_alert(argv: list[str], alert: Alert, timeout_s: float = ON_ALERT_TIME
                 "it was stopped — make it return sooner or raise --on-alert-timeout")
     except OSError as exc:
         return (f"alert program {name} could not be started for {where} "
-                f"({exc.strerror or type(exc).__name__}) — check the path and that it is "
+                f"({os_reason(exc)}) — check the path and that it is "
                 "executable")
     if done.returncode != 0:
         said = done.stderr.decode("utf-8", errors="replace").strip()[:_ERROR_TEXT_CHARS]

@@ -24,6 +24,7 @@ from pathlib import Path
 from typing import Any
 
 from surveytools import __version__
+from surveytools.errors import os_reason
 from surveytools.inputs.kinds import CSV_SUFFIXES, PARQUET_SUFFIXES, WORKBOOK_SUFFIXES
 from surveytools.verdict import UNWRITTEN
 
@@ -135,6 +136,12 @@ def _skip_reason(name: str) -> str | None:
     return None
 
 
+def missing_path_reason(exc: OSError) -> str:
+    """Return why a named path cannot be read, in our words (never the system's text)."""
+    hint = "; check the spelling of the path" if exc.errno == errno.ENOENT else ""
+    return f"cannot be read: {os_reason(exc)}{hint}"
+
+
 def discover(paths: list[Path]) -> tuple[list[Candidate], list[Skipped]]:
     """Expand files and folders into input candidates; everything else is reported skipped."""
     found: list[Candidate] = []
@@ -145,7 +152,7 @@ def discover(paths: list[Path]) -> tuple[list[Candidate], list[Skipped]]:
         try:
             st = os.lstat(p)
         except OSError as exc:
-            skipped.append(Skipped(str(p), "path-missing", f"cannot be read: {exc.strerror}"))
+            skipped.append(Skipped(str(p), "path-missing", missing_path_reason(exc)))
             return
         if stat.S_ISLNK(st.st_mode):
             skipped.append(Skipped(str(p), "not-regular-file",
@@ -171,7 +178,7 @@ def discover(paths: list[Path]) -> tuple[list[Candidate], list[Skipped]]:
         try:
             is_dir = stat.S_ISDIR(os.lstat(root).st_mode)
         except OSError as exc:
-            skipped.append(Skipped(str(root), "path-missing", f"cannot be read: {exc.strerror}"))
+            skipped.append(Skipped(str(root), "path-missing", missing_path_reason(exc)))
             continue
         if is_dir:
             with os.scandir(root) as it:
@@ -280,7 +287,7 @@ def describe_write_fault(exc: OSError) -> tuple[str, str]:
     """Return (finding code, reason in our words) for a failed write into the output folder."""
     if exc.errno in _WRITE_FAULTS:
         return _WRITE_FAULTS[exc.errno]
-    return "output-not-writable", (exc.strerror or "the system refused the write").lower()
+    return "output-not-writable", os_reason(exc)
 
 
 def write_failure(path: Path, out_dir: Path, exc: OSError) -> dict[str, Any]:
@@ -783,7 +790,7 @@ def raise_alerts(options: BatchOptions, out_dir: Path, result: BatchResult) -> N
     except OSError as exc:
         result.alert_problems.append(
             f"the alert ledger {out_dir / ALERTS_NAME} could not be written "
-            f"({exc.strerror or type(exc).__name__}); new episodes are in the results files")
+            f"({os_reason(exc)}); new episodes are in the results files")
         return
     if options.on_alert:
         for alert in result.alerts:

@@ -8,6 +8,39 @@ safely, or a settings file that is not valid.
 
 from __future__ import annotations
 
+import errno
+
+#: Why the system refused a file operation, by errno, in our words (the system's own text
+#: differs between platforms and languages, and is never shown).
+_OS_REASONS = {
+    errno.ENOENT: "there is no such file or folder",
+    errno.ENOTDIR: "part of the path is a file, not a folder",
+    errno.EISDIR: "it is a folder, not a file",
+    errno.EACCES: "you have no permission to use it",
+    errno.EPERM: "you have no permission to use it",
+    errno.ENAMETOOLONG: "the path is too long",
+    errno.ELOOP: "its symbolic links go round in a loop",
+    errno.ENOSPC: "the disk is full",
+    errno.EDQUOT: "your disk quota is used up",
+    errno.EROFS: "the file system is read-only",
+    errno.EIO: "the disk or device reported an error",
+    errno.EMFILE: "too many files are open at once",
+    errno.ENOEXEC: "it is not a program this system can run",
+    errno.ETXTBSY: "it is busy (being written)",
+}
+
+
+def os_reason(exc: OSError) -> str:
+    """Return why the system refused a file operation, in our words.
+
+    >>> os_reason(FileNotFoundError(errno.ENOENT, "No such file or directory"))
+    'there is no such file or folder'
+    """
+    reason = _OS_REASONS.get(exc.errno or 0)
+    if reason is not None:
+        return reason
+    return f"the system refused (error {exc.errno})" if exc.errno else "the system refused"
+
 
 class SurveyToolsError(Exception):
     """Base class of every error surveytools raises on purpose."""

@@ -13,7 +13,7 @@ import json
 from pathlib import Path
 from typing import Any, TextIO
 
-from surveytools.errors import SurveyToolsError
+from surveytools.errors import SurveyToolsError, os_reason
 
 #: Keys that may legitimately differ between the recorded and the recomputed document.
 NOT_COMPARED = {("input", "path"), ("provenance",), ("weather_file", "path")}
@@ -98,7 +98,7 @@ def verify_results(results_path: Path, input_path: Path | None = None
     try:
         recorded = json.loads(results_path.read_text(encoding="utf-8"))
     except OSError as exc:
-        raise SurveyToolsError(f"{results_path}: cannot be read ({exc.strerror or 'refused'}); "
+        raise SurveyToolsError(f"{results_path}: cannot be read ({os_reason(exc)}); "
                                "check the path") from exc
     except json.JSONDecodeError as exc:
         raise SurveyToolsError(f"{results_path}: not a results file (not JSON at line "

@@ -44,6 +44,9 @@ def test_discover_reports_a_missing_explicit_path(tmp_path: Path) -> None:
     found, skipped = discover([tmp_path / "absent.xlsx"])
     assert found == []
     assert [s.code for s in skipped] == ["path-missing"]
+    # in our words, never the system's ("No such file or directory")
+    assert skipped[0].reason == ("cannot be read: there is no such file or folder; check the "
+                                 "spelling of the path")
 
 
 def test_a_file_still_growing_is_deferred_not_failed(tmp_path: Path) -> None:

@@ -42,7 +42,7 @@ from xml.parsers import expat
 
 from surveytools import constants as const
 from surveytools.debuglog import log_raw
-from surveytools.errors import WorkbookError
+from surveytools.errors import WorkbookError, os_reason
 
 _MB = 1_000_000
 
@@ -276,7 +276,7 @@ def _check_file(path: str, lim: PreflightLimits) -> bytes:
     try:
         st = Path(path).stat()
     except OSError as exc:
-        raise WorkbookError("file-not-regular", f"The file cannot be opened ({exc.strerror}). "
+        raise WorkbookError("file-not-regular", f"The file cannot be opened ({os_reason(exc)}). "
                             "Check the path and the permissions.") from exc
     if not stat.S_ISREG(st.st_mode):
         raise WorkbookError("file-not-regular", "This is not a regular file (a folder, pipe or "

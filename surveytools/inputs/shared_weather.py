@@ -16,7 +16,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from surveytools.errors import WorkbookError
+from surveytools.errors import WorkbookError, os_reason
 from surveytools.inputs.kinds import CSV_SUFFIXES
 from surveytools.inputs.raw import KeyValueSheet, RawTable
 from surveytools.provenance import SourceInfo
@@ -93,7 +93,7 @@ def read_weather_file(path: Path, settings: Settings) -> WeatherFile:
     except WorkbookError as exc:
         return _unusable(path, exc.message)
     except OSError as exc:
-        return _unusable(path, exc.strerror or type(exc).__name__)
+        return _unusable(path, os_reason(exc))
     if raw.weather is None:
         return _unusable(path, "it has no weather table (a sheet named 'Weather' with a "
                                "Start column)")

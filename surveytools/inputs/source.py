@@ -7,7 +7,7 @@ import os
 import stat
 from pathlib import Path
 
-from surveytools.errors import WorkbookError
+from surveytools.errors import WorkbookError, os_reason
 from surveytools.provenance import SourceInfo
 
 
@@ -25,7 +25,7 @@ def source_info(path: str | os.PathLike[str]) -> SourceInfo:
     try:
         fd = os.open(p, flags)
     except OSError as exc:
-        raise WorkbookError("file-unreadable", f"Cannot open the file ({exc.strerror}); check "
+        raise WorkbookError("file-unreadable", f"Cannot open the file ({os_reason(exc)}); check "
                             "that it exists and that you may read it.") from exc
     try:
         st = os.fstat(fd)

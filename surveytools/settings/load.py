@@ -17,7 +17,7 @@ from pathlib import Path
 from typing import Any
 
 from surveytools import constants as C  # noqa: N812
-from surveytools.errors import SettingsError
+from surveytools.errors import SettingsError, os_reason
 from surveytools.settings._parse import Problem, drop_none, key_path, show
 from surveytools.settings.root import Settings, build_settings
 from surveytools.settings.schema_check import schema_problems
@@ -181,7 +181,7 @@ def _read_settings_bytes(p: Path, label: str) -> bytes:
     try:
         fd = os.open(p, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
     except OSError as exc:
-        raise SettingsError(f"{label}: cannot read the settings file ({exc.strerror or exc}); "
+        raise SettingsError(f"{label}: cannot read the settings file ({os_reason(exc)}); "
                             "check the path given to --settings") from exc
     st = os.fstat(fd)
     if not stat.S_ISREG(st.st_mode):
@@ -197,7 +197,7 @@ def _read_settings_bytes(p: Path, label: str) -> bytes:
             raw = fh.read(C.SETTINGS_MAX_BYTES + 1)
         except OSError as exc:
             raise SettingsError(f"{label}: cannot read the settings file "
-                                f"({exc.strerror or exc})") from exc
+                                f"({os_reason(exc)})") from exc
     if len(raw) > C.SETTINGS_MAX_BYTES:  # it grew while being read
         raise SettingsError(_too_large(label, len(raw)))
     return raw
