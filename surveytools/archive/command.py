@@ -165,6 +165,10 @@ def execute_report(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             started.close()
     for line in doc["problems"]:
         out.write(f"problem: {line}\n")
+    reported = {section["position"] for section in doc["positions"]}
+    for position in options.positions:
+        if position not in reported:
+            out.write(f"note: position {position}: no stored readings in the date range\n")
     out.write(f"Archive report of {len(doc['positions'])} positions "
               f"({doc['engine']['partitions']} partitions): "
               f"{', '.join(str(p) for p in paths)}\n")

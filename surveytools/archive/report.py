@@ -636,6 +636,7 @@ def build_report(options: ReportOptions,
 
     try:
         records = read_records(options.archive)
+        _check_positions(options.positions, records)
         tasks, cautions = partition_tasks(options.archive, records, options)
     except BaseException:
         if started is not None:
@@ -666,6 +667,28 @@ def build_report(options: ReportOptions,
         "problems": problems,
         "cautions": [*cautions_lines(), *cautions],
     }
+
+
+def _check_positions(wanted: tuple[str, ...], records: list[IngestRecord]) -> None:
+    """Refuse a ``--position`` the archive has never stored (most likely a typing slip).
+
+    Raises
+    ------
+    ArchiveError
+        Naming the position, the positions stored and the closest one.
+    """
+    import difflib
+
+    known = sorted({r.position for r in records
+                    if r.position and r.status in ("stored", "replaced")})
+    for position in wanted:
+        if position in known:
+            continue
+        close = difflib.get_close_matches(position, known, n=1)
+        hint = f"; did you mean '{close[0]}'?" if close else ""
+        shown = ", ".join(known[:20]) + (", ..." if len(known) > 20 else "") or "none"
+        raise ArchiveError(f"--position {position}: this archive has stored no readings of a "
+                           f"position of that name (positions stored: {shown}){hint}")
 
 
 def parse_date(text: str, option: str) -> date:

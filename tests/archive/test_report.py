@@ -145,9 +145,20 @@ def test_date_range_and_position_filter(july_archive, tmp_path):
     (july,) = mast["months"]
     assert (july["from"], july["to"], july["days_with_data"]) == ("2026-07-10", "2026-07-19", 10)
     assert july["coverage"]["day"] == 1.0
-    other = _report(archive, tmp_path / "none", "--position", "Elsewhere")
-    assert other["positions"] == []
-    assert any("Elsewhere" in c for c in other["cautions"])
+    # a stored position with no readings in the range: an empty report that says so
+    code, stdout, err = cli("archive", "report", str(archive), "-o", str(tmp_path / "none"),
+                            "--workers", "1", "--quiet", "--position", "Mast",
+                            "--from", "2027-01-01")
+    assert code == 0, err
+    assert "note: position Mast: no stored readings in the date range" in stdout
+    other = json.loads((tmp_path / "none" / "archive-report.json").read_text(encoding="utf-8"))
+    assert other["positions"] == [] and any("Mast" in c for c in other["cautions"])
+    # a position the archive never stored (a typing slip) is refused before any work
+    code, stdout, err = cli("archive", "report", str(archive), "-o", str(tmp_path / "typo"),
+                            "--workers", "1", "--quiet", "--position", "mast")
+    assert code == 2 and not (tmp_path / "typo").exists()
+    assert "--position mast: this archive has stored no readings" in err
+    assert "positions stored: Mast" in err and "did you mean 'Mast'?" in err
 
 
 def test_report_of_a_folder_without_an_archive_is_refused(tmp_path):
