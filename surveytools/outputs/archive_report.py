@@ -21,7 +21,6 @@ from surveytools.outputs.atomic import atomic_write_text
 from surveytools.outputs.results_json import dumps_results
 from surveytools.outputs.xlsx_style import (
     FIXED_CREATED,
-    HEADER_LINE_HEIGHT_PT,
     WORKBOOK_OPTIONS,
     SheetWriter,
     Styles,
@@ -64,7 +63,6 @@ def _table(sw: SheetWriter, top: int, headers: Sequence[str],
            rows: Sequence[Sequence[tuple[str, object]]]) -> int:
     """Write a header and rows of (kind, value) cells; return the next free row."""
     sw.header(top, 0, headers)
-    sw.ws.set_row(top, 2 * HEADER_LINE_HEIGHT_PT)  # headers wrap onto two lines
     sw.ws.freeze_panes(top + 1, 1)
     for i, cells in enumerate(rows):
         r = top + 1 + i
@@ -80,6 +78,7 @@ def _table(sw: SheetWriter, top: int, headers: Sequence[str],
     if rows:
         sw.ws.autofilter(top, 0, top + len(rows), len(headers) - 1)
     sw.fit_columns()
+    sw.header_height(top, 0, headers)  # tall enough for each header in its final width
     return top + len(rows) + 1
 
 
@@ -184,6 +183,14 @@ def _write_criteria(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
     _table(sw, 0, headers, rows)
 
 
+#: Sheet rows of one position's pair of charts (300 px charts and a gap; own choice).
+CHART_BLOCK_ROWS = 16
+#: Pairs of charts per printed A4 landscape page (the sheet is scaled to the page width).
+#: Own choice, looked at in LibreOffice: three blocks fit with under a tenth of a page to
+#: spare and a fourth was cut in two; two leave room for another program's rendering.
+CHART_BLOCKS_PER_PAGE = 2
+
+
 def _write_charts(wb: Any, sw: SheetWriter, doc: Mapping[str, Any], months_name: str,
                   years_name: str) -> None:
     """One chart of monthly and one of yearly Lden / Lnight per position (native charts)."""
@@ -191,7 +198,10 @@ def _write_charts(wb: Any, sw: SheetWriter, doc: Mapping[str, Any], months_name:
     month_row = year_row = 1  # first data row of each position on its sheet
     top = 2
     lden_col, lnight_col = 4 + 3, 4 + 2  # Position, label, From, To, Lday, Levening, ...
-    for position in doc.get("positions") or []:
+    breaks: list[int] = []
+    for k, position in enumerate(doc.get("positions") or []):
+        if k and k % CHART_BLOCKS_PER_PAGE == 0:
+            breaks.append(top)  # a printed page ends between positions, never in a chart
         n_months = len(position.get("months") or [])
         n_years = len(position.get("years") or [])
         for name, sheet, first, count, kind in (
@@ -213,9 +223,11 @@ def _write_charts(wb: Any, sw: SheetWriter, doc: Mapping[str, Any], months_name:
             chart.set_legend({"position": "bottom"})
             chart.set_size({"width": 620, "height": 300})
             sw.ws.insert_chart(top, 0 if kind == "line" else 10, chart)
-        top += 16
+        top += CHART_BLOCK_ROWS
         month_row += n_months
         year_row += n_years
+    if breaks:
+        sw.ws.set_h_pagebreaks(breaks)
 
 
 def write_archive_workbook(path: Path, doc: Mapping[str, Any]) -> None:

@@ -77,6 +77,12 @@ def test_report_workbook_has_every_sheet_and_the_cautions(demo_dir, demo_archive
                     if c.value)
     assert "indicative" in text and "competent person" in text and "hearing" in text
     assert len(book["Charts"]._charts) == 8  # months and years of four positions
+    # printed pages end between positions, never inside a chart (two positions a page; a
+    # third-position page break fell inside the fourth position's charts before)
+    assert [b.id for b in book["Charts"].row_breaks.brk] == [2 + 2 * 16]
+    # the header row is tall enough for "Days with data" wrapped onto three lines in its
+    # narrow column (a fixed two-line row cut "data" off, seen in LibreOffice's print)
+    assert book["Years"].row_dimensions[1].height > 2 * 15.0
     days = list(book["Days"].iter_rows(values_only=True))
     assert days[0][:3] == ("Position", "Date", "Lday [dB]")
     # header + assessment days of KL-1 (8), KL-2 (8), KL-3 (1), KL-4 (22nd to 25th: 4)
