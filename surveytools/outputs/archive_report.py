@@ -180,7 +180,14 @@ def _write_criteria(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
                          ("int", item.get("checked")), ("int", item.get("above")),
                          ("int", item.get("above_with_sufficient_coverage")),
                          ("text", item.get("first_above")), ("text", item.get("last_above"))])
-    _table(sw, 0, headers, rows)
+    end = _table(sw, 0, headers, rows)
+    if not rows:  # say why the table is empty, and how to fill it
+        set_ = (doc.get("settings") or {}).get("criteria")
+        sw.text(end + 1, 0, "No criteria were counted: the report's settings hold no "
+                "[[criteria]] of days or reporting intervals. Give the settings file with "
+                "the limits to judge (--settings FILE) to count the days and intervals "
+                "above them." if not set_ else "No criteria were counted: no position had "
+                "a figure the criteria of the settings could judge.", "note", measure=False)
 
 
 #: Sheet rows of one position's pair of charts (300 px charts and a gap; own choice).

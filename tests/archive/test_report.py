@@ -159,6 +159,10 @@ def test_date_range_and_position_filter(july_archive, tmp_path):
     assert "note: position Mast: no stored readings in the date range" in stdout
     other = json.loads((tmp_path / "none" / "archive-report.json").read_text(encoding="utf-8"))
     assert other["positions"] == [] and any("Mast" in c for c in other["cautions"])
+    # without criteria in the settings the Criteria sheet says why it is empty
+    criteria = openpyxl.load_workbook(tmp_path / "none" / "archive-report.xlsx")["Criteria"]
+    notes = [c.value for row in criteria.iter_rows(min_row=2) for c in row if c.value]
+    assert any("No criteria were counted" in str(n) and "--settings" in str(n) for n in notes)
     # a position the archive never stored (a typing slip) is refused before any work
     code, stdout, err = cli("archive", "report", str(archive), "-o", str(tmp_path / "typo"),
                             "--workers", "1", "--quiet", "--position", "mast")
