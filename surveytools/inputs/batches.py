@@ -145,8 +145,7 @@ class LogBatches:
         for k, (header, letter, name) in enumerate(self.columns):
             arr = table.column(k)
             if self.kind == "parquet":
-                raw_columns.append(_column(arr, header, letter, name or header,
-                                           self.settings))
+                raw_columns.append(_column(arr, header, letter, name or header))
                 continue
             col = _plain_numbers(arr, header, letter, name) or _plain_times(
                 arr, header, letter, name)

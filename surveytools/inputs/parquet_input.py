@@ -4,8 +4,8 @@ The file holds one readings table whose column names are headers of the readings
 vocabulary (canonical names such as ``Start``, ``Duration``, ``LAeq``, ``LAFmax``, or any
 accepted spelling, or a ``column_map`` entry of the settings). Columns with another name
 are ignored. Types: time stamps as Parquet timestamps (wall-clock times of the position's
-``clock``; a timestamp column with a time zone is accepted only with ``clock = "UTC"`` in
-the settings and is then read in UTC) or ISO 8601 text; levels and durations as numbers
+``clock``; a timestamp column with a time zone holds instants, read as such whatever the
+clock, as ISO text with an offset is) or ISO 8601 text; levels and durations as numbers
 (or text, checked as in a CSV file); ``Overload`` / ``Operating`` as booleans or yes/no
 text. As for CSV, the survey facts (position, site, time zone, clock) come from the
 settings' ``[survey]`` table.
@@ -89,7 +89,7 @@ def _check_extent(parquet: Any, chosen: list[tuple[int, str, str]]) -> None:
                       "Split the log into several files (by month).")
 
 
-def _column(arr: Any, header: str, letter: str, name: str, settings: Settings) -> RawColumn:
+def _column(arr: Any, header: str, letter: str, name: str) -> RawColumn:
     import pyarrow as pa
     import pyarrow.compute as pc
 
@@ -102,12 +102,8 @@ def _column(arr: Any, header: str, letter: str, name: str, settings: Settings) -
     if pa.types.is_dictionary(typ):
         arr = arr.dictionary_decode()
         typ = arr.type
-    if pa.types.is_timestamp(typ) and typ.tz is not None:
-        if str(settings.survey.clock).upper() != "UTC":
-            raise _refuse(f"Column {header!r} holds time stamps with the time zone "
-                          f"{typ.tz!r}; set clock = \"UTC\" in the settings' [survey] table "
-                          "(they are then read in UTC), or store wall-clock times without a "
-                          "time zone.")
+    zoned = pa.types.is_timestamp(typ) and typ.tz is not None
+    if zoned:  # instants: read in UTC, whatever the clock (like ISO text with an offset)
         arr = pc.cast(arr, pa.timestamp("ms", tz="UTC")).cast(pa.timestamp("ms"))
     if pa.types.is_string(typ) or pa.types.is_large_string(typ):
         import pandas as pd
@@ -117,7 +113,9 @@ def _column(arr: Any, header: str, letter: str, name: str, settings: Settings) -
     if (pa.types.is_timestamp(arr.type) or pa.types.is_date(arr.type)
             or pa.types.is_floating(arr.type) or pa.types.is_integer(arr.type)
             or pa.types.is_boolean(arr.type) or pa.types.is_null(arr.type)):
-        return arrow_to_column(arr, header, letter, 1900)
+        column = arrow_to_column(arr, header, letter, 1900)
+        column.utc = zoned
+        return column
     raise _refuse(f"Column {header!r} has the Parquet type {typ}, which is not a time stamp, "
                   "number, yes/no or text; store it as one of those.")
 
@@ -130,7 +128,7 @@ def read_parquet_table(path: str | Path, settings: Settings | None = None) -> Ra
     path : str or Path
         The Parquet file (read-only).
     settings : Settings, optional
-        Uses ``settings.column_map`` and ``settings.survey.clock``.
+        Uses ``settings.column_map``.
 
     Returns
     -------
@@ -141,7 +139,7 @@ def read_parquet_table(path: str | Path, settings: Settings | None = None) -> Ra
     ------
     WorkbookError
         ``file-empty``, ``file-too-large`` or ``parquet-unreadable`` (damaged, too many
-        rows, a column of an unusable type, zoned time stamps without a UTC clock).
+        rows, a column of an unusable type).
     """
     settings = settings or Settings()
     p = Path(path)
@@ -170,7 +168,7 @@ def read_parquet_table(path: str | Path, settings: Settings | None = None) -> Ra
     except Exception as exc:  # damaged pages, failed decompression
         raise _refuse("The Parquet file's data could not be read (a damaged page or an "
                       "unsupported encoding). Export it again.") from exc
-    columns = [_column(table.column(k), header, column_letters(j + 1), name, settings)
+    columns = [_column(table.column(k), header, column_letters(j + 1), name)
                for k, (j, header, name) in enumerate(chosen)]
     table = None
     return RawWorkbook(source=source, readings=RawTable(sheet, 1, columns,

@@ -52,6 +52,9 @@ class RawColumn:
         Cells holding a spreadsheet error value (``"#DIV/0!"``), by position.
     formula_without_value : set of int
         Positions of formula cells that carry no cached value (the value is treated as empty).
+    utc : bool
+        The date-times are instants in UTC, not wall-clock times (a Parquet timestamp with a
+        time zone): read as such whatever the clock, as ISO text with an offset is.
     """
 
     header: str
@@ -61,6 +64,7 @@ class RawColumn:
     text_cells: dict[int, str] = field(default_factory=dict)
     error_cells: dict[int, str] = field(default_factory=dict)
     formula_without_value: set[int] = field(default_factory=set)
+    utc: bool = False
 
 
 @dataclass

@@ -360,6 +360,9 @@ def column_datetimes(col: RawColumn, n: int) -> NaiveTimes:
         out.ms[good] = ms[good]
         out.ok[good] = True
         out.empty[present] = False
+        if col.utc:  # instants in UTC (a zoned Parquet timestamp): the clock does not apply
+            out.has_offset[good] = True
+            out.offset_s[good] = 0
         pos = np.flatnonzero(early)
         out.fail(pos, "the cell holds a time of day without a date (or a date before "
                  "1900-03-01) — enter the full date and time", format_naive_ms(ms[pos]))

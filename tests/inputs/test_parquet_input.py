@@ -86,19 +86,29 @@ def test_text_time_stamps_and_findings_are_located(tmp_path):
     assert ("t", 5, "A") in located  # row 2 is the first reading, as in a CSV file
 
 
-def test_zoned_time_stamps_need_a_utc_clock(tmp_path):
+@pytest.mark.parametrize("zone", ["UTC", "Asia/Tokyo"])
+@pytest.mark.parametrize("clock", ["local", "UTC", "UTC+05:00"])
+def test_zoned_time_stamps_are_instants_whatever_the_clock(tmp_path, monkeypatch, zone,
+                                                            clock):
+    # A timestamp with a time zone names instants (Apache Parquet logical type TIMESTAMP,
+    # isAdjustedToUTC = true): 07:00 UTC stays 07:00 UTC whichever clock the settings give
+    # (as ISO text with an offset does) and whichever zone the column is labelled with.
+    from surveytools import long_log
+
     data = _log(120)
-    zoned = pa.array(data["Start"]).cast(pa.timestamp("ms", tz="UTC"))
+    zoned = pa.array(data["Start"]).cast(pa.timestamp("ms", tz=zone))
     path = _write_parquet(tmp_path / "z.parquet", {**data, "Start": zoned})
-    with pytest.raises(WorkbookError) as info:
-        read_parquet_table(path, SETTINGS)
-    assert info.value.code == "parquet-unreadable" and 'clock = "UTC"' in info.value.message
-    utc = settings_from_mapping({"survey": {"position": "Yard", "clock": "UTC",
-                                            "time_zone": "Europe/Berlin"}})
-    doc, _ = build_document(path, utc)
-    # the same instant, whichever clock the output shows it in
+    settings = settings_from_mapping({"survey": {"position": "Yard", "clock": clock,
+                                                 "time_zone": "Europe/Berlin"}})
+    doc, _ = build_document(path, settings)
     first = datetime.fromisoformat(doc["coverage"]["first"])
     assert first == datetime(2026, 7, 1, 7, 0, tzinfo=UTC)
+    # and the same through the batch reader of long logs
+    monkeypatch.setattr(long_log, "STREAM_PARQUET_ROWS", 50)
+    monkeypatch.setattr(long_log, "BATCH_ROWS", 60)
+    batched, _ = build_document(path, settings)
+    assert datetime.fromisoformat(batched["coverage"]["first"]) == first
+    assert batched["overall"]["LAeq"] == doc["overall"]["LAeq"]
 
 
 def test_unusable_files_are_refused_with_a_code(tmp_path, monkeypatch):
