@@ -112,12 +112,15 @@ def _assume_time_zone(metadata: dict[str, Any], settings: Settings,
                      "are not recognised (an autumn hour repeats as duplicate times)")
     else:
         what = f"the site is assumed to keep the meter's {zone} all year (no summer time)"
+    where = ("as 'Time zone' on the Survey sheet" if sheet is not None else
+             "as time_zone in the [survey] table of the settings file (this input has no "
+             "Survey sheet)")
     collector.add(Finding(
         "time-zone-assumed", Severity.WARNING,
         f"no time zone was given (Survey sheet 'Time zone' or survey.time_zone in the "
         f"settings); {what}. Periods (day/evening/night), assessment days and every local "
         "time shown follow that assumption — enter the site's time zone, an IANA name such "
-        "as Europe/London, as 'Time zone' on the Survey sheet", sheet))
+        f"as Europe/London, {where}", sheet))
     return True
 
 
@@ -228,7 +231,8 @@ def build_survey(raw: RawWorkbook, settings: Settings,
         site_zone = tb.parse_site_zone(str(metadata["time_zone"]))
     except ValueError:  # reported by validate_survey / _clock; UTC keeps the run going
         site_zone = tb.parse_site_zone("UTC")
-    drift_excess = ck.check_calibration(metadata, locations, settings.calibration, collector)
+    drift_excess = ck.check_calibration(metadata, locations, settings.calibration, collector,
+                                        has_sheet=raw.survey is not None)
 
     table = raw.readings
     sheet_name = table.sheet if table is not None else "Readings"

@@ -588,7 +588,7 @@ Location = tuple[str | None, int | None, str | None]
 
 def check_calibration(
     metadata: Mapping[str, object], locations: Mapping[str, Location], rules: Calibration,
-    collector: FindingCollector,
+    collector: FindingCollector, has_sheet: bool = True,
 ) -> bool:
     """Check field calibration values; return True when drift exceeds the limit.
 
@@ -604,11 +604,16 @@ def check_calibration(
                                         ("Calibration after (dB)", after))
                    if not isinstance(v, int | float)]
         sheet = next((loc[0] for loc in locations.values() if loc[0]), None)
-        collector.add(Finding(
-            "calibration-missing", Severity.WARNING,
-            f"no valid {' and '.join(missing)} on the Survey sheet, so calibration drift "
-            "cannot be checked — enter the calibrator readings taken before and after",
-            sheet))
+        if has_sheet:
+            text = (f"no valid {' and '.join(missing)} on the Survey sheet, so calibration "
+                    "drift cannot be checked — enter the calibrator readings taken before "
+                    "and after")
+        else:
+            text = (f"no valid {' and '.join(missing)} given, so calibration drift cannot be "
+                    "checked — this input has no Survey sheet: give the calibrator readings "
+                    "taken before and after as calibration_before_db and "
+                    "calibration_after_db in the [survey] table of the settings file")
+        collector.add(Finding("calibration-missing", Severity.WARNING, text, sheet))
     else:
         drift = float(after) - float(before)
         # round to 0.001 dB so that binary representation (94.5 - 94.0) does not decide

@@ -191,15 +191,18 @@ def validate_survey(
             instance[key] = _normalise(key, value)
             origin[key] = _Origin(entry, sheet_name)
 
-    def fill_default(key: str, why: str = ("not given on the Survey sheet" if sheet is not None
-                                           else "not given: this input has no Survey sheet")
-                     ) -> None:
+    from_settings: list[str] = []  # without a Survey sheet: told once, in one finding
+
+    def fill_default(key: str, why: str = "not given on the Survey sheet") -> None:
         default = getattr(defaults, key, None)
         if default is None:
             return
         instance[key] = default
         origin[key] = _Origin(None, None)
         title = props.get(key, {}).get("title", key)
+        if sheet is None:
+            from_settings.append(f"{title} {default!r}")
+            return
         collector.add(Finding(
             "survey-default-used", Severity.INFO,
             f"'{title}' {why}; the settings value {default!r} is used",
@@ -208,6 +211,11 @@ def validate_survey(
     for key in _DEFAULT_KEYS:
         if key not in instance:
             fill_default(key)
+    if from_settings:
+        collector.add(Finding(
+            "survey-default-used", Severity.INFO,
+            "this input has no Survey sheet; its survey facts come from the settings: "
+            + ", ".join(from_settings), sheet_name))
 
     rejected: set[str] = set()
     errors = sorted(validator(SURVEY_SCHEMA).iter_errors(instance),

@@ -121,3 +121,12 @@ def test_a_log_without_survey_sheet_is_told_to_use_the_settings():
     (message,) = [f.message for f in s.findings if f.code == "survey-required"]
     assert "no Survey sheet" in message and "[survey] table of the settings file" in message
     assert "row to the Survey sheet" not in message
+    by_code = {f.code: f.message for f in s.findings}
+    assert "calibration_before_db" in by_code["calibration-missing"]
+    assert "[survey] table of the settings file" in by_code["time-zone-assumed"]
+    # the facts that do come from the settings are told once, not one finding each
+    given = Settings(survey=SurveyDefaults(position="MP-7", time_zone="Europe/Berlin"))
+    told = [f.message for f in build_survey(wb, given).findings
+            if f.code == "survey-default-used"]
+    assert told == ["this input has no Survey sheet; its survey facts come from the "
+                    "settings: Position 'MP-7', Time zone 'Europe/Berlin', Clock 'local'"]
