@@ -1,7 +1,9 @@
 """The Readings sheet: every reading with every level column read and its exclusion reason.
 
 The levels are the values as read (not rounded), so each row can be checked against the
-input and the sheet filtered by reason; nothing is dropped.
+input and the sheet filtered by reason; nothing is dropped. A long table is on screen
+whole, but only its first rows are in the print area (a week at 1 min would print some
+300 pages of raw readings); the sheet's note says so and how to print every row.
 """
 
 from __future__ import annotations
@@ -17,6 +19,11 @@ SHEET_READINGS = "Readings"
 
 #: Prefix of the canonical band column names (``LZeq_1000Hz``).
 _BAND = "LZeq_"
+
+#: Readings printed whole up to this many rows (about five pages; own choice).
+PRINT_ALL_MAX_ROWS = 200
+#: Rows in the print area of a longer table: a first page as a sample (own choice).
+PRINT_SAMPLE_ROWS = 25
 
 _FIXED = {"row": "Row", "duration_s": "Duration [s]", "overload": "Overload",
           "operating": "Operating", "note": "Note", "reason": "Exclusion reason"}
@@ -38,13 +45,17 @@ def add(book: Book) -> None:
     left_out = (f" The {len(bands)} band levels of each reading are not repeated here for a "
                 "log this long (the input holds them; the Spectra sheet has the spectra; "
                 "run with --readings to write them too)." if bands_left_out else "")
-    sw.text(0, 0, "Every row of the input's readings sheet with the levels as read and its "
-                  "exclusion reason (empty = valid). " + d.offset_note(doc) + left_out + folded,
-            "note",
-            measure=False)
     header_row = 1
     limit = SHEET_MAX_ROWS - header_row - 2
     n = min(len(table), limit)
+    printed = (f" Printing: only the first {PRINT_SAMPLE_ROWS} of the {n:,} rows are in this "
+               "sheet's print area; clear the print area to print every row."
+               if n > PRINT_ALL_MAX_ROWS else "")
+    sw.text(0, 0, "Every row of the input's readings sheet with the levels as read and its "
+                  "exclusion reason (empty = valid). " + d.offset_note(doc) + left_out + folded
+                  + printed,
+            "note",
+            measure=False)
     headers: list[str] = []
     plan: list[tuple[str, str]] = []  # (column, kind)
     for name in (str(c) for c in table.columns):
@@ -108,7 +119,8 @@ def add(book: Book) -> None:
     sw.header_height(header_row, 0, headers)
     sw.wrap_notes(last_col)
     print_setup(ws, sw.printed_width(last_col), (header_row, header_row), 3,
-                last_row=last_row, last_col=last_col)
+                last_row=header_row + PRINT_SAMPLE_ROWS if printed else last_row,
+                last_col=last_col)
 
 
 def _fold_band_columns(sw: SheetWriter, headers: list[str]) -> None:

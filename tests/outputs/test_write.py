@@ -427,6 +427,28 @@ def test_readings_sheet_from_annotations(tmp_path: Path) -> None:
                                                           "b.xlsx")).sheetnames
 
 
+@pytest.mark.parametrize("rows", [150, 600])
+def test_a_long_readings_table_prints_only_a_first_page(tmp_path: Path, rows: int) -> None:
+    # on screen every row; in print, a long table only its first rows (a week at 1 min
+    # printed some 300 pages of raw readings), and the sheet's note says so
+    start = pd.date_range("2026-06-10 12:00", periods=rows, freq="min")
+    table = pd.DataFrame({"row": np.arange(2, rows + 2),
+                          "start": [t.strftime("%Y-%m-%dT%H:%M:%S+02:00") for t in start],
+                          "duration_s": 60.0, "LAeq": 50.0, "reason": ""})
+    ws = openpyxl.load_workbook(write(tmp_path, build_results_doc(), annotations=table)
+                                )["Readings"]
+    assert ws.cell(rows + 2, 1).value == rows + 1  # the last reading is on the sheet
+    area = ws.print_area[0] if isinstance(ws.print_area, list) else ws.print_area
+    last_printed = int(re.findall(r"\$(\d+)$", area)[0])
+    note = str(ws.cell(1, 1).value)
+    if rows > 200:
+        assert last_printed == 2 + 25  # header in row 2, then 25 readings
+        assert f"only the first 25 of the {rows:,} rows" in note and "print area" in note
+    else:
+        assert last_printed == 2 + rows
+        assert "Printing" not in note
+
+
 def test_rerun_gives_identical_cells_and_bytes(tmp_path: Path) -> None:
     doc = build_results_doc()
     a = write(tmp_path, doc, "a.xlsx")
