@@ -127,7 +127,7 @@ def add(book: Book) -> None:
         if isinstance(value, bool):
             sw.text(row, 1, "true" if value else "false")
         elif isinstance(value, int | float):
-            if not sw.number(row, 1, value):
+            if not sw.number(row, 1, value, "value_left"):
                 sw.text(row, 1, "not a finite number", "note")
         elif value is None:
             sw.text(row, 1, "(none)", "note")

@@ -98,6 +98,8 @@ _STYLE_PROPS: dict[str, dict[str, Any]] = {
     "percent": {"num_format": FMT_PERCENT, "valign": "top"},
     "hours": {"num_format": FMT_HOURS, "valign": "top"},
     "int": {"num_format": FMT_INT, "valign": "top"},
+    # a number beside its label in a label | value list, aligned like the text values
+    "value_left": {"align": "left", "valign": "top"},
     "seconds": {"num_format": "0.0", "valign": "top"},
     "datetime": {"num_format": FMT_DATETIME, "valign": "top"},
     "datetime_short": {"num_format": "yyyy-mm-dd hh:mm", "valign": "top"},
@@ -485,7 +487,8 @@ class SheetWriter:
             if isinstance(value, bool):
                 self.boolean(row, col + 1, value, value_style)
             elif isinstance(value, int | float):
-                self.number(row, col + 1, value, value_style if value_style != "text" else None)
+                self.number(row, col + 1, value,
+                            value_style if value_style != "text" else "value_left")
             else:
                 self.text(row, col + 1, value, value_style)
             row += 1
