@@ -394,6 +394,10 @@ def test_provenance_records_input_versions_and_settings(tmp_path: Path) -> None:
     assert pairs["coverage_threshold"] == doc["settings"]["coverage_threshold"]
     assert any("2002/49/EC" in str(v) for v in pairs.values())
     assert any("IEC 61672-1" in str(v) for v in pairs.values())
+    # numbers sit beside their labels as the text values do (not at the page's far right)
+    cells = {r[0].value: r[1] for r in ws.iter_rows(max_col=2)}
+    for label in ("Input size [bytes]", "coverage_threshold"):
+        assert cells[label].alignment.horizontal == "left", label
 
 
 def test_flatten_settings_paths() -> None:
