@@ -43,9 +43,21 @@ def add(book: Book) -> None:
     sw = book.sheet(SHEET_ASSESSMENTS)
     ws = sw.ws
     items = list(doc.get("assessments") or [])
-    sw.text(0, 0, "Background-corrected source assessments (ISO 1996-2 residual correction; "
-                  "BS 4142 rating and excess over background where used), one column each. "
-                  "Levels reported to 0.1 dB; windows are local clock.", "note", measure=False)
+    note = ("Background-corrected source assessments (ISO 1996-2 residual correction; "
+            "BS 4142 rating and excess over background where used), one column each. "
+            "Levels reported to 0.1 dB; windows are local clock.")
+    if not items:  # say so, and how to get them, instead of an empty table of labels
+        sw.text(0, 0, note + " No source assessments are configured for this position: add "
+                "[[assessments]] to the settings (source-on and residual windows, or the "
+                "readings' Operating yes/no column) to get background-corrected source "
+                "levels, rating levels and the excess over background.", "note",
+                measure=False)
+        for col in range(3):
+            sw.set_width(col, COLUMN_WIDTH)
+        sw.wrap_notes(2)
+        print_setup(ws, sw.printed_width(2), last_row=0, last_col=2)
+        return
+    sw.text(0, 0, note, "note", measure=False)
     whole = d.background_whole_db(doc)
 
     def corr(key: str) -> Getter:
@@ -99,10 +111,7 @@ def add(book: Book) -> None:
                 sw.number(r, 1 + j, value, kind)
         if lines > 1:
             ws.set_row(r, 15.0 * lines + 2)
-    if not items:
-        sw.text(header_row + 1, 1, "No source assessments are configured.", "note",
-                measure=False)
-    last_col = max(len(items), 1)
+    last_col = len(items)
     last_row = header_row + len(rows)
     sw.header_height(header_row, 0, names)
     sw.wrap_notes(last_col)

@@ -453,6 +453,16 @@ def test_a_long_readings_table_prints_only_a_first_page(tmp_path: Path, rows: in
         assert "Printing" not in note
 
 
+def test_without_assessments_the_sheet_says_how_to_get_them(tmp_path: Path) -> None:
+    doc = build_results_doc()
+    doc["assessments"] = []
+    ws = openpyxl.load_workbook(write(tmp_path, doc))["Assessments"]
+    texts = [str(c.value) for row in ws.iter_rows() for c in row if c.value is not None]
+    assert len(texts) == 1  # one note, no empty table of labels
+    assert "No source assessments are configured" in texts[0]
+    assert "[[assessments]]" in texts[0]
+
+
 def test_rerun_gives_identical_cells_and_bytes(tmp_path: Path) -> None:
     doc = build_results_doc()
     a = write(tmp_path, doc, "a.xlsx")
