@@ -79,8 +79,24 @@ def differences(recorded: Any, recomputed: Any, path: tuple[str, ...] = (),
             out.extend(differences(a, b, (*path, str(i)), (*labels, label)))
         return out
     if recorded != recomputed or type(recorded) is not type(recomputed):
-        return [f"{where}: recorded {recorded!r}, recomputed {recomputed!r}"]
+        return [f"{where}: recorded {_shown(recorded)}, recomputed {_shown(recomputed)}"]
     return []
+
+
+#: Characters of a value quoted in a difference; a longer one is described instead.
+_SHOWN_MAX_CHARS = 120
+
+
+def _shown(value: Any) -> str:
+    """Return a value as a difference line shows it: in full when short, else its size."""
+    text = repr(value)
+    if len(text) <= _SHOWN_MAX_CHARS:
+        return text
+    if isinstance(value, dict):
+        return f"a section of {len(value)} keys ({', '.join(sorted(map(str, value))[:6])}...)"
+    if isinstance(value, list):
+        return f"a list of {len(value)} entries"
+    return text[:_SHOWN_MAX_CHARS - 3] + "..."
 
 
 def verify_results(results_path: Path, input_path: Path | None = None

@@ -283,6 +283,21 @@ def test_verify_names_the_day_interval_and_finding_that_differ(tmp_path: Path) -
     assert "days.0" not in text and "intervals.2" not in text
 
 
+def test_verify_describes_a_large_section_instead_of_printing_it() -> None:
+    # a section that is gone in the recomputation is named by its size, not dumped whole
+    # (a week's background section printed as one line of some 30,000 characters)
+    from surveytools.verify import differences
+
+    recorded = {"background": {"day": {"LA90": 51.0}, "reference_intervals": [
+        {"LA90": 40.0 + i % 5, "period": "night"} for i in range(300)]}, "status": "ok"}
+    recomputed = {"background": None, "status": "errors"}
+    lines = differences(recorded, recomputed)
+    assert lines == ["background: recorded a section of 2 keys (day, reference_intervals...), "
+                     "recomputed None",
+                     "status: recorded 'ok', recomputed 'errors'"]
+    assert all(len(line) < 200 for line in lines)
+
+
 def test_verify_refuses_a_file_that_is_not_json_in_our_words(tmp_path: Path) -> None:
     from surveytools.verify import verify_results
 
