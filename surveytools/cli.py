@@ -41,8 +41,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="surveytools",
         description="Batch processing of environmental sound survey workbooks.",
-        epilog="Exit codes: 0 all inputs fine; 1 some inputs had errors or could not be read; "
-               "2 the command could not run.")
+        epilog="Exit codes: 0 all inputs fine; 1 some inputs had errors, could not be read or "
+               "their results could not be written; 2 the command could not run.")
     parser.add_argument("--version", action="version", version=f"surveytools {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 
