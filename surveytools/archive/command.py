@@ -127,6 +127,7 @@ def execute_report(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         LocalClusterStart,
         ReportOptions,
         build_report,
+        probe_scheduler,
     )
     from surveytools.archive.report import parse_date as report_date
     from surveytools.archive.window import DateWindow
@@ -140,6 +141,8 @@ def execute_report(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         err.write("surveytools: --from is after --to\n")
         return EXIT_USAGE
     memory_limit = args.memory_limit or DEFAULT_WORKER_MEMORY
+    if args.scheduler:
+        probe_scheduler(args.scheduler)  # a mistyped address is said before any work
     # the local cluster's workers start while the settings and the records are read
     started = None if args.scheduler else LocalClusterStart(args.workers, memory_limit)
     try:

@@ -58,6 +58,11 @@ WORKER_START_MODULE = "surveytools.archive.worker_start"
 UNUSED_COLUMNS = ("exclusion", "row")
 #: Seconds to wait for a named scheduler to answer (own choice).
 SCHEDULER_TIMEOUT_S = 30
+#: Port of a Dask scheduler when an address names none (Dask's default, from memory).
+DASK_SCHEDULER_PORT = 8786
+#: Seconds the first plain TCP connection to a named scheduler may take: a port nobody
+#: listens on is said at once instead of after the whole timeout (own choice).
+SCHEDULER_PROBE_S = 3.0
 #: Stored bytes a task reads at most, unless one partition alone is larger (own choice:
 #: a task costs some tens of milliseconds whatever its size — scheduling, one split of the
 #: readings at every boundary — so a 1-minute archive's months, about 0.4 MB each, are
@@ -444,6 +449,7 @@ def dask_client(options: ReportOptions, started: LocalClusterStart | None = None
     from distributed import Client
 
     if options.scheduler:
+        probe_scheduler(options.scheduler)
         try:
             client = Client(options.scheduler, timeout=SCHEDULER_TIMEOUT_S)
         except (OSError, TimeoutError) as exc:
@@ -468,6 +474,41 @@ def dask_client(options: ReportOptions, started: LocalClusterStart | None = None
             starting.close()
         else:
             starting.begin_close()
+
+
+def probe_scheduler(address: str) -> None:
+    """Refuse at once a ``tcp://HOST:PORT`` where nothing listens (a mistyped port).
+
+    Other schemes (``tls://``, ``inproc://`` ...), and an address that does not answer
+    within :data:`SCHEDULER_PROBE_S`, are left to Dask's own connection and its timeout.
+
+    Raises
+    ------
+    ArchiveError
+        If the connection is refused or the host name is unknown.
+    """
+    import socket
+    from urllib.parse import urlsplit
+
+    parts = urlsplit(address if "://" in address else f"tcp://{address}")
+    if parts.scheme != "tcp" or not parts.hostname:
+        return
+    try:
+        port = parts.port or DASK_SCHEDULER_PORT
+    except ValueError:  # not a port number: Dask's own parsing says what is wrong
+        return
+    try:
+        with socket.create_connection((parts.hostname, port), timeout=SCHEDULER_PROBE_S):
+            return
+    except ConnectionRefusedError as exc:
+        raise ArchiveError(f"no Dask scheduler listens at {address} (the connection was "
+                           "refused); check the host and port, start one ('dask scheduler'), "
+                           "or leave out --scheduler to use a local cluster") from exc
+    except socket.gaierror as exc:
+        raise ArchiveError(f"--scheduler {address}: the host name {parts.hostname!r} is not "
+                           "known; check its spelling") from exc
+    except OSError:
+        return  # no answer yet (a slow network): Dask's connection and its timeout decide
 
 
 def _peak_rss_mib() -> float:

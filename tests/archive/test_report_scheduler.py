@@ -96,3 +96,24 @@ def test_report_on_an_existing_cluster_equals_the_local_one(tmp_path):
     (mast,) = local["positions"]
     assert [m["month"] for m in mast["months"]] == ["2026-06", "2026-07"]
     assert len(mast["days"]) == 6 + 3
+
+
+def test_a_scheduler_address_where_nothing_listens_is_refused_at_once(tmp_path: Path) -> None:
+    # a mistyped port is said at once ("connection was refused"), not after Dask's whole
+    # connection timeout ("no Dask scheduler answered ... within 30 s")
+    import socket
+
+    with socket.socket() as probe:  # a port that was free a moment ago
+        probe.bind(("127.0.0.1", 0))
+        port = probe.getsockname()[1]
+    archive = tmp_path / "arch"
+    archive.mkdir()
+    (archive / "ingest.json").write_text('{"layout_version": 1, "inputs": []}',
+                                         encoding="utf-8")
+    code, _, err = cli("archive", "report", str(archive), "-o", str(tmp_path / "out"),
+                       "--scheduler", f"tcp://127.0.0.1:{port}", "--quiet")
+    assert code == 2 and "connection was refused" in err and "check the host and port" in err
+    code, _, err = cli("archive", "report", str(archive), "-o", str(tmp_path / "out"),
+                       "--scheduler", "tcp://no-such-host.invalid:8786", "--quiet")
+    # RFC 2606 reserves .invalid: it never resolves
+    assert code == 2 and "host name 'no-such-host.invalid' is not known" in err
