@@ -65,6 +65,10 @@ CONTEXT_ROWS = 8
 #: out of time order across a batch boundary still merge exactly (own choice: an hour,
 #: 3,600 rows at 1 s carried per batch) [ms].
 CUT_LOOKBACK_MS = 3_600_000
+#: Longest stretch of civil time written twice when clocks go back, validated again
+#: before a cut on a local-time clock (from memory: an hour in most zones, two at
+#: Antarctica/Troll) [ms].
+REPEATED_TIME_MS = 2 * 3_600_000
 #: Most rows a batch may carry forward before the log counts as not cut-able (a batch
 #: with no reporting-interval boundary free of straddling readings) [rows].
 MAX_CARRIED_ROWS = 4 * BATCH_ROWS
@@ -110,6 +114,11 @@ def fits_whole(path: Path) -> bool:
 _SPLIT_OR = "%s, or split the log into shorter files (each read whole), and run again"
 _EMPTY_LOGGED = _SPLIT_OR % ("its logged LN columns are filled in some parts of the log and "
                              "empty in others; fill them or leave them out throughout")
+
+
+def _clock_goes_back(survey: Any) -> bool:
+    """Return True when the meter keeps local time (an autumn hour may be written twice)."""
+    return str(survey.metadata.get("clock") or "local").lower() == "local"
 
 
 def _order_refusal(row: int) -> str:
@@ -212,7 +221,12 @@ def _choose_cut(grid: np.ndarray, start: np.ndarray, end: np.ndarray) -> int | N
 
 def _add_findings(merged: _Merged, survey: Any, first_own_row: int, stop_row: int | None,
                   counts: dict[str, int]) -> None:
-    """Keep a batch's findings on its own rows (and file-level ones once)."""
+    """Keep a batch's findings on its own rows (and file-level ones once).
+
+    The counts too: a finding of the readings sheet counts when its row is the batch's
+    own, whether it was stored or only counted beyond the per-code cap (rows validated
+    again as the next batch's context, or carried to it, count there).
+    """
     dropped: dict[str, int] = {}
     for f in survey.findings:
         if f.code == "findings-truncated":
@@ -227,11 +241,17 @@ def _add_findings(merged: _Merged, survey: Any, first_own_row: int, stop_row: in
             merged.findings.append(f)
             continue
         if f.row < first_own_row or (stop_row is not None and f.row >= stop_row):
-            dropped[f.code] = dropped.get(f.code, 0) + 1
-            continue
+            continue  # counted from the rows below
         merged.findings.append(f)
+    end = np.iinfo(np.int64).max if stop_row is None else stop_row
+    for (code, sheet), rows in survey.finding_rows.items():
+        if sheet == survey.readings_sheet:  # not the batch's own rows: counted elsewhere
+            outside = int(np.count_nonzero((rows < first_own_row) | (rows >= end)))
+            dropped[code] = dropped.get(code, 0) + outside
     for code, n in counts.items():
-        merged.counts[code] = merged.counts.get(code, 0) + max(n - dropped.get(code, 0), 0)
+        own = max(n - dropped.get(code, 0), 0)
+        if own:
+            merged.counts[code] = merged.counts.get(code, 0) + own
 
 
 def _merge_spans(merged: _Merged, spans: list[dict[str, Any]], first_row: int | None) -> None:
@@ -444,6 +464,14 @@ def stream_log(log: LongLog, settings: Settings, weather: Any = None,
                         if stop_row is None else stop_row)
             own_first = next_own - raw.first_data_row + first_pos
             context_first = max(own_first - CONTEXT_ROWS, first_pos)
+            if stop_row is not None and floor_ms is not None and _clock_goes_back(survey):
+                # a meter on local time: the next batch sees again the readings of the
+                # last hours before its cut, so that a repeated autumn hour it starts in
+                # shows both passes and each reading is placed by the order of the rows
+                recent = (rows < stop_row) & (start >= floor_ms - REPEATED_TIME_MS)
+                if recent.any():
+                    context_first = max(min(context_first, int(rows[recent].min())
+                                            - raw.first_data_row + first_pos), first_pos)
             carried_first = context_first
             carried = combined.slice(context_first - first_pos)
             if carried.num_rows > MAX_CARRIED_ROWS:

@@ -98,6 +98,8 @@ class Survey:
         Reader and validation findings, sorted.
     finding_counts : dict of str to int
         Full count per code (including findings beyond the per-code cap).
+    finding_rows : dict of (str, str or None) to numpy.ndarray
+        Row numbers of every located finding per (code, sheet), stored or beyond the cap.
     """
 
     source: SourceInfo
@@ -114,6 +116,7 @@ class Survey:
     weather: pd.DataFrame | None = None
     findings: list[Finding] = field(default_factory=list)
     finding_counts: dict[str, int] = field(default_factory=dict)
+    finding_rows: dict[tuple[str, str | None], np.ndarray] = field(default_factory=dict)
 
     def valid_mask(self, scope: Scope = "all") -> np.ndarray:
         """Return True for readings usable for ``scope`` figures.

@@ -230,3 +230,35 @@ def test_a_log_too_long_to_read_whole_and_out_of_order_is_refused(tmp_path, file
     checked = check_file(path, settings, read=read_input(path, settings, long_logs=True))
     assert checked.status == "unreadable"
     assert [f["code"] for f in checked.findings] == ["log-too-long-to-read-whole"]
+
+
+@pytest.mark.parametrize("batch_rows", [3_000, 6_250, 9_000, 10_800, 12_000])
+def test_a_batch_cut_in_the_repeated_autumn_hour_gives_the_whole_log_results(
+        tmp_path, monkeypatch, batch_rows):
+    # A meter on local time (Europe/Berlin) at 1 s across 25 Oct 2026, when the clocks go
+    # back at 03:00 CEST to 02:00 CET (Directive 2000/84/EC: 01:00 UTC): the hour 02:00-
+    # 02:59 is written twice, and the row order says which pass a reading is in. A batch
+    # that ends in the first pass leaves its readings unresolved, beyond the 200 findings
+    # stored per code (they were still counted as timestamp-ambiguous: 1,000 or 3,400
+    # warnings the whole log does not have); a batch that starts in the second pass saw
+    # no first pass, placed its readings an hour early and refused the log as out of time
+    # order (3,000, 6,250, 9,000 rows) — a long log was then refused outright.
+    utc = np.datetime64("2026-10-24T22:00:00", "s") + np.arange(6 * 3600)
+    switch = np.datetime64("2026-10-25T01:00:00", "s")
+    local = np.where(utc < switch, utc + np.timedelta64(2, "h"), utc + np.timedelta64(1, "h"))
+    levels = np.round(45 + np.random.default_rng(2).normal(0, 3, utc.size), 1)
+    path = tmp_path / "autumn.csv"
+    pd.DataFrame({"Start": pd.Series(local).dt.strftime("%Y-%m-%d %H:%M:%S"),
+                  "Duration (s)": 1, "LAeq": levels}).to_csv(path, index=False)
+    settings_path = tmp_path / "settings.toml"
+    settings_path.write_text('[survey]\nposition = "Mast"\ntime_zone = "Europe/Berlin"\n',
+                             encoding="utf-8")
+    settings = load_settings(settings_path)
+    whole, parts = _both(path, settings, monkeypatch, batch_rows=batch_rows)
+    # hand-evaluated: 6 h of readings from 00:00 CEST (22:00 UTC) to 06:00 UTC = 07:00 CET
+    assert whole["coverage"]["first"] == "2026-10-25T00:00:00+02:00"
+    assert whole["coverage"]["measured_s"] == 6 * 3600.0
+    assert "timestamp-ambiguous" not in whole["finding_counts"]
+    assert parts["finding_counts"] == whole["finding_counts"]
+    assert parts["coverage"] == whole["coverage"]
+    assert_close(parts["intervals"], whole["intervals"], 1e-9)

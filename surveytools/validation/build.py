@@ -247,13 +247,18 @@ def build_survey(raw: RawWorkbook, settings: Settings,
         extra = [f for f in raw.findings if (f.code, f.sheet, f.row, f.column) not in seen]
         findings = sorted(own + extra, key=Finding.sort_key)
         counts = collector.counts
+        rows = collector.located_rows()
         for f in extra:
             counts[f.code] = counts.get(f.code, 0) + 1
+            if f.row is not None:
+                key = (f.code, f.sheet)
+                rows[key] = np.append(rows.get(key, np.zeros(0, np.int64)), f.row)
         kw: dict[str, Any] = {}
         if unplaced is not None:
             kw["unplaced"] = unplaced
         return Survey(raw.source, metadata, readings, level_columns, sheet_name, exclusions,
-                      weather=weather, findings=findings, finding_counts=counts, **kw)
+                      weather=weather, findings=findings, finding_counts=counts,
+                      finding_rows=rows, **kw)
 
     if table is None:
         collector.add(Finding(

@@ -124,10 +124,14 @@ class FindingCollector:
     max_per_code: int = DEFAULT_MAX_PER_CODE
     _items: list[Finding] = field(default_factory=list)
     _counts: Counter[str] = field(default_factory=Counter)
+    #: Rows of every located finding, stored or not, per (code, sheet): arrays or ints.
+    _rows: dict[tuple[str, str | None], list[Any]] = field(default_factory=dict)
 
     def add(self, finding: Finding) -> None:
         """Add one finding (counted always, stored while under the cap)."""
         self._counts[finding.code] += 1
+        if finding.row is not None:
+            self._rows.setdefault((finding.code, finding.sheet), []).append(finding.row)
         if self._counts[finding.code] <= self.max_per_code:
             self._items.append(finding)
 
@@ -171,6 +175,7 @@ class FindingCollector:
             msg = messages if isinstance(messages, str) else messages[i]
             self._items.append(Finding(code, severity, msg, sheet, int(rows_arr[i]), column))
         self._counts[code] += n
+        self._rows.setdefault((code, sheet), []).append(rows_arr)
 
     def room(self, code: str) -> int:
         """Return how many more findings of ``code`` will be stored (the rest are counted)."""
@@ -180,6 +185,18 @@ class FindingCollector:
     def counts(self) -> dict[str, int]:
         """Return the full count per code, including findings beyond the cap."""
         return dict(self._counts)
+
+    def located_rows(self) -> dict[tuple[str, str | None], Any]:
+        """Return the row numbers of every located finding per (code, sheet), capped or not.
+
+        A long log is validated in batches that overlap; the rows say which findings
+        beyond the cap lie in the part a batch keeps (``long_log``).
+        """
+        import numpy as np
+
+        return {key: np.concatenate([np.atleast_1d(np.asarray(r, dtype=np.int64))
+                                     for r in parts])
+                for key, parts in self._rows.items()}
 
     def findings(self) -> list[Finding]:
         """Return stored findings, sorted, plus one ``findings-truncated`` note per capped code."""
