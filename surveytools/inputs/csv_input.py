@@ -188,8 +188,11 @@ def _convert(raw: pd.Series, header: str, letter: str, name: str | None) -> RawC
         text = s.where(present, None)
         if name == "Time":
             text = (_TIME_ONLY_DAY + s).where(present, None)
-        when = pd.to_datetime(text, format="ISO8601", errors="coerce")
-        if getattr(when.dtype, "tz", None) is None:
+        try:
+            when = pd.to_datetime(text, format="ISO8601", errors="coerce")
+        except (ValueError, TypeError):  # UTC offsets in some cells only (or different
+            when = None  # ones): kept as text, read cell by cell with their offsets
+        if when is not None and getattr(when.dtype, "tz", None) is None:
             bad_dt = present & when.isna()
             if expected == "datetime" or not bad_dt.any():
                 stamps = when.astype("datetime64[ms]").reset_index(drop=True)

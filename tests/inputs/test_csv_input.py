@@ -112,3 +112,26 @@ def test_input_unchanged_and_source(tmp_path: Path) -> None:
     before = hashlib.sha256(p.read_bytes()).hexdigest()
     wb = read_csv_table(p)
     assert wb.source.sha256 == before == hashlib.sha256(p.read_bytes()).hexdigest()
+
+
+def test_time_stamps_with_an_offset_in_some_rows_only(tmp_path: Path) -> None:
+    # Some cells carry a UTC offset (ISO 8601), others none: pandas refuses to parse such a
+    # column as one ("Mixed timezones"), which made the whole file an internal error. The
+    # column is kept as text and every cell read with its own offset (or the clock).
+    from surveytools.settings import settings_from_mapping
+    from surveytools.validation import build_survey
+
+    text = ("Start,LAeq (dB)\n"
+            "2026-07-01 10:00:00,50.0\n"
+            "2026-07-01T12:00:01+02:00,51.0\n"
+            "2026-07-01 10:00:02,52.0\n")
+    wb = read_csv_table(_write(tmp_path, text), Settings())
+    assert _col(wb, "Start").kind == "text"
+    settings = settings_from_mapping({"survey": {"position": "Yard", "clock": "UTC",
+                                                 "time_zone": "Europe/Berlin"}})
+    survey = build_survey(wb, settings)
+    # hand-evaluated: 12:00:01+02:00 is 10:00:01 UTC, between the two clock-UTC readings
+    starts = survey.readings["start_ms"].to_numpy()
+    base = int(np.datetime64("2026-07-01T10:00:00", "ms").astype(np.int64))
+    assert (starts - base).tolist() == [0, 1_000, 2_000]
+    assert not [f for f in survey.findings if f.code.startswith("timestamp")]
