@@ -85,7 +85,8 @@ CODES: dict[str, Code] = {
     "readings-sheet-missing": Code("error", "file", "no readings sheet found"),
     "readings-sheet-chosen": Code("info", "sheet", "the readings sheet was recognised by "
                                                    "another name or by its columns"),
-    "readings-missing": Code("error", "sheet", "no usable readings table"),
+    "readings-missing": Code("error", "sheet", "no usable readings table (none found, or a "
+                                               "header without readings below it)"),
     "header-missing": Code("error", "sheet", "no header row in the first rows of a sheet"),
     "column-missing": Code("error", "sheet", "a required column (LAeq, a time column) is "
                                              "missing"),

@@ -270,6 +270,12 @@ def build_survey(raw: RawWorkbook, settings: Settings,
     cols = _match(table, READINGS_COLUMNS, settings.column_map, collector, True)
     by = cols.by_name
     n = table.n_rows
+    if n == 0:  # a header and nothing below it: no figure can come from this input
+        collector.add(Finding(
+            "readings-missing", Severity.ERROR,
+            f"the readings table has its header (row {table.header_row}) but no readings "
+            "below it — export the log again with its data", table.sheet,
+            table.header_row))
     level_names = [name for name in by if is_level_column(name)]
     if "LAeq" not in by:
         _missing_column(collector, table, "LAeq", "the per-interval level is required",

@@ -274,6 +274,16 @@ def test_technician_exclusions_all_and_background():
     assert s.valid_mask("background")[[12, 13]].tolist() == [False, False]
 
 
+def test_a_header_without_readings_is_an_error_not_ok():
+    # a header row and nothing below it (an export cut short, a blank template) gave status
+    # ok with no figures at all; it is readings-missing, located at the header row
+    s = build(readings([], [], header_row=3))
+    (found,) = [f for f in s.findings if f.code == "readings-missing"]
+    assert (found.severity.value, found.sheet, found.row) == ("error", "Readings", 3)
+    assert "no readings below it" in found.message
+    assert s.readings.empty
+
+
 def test_no_readings_table():
     from validation_builders import SOURCE
     s = build_survey(RawWorkbook(SOURCE, None), Settings())
