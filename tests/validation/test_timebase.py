@@ -303,3 +303,13 @@ def test_modal_step_matches_a_counter_reference(gaps, shuffle):
     counts = Counter(steps)
     top = max(counts.values())
     assert tb.modal_step_ms(instants) == min(s for s, c in counts.items() if c == top)
+
+
+def test_a_number_in_a_time_column_is_quoted_as_written():
+    # 1 (an integer column, read as 1.0) is quoted as 1; 45000.5 as it is
+    from surveytools.inputs.raw import RawColumn
+
+    col = RawColumn("Start", "A", "number", pd.Series([1.0, 45000.5, np.nan]))
+    naive = tb.column_datetimes(col, 3)
+    assert naive.raw[0] == "1" and naive.raw[1] == "45000.5"
+    assert not naive.ok[:2].any() and naive.empty[2]
