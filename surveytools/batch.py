@@ -164,7 +164,10 @@ def discover(paths: list[Path]) -> tuple[list[Candidate], list[Skipped]]:
             return
         reason = _skip_reason(p.name)
         if reason:
-            if explicit or p.suffix.lower() in suffixes:
+            # the tool's own results found in a folder (-o pointing at the inputs) are
+            # passed over like any other file that is not a survey; named, they are told
+            own_output = any(p.name.lower().endswith(m) for m in OUTPUT_MARKERS)
+            if explicit or (p.suffix.lower() in suffixes and not own_output):
                 skipped.append(Skipped(str(p), "lock-or-temp-file", reason))
             return
         if p.suffix.lower() not in suffixes:

@@ -49,6 +49,19 @@ def test_discover_reports_a_missing_explicit_path(tmp_path: Path) -> None:
                                  "spelling of the path")
 
 
+def test_own_outputs_in_a_scanned_folder_are_passed_over_silently(tmp_path: Path) -> None:
+    # -o pointing at the input folder: the next run finds its own results there; they are
+    # not inputs and not worth a line each run, but a results file named as an input is told
+    _touch(tmp_path / "mast.xlsx", b"PK\x03\x04" + b"x" * 100)
+    for name in ("mast.results.xlsx", "mast.results.json", "overview.xlsx", "overview.json"):
+        _touch(tmp_path / name, b"PK\x03\x04")
+    found, skipped = discover([tmp_path])
+    assert [c.path.name for c in found] == ["mast.xlsx"] and skipped == []
+    _, named = discover([tmp_path / "overview.xlsx"])
+    assert [(s.code, s.reason) for s in named] == [("lock-or-temp-file",
+                                                    "an output of surveytools")]
+
+
 def test_a_file_still_growing_is_deferred_not_failed(tmp_path: Path) -> None:
     path = _touch(tmp_path / "copying.xlsx", b"PK\x03\x04" + b"x" * 100)
     st = path.stat()
