@@ -77,7 +77,9 @@ CODES: dict[str, Code] = {
     "path-missing": Code("error", "batch", "a path given on the command line does not exist"),
     "not-regular-file": Code("info", "batch", "a link, pipe or device in the folder: skipped"),
     "lock-or-temp-file": Code("info", "batch", "a lock or temporary file of a spreadsheet "
-                                               "program: skipped"),
+                                               "program, or a surveytools output named as an "
+                                               "input: skipped (outputs found in a scanned "
+                                               "folder are passed over silently)"),
     "not-a-survey-file": Code("info", "batch", "not an .xlsx, .xlsm, .csv or .parquet file: "
                                                "skipped"),
     "file-changing": Code("warning", "batch", "still being copied: deferred to the next run"),
