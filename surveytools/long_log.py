@@ -117,8 +117,20 @@ _EMPTY_LOGGED = _SPLIT_OR % ("its logged LN columns are filled in some parts of 
 
 
 def _clock_goes_back(survey: Any) -> bool:
-    """Return True when the meter keeps local time (an autumn hour may be written twice)."""
-    return str(survey.metadata.get("clock") or "local").lower() == "local"
+    """Return True when the meter keeps a zone's local time (an hour may be written twice).
+
+    The clock as validation reads it (:func:`~surveytools.validation.timebase.parse_clock`):
+    UTC and fixed offsets never repeat an hour; a clock it cannot read counts as local.
+    """
+    from surveytools.validation.timebase import parse_clock
+
+    metadata = survey.metadata
+    try:
+        clock = parse_clock(str(metadata.get("clock") or "local"),
+                            str(metadata.get("time_zone") or "UTC"))
+    except ValueError:
+        return True
+    return clock.kind == "local"
 
 
 def _order_refusal(row: int) -> str:
