@@ -27,6 +27,7 @@ import unicodedata
 from collections.abc import Mapping, Sequence
 
 from surveytools import constants as const
+from surveytools.inputs.raw import cell_number_text
 
 # --------------------------------------------------------------------------------------
 # Normalisation
@@ -60,9 +61,7 @@ def normalise_header(text: object) -> str:
     """
     if text is None:
         return ""
-    if isinstance(text, float) and text.is_integer():
-        text = int(text)
-    s = unicodedata.normalize("NFKC", str(text)).strip().lower()
+    s = unicodedata.normalize("NFKC", cell_number_text(text)).strip().lower()
     previous = None
     while previous != s:
         previous = s

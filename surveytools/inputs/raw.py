@@ -26,6 +26,13 @@ if TYPE_CHECKING:  # annotations only: keeps the batch parent free of pandas, an
 ColumnKind = Literal["number", "datetime", "text", "bool", "empty"]
 
 
+def cell_number_text(value: object) -> str:
+    """Return a cell's value as a person wrote it: ``1`` for the number 1.0, else its text."""
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value)
+
+
 @dataclass
 class RawColumn:
     """One column of a table sheet.

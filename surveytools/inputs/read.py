@@ -50,6 +50,7 @@ from surveytools.inputs.raw import (
     RawColumn,
     RawTable,
     RawWorkbook,
+    cell_number_text,
 )
 from surveytools.inputs.source import source_info
 from surveytools.provenance import SourceInfo
@@ -664,9 +665,7 @@ def _has_text(value: Any) -> bool:
 
 
 def _header_text(value: Any) -> str:
-    if isinstance(value, float) and value.is_integer():
-        return str(int(value))
-    return "" if value is None else str(value).strip()
+    return "" if value is None else cell_number_text(value).strip()
 
 
 def _split_ref(ref: str) -> tuple[str, int]:

@@ -40,7 +40,7 @@ from surveytools.constants import (
     PLAUSIBLE_READING_YEAR_END,
     PLAUSIBLE_READING_YEAR_MIN,
 )
-from surveytools.inputs.raw import RawColumn
+from surveytools.inputs.raw import RawColumn, cell_number_text
 from surveytools.validation.findings import Finding, FindingCollector, Severity
 from surveytools.zone_offsets import utc_offsets_ms
 
@@ -347,13 +347,6 @@ def _text_series(col: RawColumn, n: int) -> pd.Series:
     return s
 
 
-def _number_text(value: object) -> str:
-    """Return a number cell as a person wrote it: ``1`` for 1.0, ``45000.5`` as it is."""
-    if isinstance(value, float) and value.is_integer() and abs(value) < 1e15:
-        return str(int(value))
-    return str(value)
-
-
 def column_datetimes(col: RawColumn, n: int) -> NaiveTimes:
     """Read a date-time column (date-time cells or ISO 8601 text) as naive ms.
 
@@ -379,7 +372,7 @@ def column_datetimes(col: RawColumn, n: int) -> NaiveTimes:
         pos = np.flatnonzero(present)
         out.fail(pos, "the cell holds a number, not a date-time — format the cell as a date "
                  "and time, or write ISO 8601 text such as 2026-07-03 22:00:00",
-                 np.array([_number_text(v) for v in vals[pos]], dtype=object))
+                 np.array([cell_number_text(v) for v in vals[pos]], dtype=object))
     if col.kind != "text" and not col.text_cells:
         return _implausible_years(out)  # typed cells only: no text to parse
     texts = _text_series(col, n)
