@@ -182,12 +182,13 @@ def _write_criteria(sw: SheetWriter, doc: Mapping[str, Any]) -> None:
                          ("text", item.get("first_above")), ("text", item.get("last_above"))])
     end = _table(sw, 0, headers, rows)
     if not rows:  # say why the table is empty, and how to fill it
-        set_ = (doc.get("settings") or {}).get("criteria")
-        sw.text(end + 1, 0, "No criteria were counted: the report's settings hold no "
-                "[[criteria]] of days or reporting intervals. Give the settings file with "
-                "the limits to judge (--settings FILE) to count the days and intervals "
-                "above them." if not set_ else "No criteria were counted: no position had "
-                "a figure the criteria of the settings could judge.", "note", measure=False)
+        if (doc.get("settings") or {}).get("criteria"):
+            why = "no position had a figure the criteria of the settings could judge."
+        else:
+            why = ("the report's settings hold no [[criteria]] of days or reporting "
+                   "intervals. Give the settings file with the limits to judge (--settings "
+                   "FILE) to count the days and intervals above them.")
+        sw.text(end + 1, 0, "No criteria were counted: " + why, "note", measure=False)
 
 
 #: Sheet rows of one position's pair of charts (300 px charts and a gap; own choice).
