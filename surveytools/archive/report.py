@@ -448,8 +448,7 @@ def dask_client(options: ReportOptions, started: LocalClusterStart | None = None
     """
     from distributed import Client
 
-    if options.scheduler:
-        probe_scheduler(options.scheduler)
+    if options.scheduler:  # the command has probed the address (probe_scheduler)
         try:
             client = Client(options.scheduler, timeout=SCHEDULER_TIMEOUT_S)
         except (OSError, TimeoutError) as exc:
